@@ -1,0 +1,71 @@
+"""Reference data is managed here by supervisors: variants with their positions, places, sites.
+Service records are written through the workshop pages (they carry the audit trail), so the
+admin shows them read-only."""
+
+from django.contrib import admin
+
+from . import models
+
+
+class AnodePositionInline(admin.TabularInline):
+    model = models.AnodePosition
+    extra = 0
+
+
+class SealPositionInline(admin.TabularInline):
+    model = models.SealPosition
+    extra = 0
+
+
+class ReplyChargeStepInline(admin.TabularInline):
+    model = models.ReplyChargeStep
+    extra = 0
+
+
+@admin.register(models.Variant)
+class VariantAdmin(admin.ModelAdmin):
+    list_display = ("name", "depth_rating_m", "housing_alloy", "release_fitted")
+    inlines = [AnodePositionInline, SealPositionInline, ReplyChargeStepInline]
+
+
+@admin.register(models.Transponder)
+class TransponderAdmin(admin.ModelAdmin):
+    list_display = ("serial", "variant", "status", "place", "acoustic_address")
+    list_filter = ("status", "variant", "place")
+    search_fields = ("serial", "acoustic_address")
+
+
+@admin.register(models.Place)
+class PlaceAdmin(admin.ModelAdmin):
+    list_display = ("name", "kind")
+
+
+@admin.register(models.Site)
+class SiteAdmin(admin.ModelAdmin):
+    list_display = ("name", "latitude_deg", "longitude_deg", "water_depth_m")
+
+
+class ReadOnlyAdmin(admin.ModelAdmin):
+    def has_add_permission(self, request: object, obj: object = None) -> bool:
+        return False
+
+    def has_change_permission(self, request: object, obj: object = None) -> bool:
+        return False
+
+    def has_delete_permission(self, request: object, obj: object = None) -> bool:
+        return False
+
+
+@admin.register(models.ServiceRecord)
+class ServiceRecordAdmin(ReadOnlyAdmin):
+    list_display = ("unit", "opened_at", "closed_at", "technician")
+
+
+@admin.register(models.Deployment)
+class DeploymentAdmin(ReadOnlyAdmin):
+    list_display = ("unit", "site", "over_side_at", "recovered_at")
+
+
+@admin.register(models.Amendment)
+class AmendmentAdmin(ReadOnlyAdmin):
+    list_display = ("record", "field_name", "original_value", "corrected_value", "created_by")

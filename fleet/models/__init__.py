@@ -1,0 +1,52 @@
+"""Holdfast records, split by family and re-exported here."""
+
+from .audit import Amendment
+from .deployments import Deployment
+from .places import Place, Site
+from .records import (
+    AnodeReading,
+    BatteryInstall,
+    HousingOpening,
+    PressureTest,
+    ReleaseTest,
+    SealChange,
+    SensorCheck,
+    ServiceRecord,
+)
+from .units import Transponder, UnitPhoto, UnitStatus
+from .variants import (
+    AnodeAlloy,
+    AnodePosition,
+    Chemistry,
+    Elastomer,
+    HousingAlloy,
+    ReplyChargeStep,
+    SealPosition,
+    Variant,
+)
+
+__all__ = [
+    "Amendment",
+    "AnodeAlloy",
+    "AnodePosition",
+    "AnodeReading",
+    "BatteryInstall",
+    "Chemistry",
+    "Deployment",
+    "Elastomer",
+    "HousingAlloy",
+    "HousingOpening",
+    "Place",
+    "PressureTest",
+    "ReleaseTest",
+    "ReplyChargeStep",
+    "SealChange",
+    "SealPosition",
+    "SensorCheck",
+    "ServiceRecord",
+    "Site",
+    "Transponder",
+    "UnitPhoto",
+    "UnitStatus",
+    "Variant",
+]

@@ -1,0 +1,29 @@
+"""Amendments: corrections to a closed service record that keep the original value."""
+
+from django.conf import settings
+from django.contrib.contenttypes.fields import GenericForeignKey
+from django.contrib.contenttypes.models import ContentType
+from django.db import models
+
+from .records import ServiceRecord
+
+
+class Amendment(models.Model):
+    record = models.ForeignKey(ServiceRecord, on_delete=models.PROTECT, related_name="amendments")
+    target_type = models.ForeignKey(ContentType, on_delete=models.PROTECT)
+    target_id = models.PositiveBigIntegerField()
+    target = GenericForeignKey("target_type", "target_id")
+    field_name = models.CharField(max_length=60)
+    original_value = models.TextField(blank=True)
+    corrected_value = models.TextField(blank=True)
+    reason = models.TextField()
+    created_by = models.ForeignKey(
+        settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+"
+    )
+    created_at = models.DateTimeField(auto_now_add=True)
+
+    class Meta:
+        ordering = ["created_at", "pk"]
+
+    def __str__(self) -> str:
+        return f"amendment to {self.field_name} on record {self.record_id}"

@@ -1,0 +1,85 @@
+"""Deployments: a unit in the water at a site, from over the side to recovery."""
+
+from django.conf import settings
+from django.core.exceptions import ValidationError
+from django.core.validators import MaxValueValidator, MinValueValidator
+from django.db import models
+from django.db.models import Q
+from django.utils import timezone
+
+from .places import Site
+from .units import Transponder
+
+
+class Deployment(models.Model):
+    unit = models.ForeignKey(Transponder, on_delete=models.PROTECT, related_name="deployments")
+    site = models.ForeignKey(Site, on_delete=models.PROTECT, related_name="deployments")
+    over_side_at = models.DateTimeField("over the side")
+    recovered_at = models.DateTimeField("recovered", null=True, blank=True)
+    planned_days = models.PositiveIntegerField(
+        validators=[MinValueValidator(1), MaxValueValidator(3650)]
+    )
+    planned_interrogations_per_day = models.PositiveIntegerField(
+        validators=[MaxValueValidator(1_000_000)]
+    )
+    replies_counted = models.PositiveIntegerField(
+        "replies counted on recovery", null=True, blank=True
+    )
+    transmit_power_step = models.PositiveSmallIntegerField(
+        validators=[MinValueValidator(1), MaxValueValidator(9)]
+    )
+    notes = models.TextField(blank=True)
+    created_by = models.ForeignKey(
+        settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+", null=True
+    )
+    created_at = models.DateTimeField(auto_now_add=True)
+
+    class Meta:
+        ordering = ["-over_side_at"]
+        constraints = [
+            models.CheckConstraint(
+                condition=Q(recovered_at__isnull=True)
+                | Q(recovered_at__gt=models.F("over_side_at")),
+                name="deployment_recovered_after_over_side",
+            ),
+            models.UniqueConstraint(
+                fields=["unit"],
+                condition=Q(recovered_at__isnull=True),
+                name="one_open_deployment_per_unit",
+            ),
+        ]
+
+    def __str__(self) -> str:
+        return f"{self.unit} at {self.site} from {self.over_side_at:%Y-%m-%d}"
+
+    @property
+    def is_open(self) -> bool:
+        return self.recovered_at is None
+
+    def clean(self) -> None:
+        super().clean()
+        errors: dict[str, str] = {}
+        now = timezone.now()
+        if self.over_side_at and self.over_side_at > now:
+            errors["over_side_at"] = "Over the side cannot be in the future."
+        if self.recovered_at:
+            if self.recovered_at > now:
+                errors["recovered_at"] = "Recovery cannot be in the future."
+            elif self.over_side_at and self.recovered_at <= self.over_side_at:
+                errors["recovered_at"] = "Recovery must come after over the side."
+        if self.replies_counted is not None and self.recovered_at is None:
+            errors["replies_counted"] = "Count replies when the unit is recovered."
+        if errors:
+            raise ValidationError(errors)
+        if self.unit_id and self.over_side_at:
+            end = self.recovered_at
+            others = Deployment.objects.filter(unit_id=self.unit_id).exclude(pk=self.pk)
+            overlapping = others.filter(
+                Q(recovered_at__isnull=True) | Q(recovered_at__gt=self.over_side_at)
+            )
+            if end is not None:
+                overlapping = overlapping.filter(over_side_at__lt=end)
+            if overlapping.exists():
+                raise ValidationError(
+                    {"over_side_at": "This unit has another deployment overlapping these dates."}
+                )

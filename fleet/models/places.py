@@ -1,0 +1,57 @@
+"""Places where units are kept (workshop, store, vessel) and sites where they are deployed."""
+
+from django.core.validators import MaxValueValidator, MinValueValidator
+from django.db import models
+from django.urls import reverse
+
+
+class Place(models.Model):
+    class Kind(models.TextChoices):
+        WORKSHOP = "workshop", "Workshop"
+        STORE = "store", "Store"
+        VESSEL = "vessel", "Vessel"
+
+    name = models.CharField(max_length=80, unique=True)
+    kind = models.CharField(max_length=16, choices=Kind.choices)
+
+    class Meta:
+        ordering = ["name"]
+
+    def __str__(self) -> str:
+        return self.name
+
+
+class Site(models.Model):
+    """A deployment site; its depth, temperature and salinity feed the seawater checks."""
+
+    name = models.CharField(max_length=80, unique=True)
+    latitude_deg = models.FloatField(
+        "latitude (°)", validators=[MinValueValidator(-90.0), MaxValueValidator(90.0)]
+    )
+    longitude_deg = models.FloatField(
+        "longitude (°)", validators=[MinValueValidator(-180.0), MaxValueValidator(180.0)]
+    )
+    water_depth_m = models.FloatField(
+        "water depth (m)", validators=[MinValueValidator(0.0), MaxValueValidator(11000.0)]
+    )
+    bottom_temperature_c = models.FloatField(
+        "bottom temperature (°C)",
+        validators=[MinValueValidator(-2.5), MaxValueValidator(40.0)],
+        help_text="In-situ temperature at the seabed, −2.5 to 40 °C.",
+    )
+    practical_salinity = models.FloatField(
+        "practical salinity",
+        default=35.0,
+        validators=[MinValueValidator(0.0), MaxValueValidator(42.0)],
+        help_text="PSS-78, 0 to 42.",
+    )
+    notes = models.TextField(blank=True)
+
+    class Meta:
+        ordering = ["name"]
+
+    def __str__(self) -> str:
+        return self.name
+
+    def get_absolute_url(self) -> str:
+        return reverse("site-detail", args=[self.pk])

@@ -1,0 +1,80 @@
+"""Transponders (units), by serial, and their photos."""
+
+from django.conf import settings
+from django.core.validators import MaxValueValidator, MinValueValidator, RegexValidator
+from django.db import models
+from django.urls import reverse
+
+from .places import Place
+from .variants import Variant
+
+serial_validator = RegexValidator(
+    r"^[A-Z0-9][A-Z0-9-]{1,30}$",
+    "Use 2 to 31 capital letters, digits and hyphens, starting with a letter or digit.",
+)
+
+
+class UnitStatus(models.TextChoices):
+    IN_STORE = "in_store", "In store"
+    IN_WORKSHOP = "in_workshop", "In workshop"
+    READY = "ready", "Ready"
+    DEPLOYED = "deployed", "Deployed"
+    QUARANTINED = "quarantined", "Quarantined"
+    RETIRED = "retired", "Retired"
+    LOST = "lost", "Lost"
+
+
+class Transponder(models.Model):
+    serial = models.CharField(max_length=31, unique=True, validators=[serial_validator])
+    variant = models.ForeignKey(Variant, on_delete=models.PROTECT, related_name="units")
+    status = models.CharField(
+        max_length=16, choices=UnitStatus.choices, default=UnitStatus.IN_STORE
+    )
+    place = models.ForeignKey(
+        Place, on_delete=models.PROTECT, null=True, blank=True, related_name="units"
+    )
+    acoustic_address = models.CharField(
+        max_length=12,
+        validators=[RegexValidator(r"^[A-Z0-9-]{1,12}$", "Capital letters, digits and hyphens.")],
+        help_text="Address or channel the unit answers to.",
+    )
+    turnaround_delay_ms = models.FloatField(
+        "turnaround delay (ms)", validators=[MinValueValidator(0.0), MaxValueValidator(1000.0)]
+    )
+    transmit_power_step = models.PositiveSmallIntegerField(
+        default=1, validators=[MinValueValidator(1), MaxValueValidator(9)]
+    )
+    notes = models.TextField(blank=True)
+    created_at = models.DateTimeField(auto_now_add=True)
+    updated_at = models.DateTimeField(auto_now=True)
+    version = models.PositiveIntegerField(default=1, editable=False)
+
+    class Meta:
+        ordering = ["serial"]
+        verbose_name = "transponder"
+
+    def __str__(self) -> str:
+        return self.serial
+
+    def get_absolute_url(self) -> str:
+        return reverse("unit-detail", args=[self.serial])
+
+
+def _photo_path(instance: "UnitPhoto", filename: str) -> str:
+    return f"units/{instance.unit.serial}/{filename}"
+
+
+class UnitPhoto(models.Model):
+    unit = models.ForeignKey(Transponder, on_delete=models.CASCADE, related_name="photos")
+    image = models.ImageField(upload_to=_photo_path)
+    caption = models.CharField(max_length=120, blank=True)
+    uploaded_by = models.ForeignKey(
+        settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+"
+    )
+    uploaded_at = models.DateTimeField(auto_now_add=True)
+
+    class Meta:
+        ordering = ["-uploaded_at"]
+
+    def __str__(self) -> str:
+        return self.caption or self.image.name

@@ -1,0 +1,271 @@
+"""Variants: the designs units are built to, with their anode and seal positions.
+
+A variant carries everything the due engine needs that is the same for every unit built to it:
+depth rating, battery arrangement, duty currents, and the maintenance intervals the operator
+sets. Intervals left empty fall back to the defaults in ``settings.HOLDFAST``.
+"""
+
+from django.core.exceptions import ValidationError
+from django.core.validators import MaxValueValidator, MinValueValidator
+from django.db import models
+
+
+class HousingAlloy(models.TextChoices):
+    ALUMINIUM_6061 = "al6061", "Aluminium 6061-T6, hard anodised"
+    ALUMINIUM_7075 = "al7075", "Aluminium 7075-T6, hard anodised"
+    DUPLEX = "duplex", "Duplex stainless steel"
+    SUPER_DUPLEX = "super_duplex", "Super duplex stainless steel"
+    TITANIUM = "ti_gr5", "Titanium grade 5"
+    ACETAL = "acetal", "Acetal (POM) with metal fittings"
+
+
+class AnodeAlloy(models.TextChoices):
+    AL_ZN_IN = "al_zn_in", "Al-Zn-In"
+    ZINC = "zn", "Zinc"
+    MAGNESIUM = "mg", "Magnesium"
+
+
+class Elastomer(models.TextChoices):
+    NBR = "NBR", "NBR (nitrile)"
+    HNBR = "HNBR", "HNBR (hydrogenated nitrile)"
+    FKM = "FKM", "FKM (fluorocarbon)"
+    EPDM = "EPDM", "EPDM"
+    VMQ = "VMQ", "VMQ (silicone)"
+    CR = "CR", "CR (chloroprene)"
+
+
+class Chemistry(models.TextChoices):
+    ALKALINE = "alkaline", "Alkaline Zn/MnO₂"
+    LI_SOCL2 = "li_socl2", "Lithium thionyl chloride Li/SOCl₂"
+    LI_MNO2 = "li_mno2", "Lithium manganese dioxide Li/MnO₂"
+
+
+def _validate_chemistry_list(value: object) -> None:
+    if not isinstance(value, list) or not value:
+        raise ValidationError("List at least one battery chemistry.", code="empty")
+    allowed = set(Chemistry.values)
+    unknown = [item for item in value if item not in allowed]
+    if unknown:
+        raise ValidationError(
+            "Unknown chemistry %(unknown)s; allowed: %(allowed)s.",
+            params={"unknown": ", ".join(map(str, unknown)), "allowed": ", ".join(sorted(allowed))},
+            code="unknown_chemistry",
+        )
+
+
+class Variant(models.Model):
+    name = models.CharField(max_length=80, unique=True)
+    description = models.TextField(blank=True)
+    depth_rating_m = models.FloatField(
+        "depth rating (m)", validators=[MinValueValidator(1.0), MaxValueValidator(11000.0)]
+    )
+    housing_alloy = models.CharField(max_length=16, choices=HousingAlloy.choices)
+    release_fitted = models.BooleanField(default=False)
+    has_temperature_sensor = models.BooleanField("temperature sensor", default=True)
+    has_pressure_sensor = models.BooleanField("pressure (depth) sensor", default=True)
+    has_tilt_sensor = models.BooleanField("tilt sensor", default=False)
+
+    # Battery arrangement
+    allowed_chemistries = models.JSONField(
+        default=list,
+        validators=[_validate_chemistry_list],
+        help_text='Chemistries the battery bay accepts, e.g. ["alkaline", "li_socl2"].',
+    )
+    cells_in_series = models.PositiveSmallIntegerField(
+        validators=[MinValueValidator(1), MaxValueValidator(60)]
+    )
+    parallel_strings = models.PositiveSmallIntegerField(
+        default=1, validators=[MinValueValidator(1), MaxValueValidator(20)]
+    )
+
+    # Duty
+    listen_current_a = models.FloatField(
+        "listen-mode current (A)",
+        validators=[MinValueValidator(0.0), MaxValueValidator(1.0)],
+        help_text="Quiescent current while listening, in amperes (0.0002 = 200 µA).",
+    )
+    release_charge_as = models.FloatField(
+        "charge per release operation (A·s)",
+        default=0.0,
+        validators=[MinValueValidator(0.0), MaxValueValidator(100000.0)],
+    )
+
+    # Recovery buoyancy (in air mass and displaced volume with flotation collar fitted)
+    mass_in_air_kg = models.FloatField(
+        "mass in air (kg)",
+        null=True,
+        blank=True,
+        validators=[MinValueValidator(0.0), MaxValueValidator(5000.0)],
+    )
+    displaced_volume_m3 = models.FloatField(
+        "displaced volume (m³)",
+        null=True,
+        blank=True,
+        validators=[MinValueValidator(0.0), MaxValueValidator(10.0)],
+    )
+
+    # Maintenance intervals and limits (empty: settings default)
+    pressure_test_valid_months = models.PositiveSmallIntegerField(
+        null=True, blank=True, validators=[MinValueValidator(1), MaxValueValidator(120)]
+    )
+    proof_factor = models.FloatField(
+        null=True,
+        blank=True,
+        validators=[MinValueValidator(1.0), MaxValueValidator(3.0)],
+        help_text="Test pressure as a multiple of the site pressure (workshop practice).",
+    )
+    release_test_valid_days = models.PositiveSmallIntegerField(
+        null=True, blank=True, validators=[MinValueValidator(1), MaxValueValidator(3650)]
+    )
+    sensor_check_interval_months = models.PositiveSmallIntegerField(
+        null=True, blank=True, validators=[MinValueValidator(1), MaxValueValidator(120)]
+    )
+    bond_resistance_limit_ohm = models.FloatField(
+        "bond resistance limit (Ω)",
+        null=True,
+        blank=True,
+        validators=[MinValueValidator(0.0), MaxValueValidator(100.0)],
+    )
+
+    class Meta:
+        ordering = ["name"]
+
+    def __str__(self) -> str:
+        return self.name
+
+    def clean(self) -> None:
+        super().clean()
+        if (self.mass_in_air_kg is None) != (self.displaced_volume_m3 is None):
+            raise ValidationError(
+                {"displaced_volume_m3": "Give both mass in air and displaced volume, or neither."}
+            )
+
+
+class ReplyChargeStep(models.Model):
+    """Charge drawn from the pack by one reply at one transmit power step."""
+
+    variant = models.ForeignKey(Variant, on_delete=models.CASCADE, related_name="reply_steps")
+    step = models.PositiveSmallIntegerField(validators=[MinValueValidator(1), MaxValueValidator(9)])
+    charge_per_reply_as = models.FloatField(
+        "charge per reply (A·s)", validators=[MinValueValidator(0.0), MaxValueValidator(100.0)]
+    )
+    source_level_db = models.FloatField(
+        "source level (dB re 1 µPa at 1 m)",
+        null=True,
+        blank=True,
+        validators=[MinValueValidator(100.0), MaxValueValidator(230.0)],
+    )
+
+    class Meta:
+        ordering = ["variant", "step"]
+        constraints = [
+            models.UniqueConstraint(fields=["variant", "step"], name="uniq_variant_power_step")
+        ]
+
+    def __str__(self) -> str:
+        return f"{self.variant} step {self.step}"
+
+
+class AnodePosition(models.Model):
+    """One separately bonded metal part's anode on a variant."""
+
+    variant = models.ForeignKey(Variant, on_delete=models.CASCADE, related_name="anode_positions")
+    name = models.CharField(max_length=60)
+    alloy = models.CharField(max_length=12, choices=AnodeAlloy.choices, default=AnodeAlloy.AL_ZN_IN)
+    new_net_mass_g = models.FloatField(
+        "new net mass (g)", validators=[MinValueValidator(0.1), MaxValueValidator(100000.0)]
+    )
+    utilisation_factor = models.FloatField(
+        default=0.80,
+        validators=[MinValueValidator(0.01), MaxValueValidator(1.0)],
+        help_text="DNV-RP-B401 Table 10-8; 0.80 for bracelets and short flush-mounted anodes.",
+    )
+    replace_at_remaining_percent = models.FloatField(
+        "replace at remaining (%)",
+        default=50.0,
+        validators=[MinValueValidator(0.0), MaxValueValidator(100.0)],
+    )
+    design_current_a = models.FloatField(
+        "design mean current (A)",
+        null=True,
+        blank=True,
+        validators=[MinValueValidator(0.0), MaxValueValidator(100.0)],
+        help_text="Mean protection current this anode is sized for; sets the design wear rate.",
+    )
+
+    class Meta:
+        ordering = ["variant", "name"]
+        constraints = [
+            models.UniqueConstraint(fields=["variant", "name"], name="uniq_anode_position_name")
+        ]
+
+    def __str__(self) -> str:
+        return f"{self.name} ({self.get_alloy_display()})"
+
+
+class SealPosition(models.Model):
+    """An O-ring seal on a variant, by AS568 dash number or ISO 3601 inside diameter × section."""
+
+    variant = models.ForeignKey(Variant, on_delete=models.CASCADE, related_name="seal_positions")
+    name = models.CharField(max_length=60)
+    as568_dash = models.CharField(
+        "AS568 dash number",
+        max_length=4,
+        blank=True,
+        help_text="For example 240 for AS568-240. Leave empty for a metric ring.",
+    )
+    iso_inner_diameter_mm = models.FloatField(
+        "ISO 3601 inside diameter d1 (mm)",
+        null=True,
+        blank=True,
+        validators=[MinValueValidator(0.5), MaxValueValidator(2000.0)],
+    )
+    iso_cross_section_mm = models.FloatField(
+        "ISO 3601 cross-section d2 (mm)",
+        null=True,
+        blank=True,
+        validators=[MinValueValidator(0.5), MaxValueValidator(20.0)],
+    )
+    material = models.CharField(max_length=8, choices=Elastomer.choices, default=Elastomer.NBR)
+    count = models.PositiveSmallIntegerField(
+        default=1, validators=[MinValueValidator(1), MaxValueValidator(50)]
+    )
+    interval_months = models.PositiveSmallIntegerField(
+        "replace every (months)", validators=[MinValueValidator(1), MaxValueValidator(240)]
+    )
+    max_openings = models.PositiveSmallIntegerField(
+        "replace after openings",
+        validators=[MinValueValidator(1), MaxValueValidator(100)],
+        help_text="Housing openings a fitted ring may see before it is replaced.",
+    )
+
+    class Meta:
+        ordering = ["variant", "name"]
+        constraints = [
+            models.UniqueConstraint(fields=["variant", "name"], name="uniq_seal_position_name")
+        ]
+
+    def __str__(self) -> str:
+        return f"{self.name} ({self.size_label})"
+
+    @property
+    def size_label(self) -> str:
+        if self.as568_dash:
+            return f"AS568-{self.as568_dash}"
+        return f"{self.iso_inner_diameter_mm:g} × {self.iso_cross_section_mm:g} mm"
+
+    def clean(self) -> None:
+        super().clean()
+        metric = self.iso_inner_diameter_mm is not None or self.iso_cross_section_mm is not None
+        if self.as568_dash:
+            self.as568_dash = self.as568_dash.strip().removeprefix("AS568").lstrip("-")
+            if not self.as568_dash.isdigit():
+                raise ValidationError({"as568_dash": "Give the dash number as digits, e.g. 240."})
+            if metric:
+                raise ValidationError(
+                    {"as568_dash": "Give either an AS568 dash number or ISO 3601 sizes, not both."}
+                )
+        elif not (self.iso_inner_diameter_mm and self.iso_cross_section_mm):
+            raise ValidationError(
+                {"as568_dash": "Give an AS568 dash number, or both ISO 3601 d1 and d2."}
+            )

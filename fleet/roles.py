@@ -1,0 +1,55 @@
+"""Roles are Django groups. Every view asks these helpers, never the group names directly.
+
+- technician: reads everything, creates and edits open service records and deployments;
+- supervisor: everything a technician can, plus closing records and managing fleet and
+  reference data (Django admin);
+- viewer: reads everything, writes nothing.
+A superuser counts as a supervisor. A logged-in user in no group sees nothing but a 403.
+"""
+
+from django.contrib.auth.models import AbstractBaseUser, AnonymousUser, Group, Permission
+
+TECHNICIAN = "technician"
+SUPERVISOR = "supervisor"
+VIEWER = "viewer"
+ROLES = (TECHNICIAN, SUPERVISOR, VIEWER)
+
+User = AbstractBaseUser | AnonymousUser
+
+
+def role_names(user: User) -> frozenset[str]:
+    if not user.is_authenticated:
+        return frozenset()
+    cached = getattr(user, "_holdfast_roles", None)
+    if cached is None:
+        cached = frozenset(user.groups.values_list("name", flat=True))  # type: ignore[union-attr]
+        if user.is_superuser:  # type: ignore[union-attr]
+            cached = cached | {SUPERVISOR}
+        user._holdfast_roles = cached  # type: ignore[union-attr]
+    return cached
+
+
+def can_read(user: User) -> bool:
+    return bool(role_names(user) & set(ROLES))
+
+
+def can_record(user: User) -> bool:
+    """Create and edit open service records and deployments."""
+    return bool(role_names(user) & {TECHNICIAN, SUPERVISOR})
+
+
+def can_supervise(user: User) -> bool:
+    """Close records, manage fleet and reference data."""
+    return SUPERVISOR in role_names(user)
+
+
+def ensure_groups() -> None:
+    """Create the three groups and give supervisors the model permissions the admin needs."""
+    for name in ROLES:
+        Group.objects.get_or_create(name=name)
+    supervisor = Group.objects.get(name=SUPERVISOR)
+    supervisor.permissions.set(Permission.objects.filter(content_type__app_label="fleet"))
+    viewer = Group.objects.get(name=VIEWER)
+    viewer.permissions.set(
+        Permission.objects.filter(content_type__app_label="fleet", codename__startswith="view_")
+    )

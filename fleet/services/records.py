@@ -1,0 +1,224 @@
+"""Writes that touch a service record and its entries. Each one is a single transaction."""
+
+import datetime as dt
+from collections.abc import Iterable, Sequence
+
+from django.contrib.auth.models import AbstractBaseUser
+from django.contrib.contenttypes.models import ContentType
+from django.core.exceptions import ValidationError
+from django.db import transaction
+from django.db.models import Model
+
+from fleet.models import Amendment, BatteryInstall, ServiceRecord
+from fleet.models.records import Entry
+
+# Fields an amendment may correct, per entry model. The record link, the unit and photos are
+# structural and are never amended.
+AMENDABLE_FIELDS: dict[str, tuple[str, ...]] = {
+    "anodereading": ("mass_g", "remaining_percent", "bond_resistance_ohm", "replaced", "note"),
+    "sealchange": ("material", "cure_date", "lot", "reason"),
+    "batteryinstall": (
+        "pack_serial",
+        "chemistry",
+        "nominal_voltage_v",
+        "capacity_ah",
+        "made_on",
+        "installed_on",
+        "ocv_install_v",
+    ),
+    "pressuretest": (
+        "tested_on",
+        "test_pressure_dbar",
+        "hold_minutes",
+        "start_pressure_dbar",
+        "end_pressure_dbar",
+        "water_temperature_start_c",
+        "water_temperature_end_c",
+        "ingress_found",
+        "facility",
+    ),
+    "releasetest": (
+        "tested_on",
+        "kind",
+        "load_kg",
+        "seconds_to_release",
+        "motor_current_a",
+        "limit_switch_ok",
+        "acoustic_command_ok",
+    ),
+    "sensorcheck": (
+        "checked_on",
+        "sensor",
+        "reference_value",
+        "unit_reading",
+        "raw_resistance_ohm",
+    ),
+    "housingopening": (
+        "opened_at",
+        "closed_at",
+        "vented_before_opening",
+        "internal_pressure_found",
+        "reason",
+    ),
+    "servicerecord": ("summary",),
+}
+
+
+def _lock(record: ServiceRecord) -> ServiceRecord:
+    return ServiceRecord.objects.select_for_update().get(pk=record.pk)
+
+
+def _fit_battery(install: BatteryInstall) -> None:
+    """A new pack replaces the fitted one: the old pack is removed on the new one's install day."""
+    if install.pk is not None or install.removed_on is not None:
+        return
+    fitted = (
+        BatteryInstall.objects.select_for_update()
+        .filter(unit_id=install.unit_id, removed_on__isnull=True)
+        .first()
+    )
+    if fitted is None:
+        return
+    if install.installed_on < fitted.installed_on:
+        raise ValidationError(
+            {
+                "installed_on": (
+                    f"The fitted pack {fitted.pack_serial} went in on {fitted.installed_on}; "
+                    "a replacement cannot be installed before that."
+                )
+            }
+        )
+    fitted.removed_on = install.installed_on
+    fitted.save(update_fields=["removed_on"])
+
+
+@transaction.atomic
+def service_record_save(
+    *,
+    record: ServiceRecord,
+    entries: Sequence[Entry] = (),
+    delete: Iterable[Entry] = (),
+    by: AbstractBaseUser,
+    expected_version: int | None = None,
+) -> ServiceRecord:
+    """Create or update an open record with its entries, all or nothing.
+
+    ``expected_version`` is the version the editor loaded; a stale edit is refused rather than
+    silently overwriting a colleague's work.
+    """
+    if record.pk is not None:
+        current = _lock(record)
+        if current.is_closed:
+            raise ValidationError("This record is closed; corrections are made as amendments.")
+        if expected_version is not None and current.version != expected_version:
+            raise ValidationError(
+                "Someone else changed this record while you were editing it. "
+                "Reload the page to see their changes, then enter yours again."
+            )
+        record.version = current.version + 1
+        record.updated_by = by  # type: ignore[assignment]
+    else:
+        record.created_by = by  # type: ignore[assignment]
+        record.version = 1
+    record.full_clean()
+    record.save()
+
+    for entry in delete:
+        if entry.pk is not None and entry.record_id == record.pk:
+            entry.delete()
+    for entry in entries:
+        entry.record = record
+        if isinstance(entry, BatteryInstall):
+            entry.unit = record.unit
+            _fit_battery(entry)
+        entry.full_clean()
+        entry.save()
+    return record
+
+
+@transaction.atomic
+def service_record_close(*, record: ServiceRecord, by: AbstractBaseUser, at: dt.datetime) -> None:
+    current = _lock(record)
+    if current.is_closed:
+        raise ValidationError("This record is already closed.")
+    if at < current.opened_at:
+        raise ValidationError("A record cannot close before it opened.")
+    record.closed_at = at
+    record.closed_by = by  # type: ignore[assignment]
+    record.version = current.version + 1
+    record.save(update_fields=["closed_at", "closed_by", "version", "updated_at"])
+
+
+def amendable_targets(record: ServiceRecord) -> list[Model]:
+    """The record itself and every entry in it, in a stable order."""
+    targets: list[Model] = [record]
+    for related in (
+        "anode_readings",
+        "seal_changes",
+        "battery_installs",
+        "pressure_tests",
+        "release_tests",
+        "sensor_checks",
+        "housing_openings",
+    ):
+        targets.extend(getattr(record, related).order_by("pk"))
+    return targets
+
+
+@transaction.atomic
+def amendment_create(
+    *,
+    record: ServiceRecord,
+    target: Model,
+    field_name: str,
+    corrected_value: str,
+    reason: str,
+    by: AbstractBaseUser,
+) -> Amendment:
+    """Correct one field of a closed record, keeping the original value in the amendment."""
+    current = _lock(record)
+    if not current.is_closed:
+        raise ValidationError("Open records are edited directly; amendments are for closed ones.")
+    if not reason.strip():
+        raise ValidationError({"reason": "Say why the value is being corrected."})
+    model_name = target._meta.model_name or ""
+    if field_name not in AMENDABLE_FIELDS.get(model_name, ()):
+        raise ValidationError({"field_name": f"{field_name} cannot be amended."})
+    owner = target.pk if isinstance(target, ServiceRecord) else getattr(target, "record_id", None)
+    if owner != record.pk:
+        raise ValidationError({"target": "That entry belongs to another record."})
+
+    field = target._meta.get_field(field_name)
+    original = field.value_to_string(target)  # type: ignore[union-attr]
+    raw = corrected_value.strip()
+    try:
+        value = field.to_python(raw) if raw != "" else None  # type: ignore[union-attr]
+    except ValidationError as exc:
+        raise ValidationError({"corrected_value": exc.messages}) from exc
+    if value is None and not field.null:  # type: ignore[union-attr]
+        if field.get_internal_type() in ("CharField", "TextField"):  # type: ignore[union-attr]
+            value = ""
+        else:
+            raise ValidationError({"corrected_value": "This value cannot be empty."})
+    setattr(target, field_name, value)
+    try:
+        target.full_clean()
+    except ValidationError as exc:
+        messages = exc.message_dict.get(field_name) or exc.messages
+        raise ValidationError({"corrected_value": messages}) from exc
+    corrected = field.value_to_string(target)  # type: ignore[union-attr]
+    if corrected == original:
+        raise ValidationError({"corrected_value": "That is the value already recorded."})
+    target.save()
+    current.version += 1
+    current.save(update_fields=["version", "updated_at"])
+    return Amendment.objects.create(
+        record=record,
+        target_type=ContentType.objects.get_for_model(target),
+        target_id=target.pk,
+        field_name=field_name,
+        original_value=original,
+        corrected_value=corrected,
+        reason=reason.strip(),
+        created_by=by,
+    )

@@ -1,0 +1,119 @@
+import django_tables2 as tables
+from django.utils.html import format_html
+
+from .models import Deployment, Site, Transponder
+
+STATUS_ICONS = {
+    # Shapes of our own so that a black-and-white print still reads: one glyph per state.
+    "in_store": "▭",
+    "in_workshop": "⚒",
+    "ready": "✔",
+    "deployed": "⚓",
+    "quarantined": "⊘",
+    "retired": "—",
+    "lost": "✖",
+}
+
+
+def status_badge(value: str, label: str) -> str:
+    return format_html(
+        '<span class="state state-{}"><span aria-hidden="true">{}</span> {}</span>',
+        value,
+        STATUS_ICONS.get(value, "?"),
+        label,
+    )
+
+
+class UnitTable(tables.Table):
+    serial = tables.Column(linkify=True)
+    variant = tables.Column(accessor="variant__name", verbose_name="Variant")
+    status = tables.Column()
+    place = tables.Column(accessor="place__name", verbose_name="Place", default="—")
+    acoustic_address = tables.Column(verbose_name="Address")
+    turnaround_delay_ms = tables.Column(verbose_name="Turnaround (ms)")
+    last_service = tables.DateTimeColumn(
+        accessor="last_service", verbose_name="Last bench visit", format="Y-m-d", default="—"
+    )
+
+    class Meta:
+        model = Transponder
+        fields = (
+            "serial",
+            "variant",
+            "status",
+            "place",
+            "acoustic_address",
+            "turnaround_delay_ms",
+            "last_service",
+        )
+        order_by = "serial"
+        attrs = {"class": "grid"}
+        per_page = 50
+
+    def render_status(self, value: str, record: Transponder) -> str:
+        return status_badge(record.status, value)
+
+    def value_status(self, record: Transponder) -> str:
+        return record.get_status_display()
+
+
+class DeploymentTable(tables.Table):
+    unit = tables.Column(
+        accessor="unit__serial",
+        verbose_name="Unit",
+        linkify=lambda record: record.unit.get_absolute_url(),
+    )
+    site = tables.Column(
+        accessor="site__name",
+        verbose_name="Site",
+        linkify=lambda record: record.site.get_absolute_url(),
+    )
+    over_side_at = tables.DateTimeColumn(format="Y-m-d H:i", verbose_name="Over the side")
+    recovered_at = tables.DateTimeColumn(
+        format="Y-m-d H:i", verbose_name="Recovered", default="in the water"
+    )
+    planned_days = tables.Column(verbose_name="Planned days")
+    planned_interrogations_per_day = tables.Column(verbose_name="Interrogations / day")
+    replies_counted = tables.Column(verbose_name="Replies counted", default="—")
+    actions = tables.TemplateColumn(
+        template_name="fleet/partials/deployment_actions.html",
+        orderable=False,
+        verbose_name="",
+        exclude_from_export=True,
+    )
+
+    class Meta:
+        model = Deployment
+        fields = (
+            "unit",
+            "site",
+            "over_side_at",
+            "recovered_at",
+            "planned_days",
+            "planned_interrogations_per_day",
+            "replies_counted",
+        )
+        order_by = "-over_side_at"
+        attrs = {"class": "grid"}
+        per_page = 50
+
+
+class SiteTable(tables.Table):
+    name = tables.Column(linkify=True)
+    latitude_deg = tables.Column(verbose_name="Latitude (°)")
+    longitude_deg = tables.Column(verbose_name="Longitude (°)")
+    water_depth_m = tables.Column(verbose_name="Depth (m)")
+    bottom_temperature_c = tables.Column(verbose_name="Bottom temp. (°C)")
+    practical_salinity = tables.Column(verbose_name="Salinity")
+
+    class Meta:
+        model = Site
+        fields = (
+            "name",
+            "latitude_deg",
+            "longitude_deg",
+            "water_depth_m",
+            "bottom_temperature_c",
+            "practical_salinity",
+        )
+        attrs = {"class": "grid"}

@@ -1,0 +1,1 @@
+"""Views orchestrate: guard, parse, call a service or selector, render."""

@@ -1,0 +1,66 @@
+"""One guard per model: every view starts with one of these. They 404 on a missing object and
+403 on a user whose role does not allow the action."""
+
+from collections.abc import Callable
+from functools import wraps
+from typing import Any
+
+from django.core.exceptions import PermissionDenied
+from django.http import HttpRequest, HttpResponse
+from django.shortcuts import get_object_or_404
+
+from fleet import roles
+from fleet.models import Deployment, ServiceRecord, Site, Transponder
+
+
+def require(check: Callable[[Any], bool]) -> Callable:
+    def decorator(view: Callable[..., HttpResponse]) -> Callable[..., HttpResponse]:
+        @wraps(view)
+        def wrapped(request: HttpRequest, *args: Any, **kwargs: Any) -> HttpResponse:
+            if not check(request.user):
+                raise PermissionDenied
+            return view(request, *args, **kwargs)
+
+        return wrapped
+
+    return decorator
+
+
+def _check(request: HttpRequest, write: bool, supervise: bool = False) -> None:
+    user = request.user
+    allowed = (
+        roles.can_supervise(user)
+        if supervise
+        else roles.can_record(user)
+        if write
+        else roles.can_read(user)
+    )
+    if not allowed:
+        raise PermissionDenied
+
+
+def get_unit_for_user(request: HttpRequest, serial: str, *, write: bool = False) -> Transponder:
+    _check(request, write)
+    return get_object_or_404(Transponder.objects.select_related("variant", "place"), serial=serial)
+
+
+def get_record_for_user(
+    request: HttpRequest, pk: int, *, write: bool = False, supervise: bool = False
+) -> ServiceRecord:
+    _check(request, write, supervise)
+    return get_object_or_404(
+        ServiceRecord.objects.select_related(
+            "unit__variant", "place", "technician", "created_by", "updated_by", "closed_by"
+        ),
+        pk=pk,
+    )
+
+
+def get_deployment_for_user(request: HttpRequest, pk: int, *, write: bool = False) -> Deployment:
+    _check(request, write)
+    return get_object_or_404(Deployment.objects.select_related("unit", "site"), pk=pk)
+
+
+def get_site_for_user(request: HttpRequest, pk: int, *, supervise: bool = False) -> Site:
+    _check(request, write=False, supervise=supervise)
+    return get_object_or_404(Site, pk=pk)

@@ -1,0 +1,180 @@
+from django.contrib import messages
+from django.core.exceptions import ValidationError
+from django.db.models import Model
+from django.http import HttpRequest, HttpResponse
+from django.shortcuts import redirect, render
+from django.utils import timezone
+from django.views.decorators.http import require_http_methods
+
+from fleet.forms import AmendmentForm, CloseRecordForm, ServiceRecordForm, entry_formsets
+from fleet.models import ServiceRecord
+from fleet.services.records import (
+    AMENDABLE_FIELDS,
+    amendable_targets,
+    amendment_create,
+    service_record_close,
+    service_record_save,
+)
+
+from .guards import get_record_for_user, get_unit_for_user
+
+
+def _edit(request: HttpRequest, record: ServiceRecord, template_title: str) -> HttpResponse:
+    data = request.POST if request.method == "POST" else None
+    files = request.FILES if request.method == "POST" else None
+    form = ServiceRecordForm(data, instance=record, unit=record.unit)
+    formsets = entry_formsets(form.instance, data, files)
+    errors: list[str] = []
+    if request.method == "POST":
+        valid = form.is_valid()
+        valid = all([fs.is_valid() for _, fs in formsets]) and valid  # validate every formset
+        if valid:
+            entries, deleted = [], []
+            for _, formset in formsets:
+                entries.extend(formset.save(commit=False))
+                deleted.extend(formset.deleted_objects)
+            try:
+                expected = int(request.POST.get("version", "0")) if record.pk else None
+            except ValueError:
+                expected = -1
+            try:
+                saved = service_record_save(
+                    record=form.instance,
+                    entries=entries,
+                    delete=deleted,
+                    by=request.user,
+                    expected_version=expected,
+                )
+            except ValidationError as exc:
+                errors = exc.messages
+                if record.pk is None:
+                    form.instance.pk = None  # nothing was saved; keep showing a new record
+            else:
+                messages.success(request, f"Saved the bench visit for {saved.unit.serial}.")
+                return redirect(saved)
+        else:
+            errors = ["Nothing was saved. Correct the fields marked below."]
+    return render(
+        request,
+        "fleet/record_form.html",
+        {
+            "unit": record.unit,
+            "record": record,
+            "form": form,
+            "formsets": formsets,
+            "errors": errors,
+            "title": template_title,
+        },
+        status=400 if errors else 200,
+    )
+
+
+@require_http_methods(["GET", "POST"])
+def record_new(request: HttpRequest, serial: str) -> HttpResponse:
+    unit = get_unit_for_user(request, serial, write=True)
+    record = ServiceRecord(
+        unit=unit,
+        opened_at=timezone.now().replace(second=0, microsecond=0),
+        technician=request.user,
+        place=unit.place,
+    )
+    return _edit(request, record, f"New bench visit for {unit.serial}")
+
+
+@require_http_methods(["GET", "POST"])
+def record_edit(request: HttpRequest, pk: int) -> HttpResponse:
+    record = get_record_for_user(request, pk, write=True)
+    if record.is_closed:
+        messages.error(request, "This record is closed. Correct it with an amendment.")
+        return redirect("record-amend", pk=record.pk)
+    return _edit(request, record, f"Bench visit for {record.unit.serial}")
+
+
+def _target_label(target: Model) -> str:
+    if isinstance(target, ServiceRecord):
+        return "Record"
+    return f"{target.kind_label.capitalize()} #{target.pk}: {target}"  # type: ignore[attr-defined]
+
+
+def record_detail(request: HttpRequest, pk: int) -> HttpResponse:
+    record = get_record_for_user(request, pk)
+    return render(
+        request,
+        "fleet/record_detail.html",
+        {
+            "record": record,
+            "unit": record.unit,
+            "sections": [
+                ("Anode readings", record.anode_readings.select_related("position")),
+                ("Seal changes", record.seal_changes.select_related("position")),
+                ("Battery installs", record.battery_installs.all()),
+                ("Pressure tests", record.pressure_tests.all()),
+                ("Release tests", record.release_tests.all()),
+                ("Sensor checks", record.sensor_checks.all()),
+                ("Housing openings", record.housing_openings.all()),
+            ],
+            "amendments": record.amendments.select_related("created_by", "target_type"),
+            "close_form": CloseRecordForm(),
+        },
+    )
+
+
+@require_http_methods(["POST"])
+def record_close(request: HttpRequest, pk: int) -> HttpResponse:
+    record = get_record_for_user(request, pk, supervise=True)
+    form = CloseRecordForm(request.POST)
+    if not form.is_valid():
+        messages.error(request, "Tick the confirmation to close the record.")
+        return redirect(record)
+    try:
+        service_record_close(record=record, by=request.user, at=timezone.now())
+    except ValidationError as exc:
+        messages.error(request, " ".join(exc.messages))
+    else:
+        messages.success(request, "Record closed. It is now read-only.")
+    return redirect(record)
+
+
+@require_http_methods(["GET", "POST"])
+def record_amend(request: HttpRequest, pk: int) -> HttpResponse:
+    record = get_record_for_user(request, pk, write=True)
+    if not record.is_closed:
+        return redirect("record-edit", pk=record.pk)
+    targets = {f"{t._meta.model_name}:{t.pk}": t for t in amendable_targets(record)}
+    choices = []
+    for key, target in targets.items():
+        for field_name in AMENDABLE_FIELDS[target._meta.model_name or ""]:
+            field = target._meta.get_field(field_name)
+            current = field.value_to_string(target)  # type: ignore[union-attr]
+            label = f"{_target_label(target)} — {field.verbose_name} (now: {current or 'empty'})"  # type: ignore[union-attr]
+            choices.append((f"{key}:{field_name}", label))
+    form = AmendmentForm(request.POST or None, choices=choices)
+    status = 200
+    if request.method == "POST":
+        if form.is_valid():
+            model_name, target_pk, field_name = form.cleaned_data["target_field"].split(":")
+            try:
+                amendment_create(
+                    record=record,
+                    target=targets[f"{model_name}:{target_pk}"],
+                    field_name=field_name,
+                    corrected_value=form.cleaned_data["corrected_value"],
+                    reason=form.cleaned_data["reason"],
+                    by=request.user,
+                )
+            except ValidationError as exc:
+                if hasattr(exc, "error_dict"):
+                    for name, errs in exc.message_dict.items():
+                        form.add_error(name if name in form.fields else "corrected_value", errs)
+                else:
+                    form.add_error(None, exc.messages)
+            else:
+                messages.success(request, "Amendment recorded; the original value is kept.")
+                return redirect(record)
+        status = 400
+    return render(
+        request,
+        "fleet/record_amend.html",
+        {"record": record, "unit": record.unit, "form": form},
+        status=status,
+    )

@@ -1,0 +1,101 @@
+from django.db.models import Max, Prefetch
+from django.http import HttpRequest, HttpResponse
+from django.shortcuts import render
+from django_tables2 import RequestConfig
+
+from fleet import roles
+from fleet.exports import csv_response
+from fleet.filters import UnitFilter
+from fleet.models import (
+    AnodeReading,
+    BatteryInstall,
+    Deployment,
+    SealChange,
+    ServiceRecord,
+    Transponder,
+)
+from fleet.tables import UnitTable, status_badge
+
+from .guards import get_unit_for_user, require
+
+
+@require(roles.can_read)
+def unit_list(request: HttpRequest) -> HttpResponse:
+    queryset = Transponder.objects.select_related("variant", "place").annotate(
+        last_service=Max("service_records__opened_at")
+    )
+    unit_filter = UnitFilter(request.GET or None, queryset=queryset)
+    table = UnitTable(unit_filter.qs)
+    if request.GET.get("export") == "csv":
+        return csv_response(table, "holdfast-units.csv")
+    RequestConfig(request, paginate={"per_page": 50}).configure(table)
+    return render(
+        request,
+        "fleet/unit_list.html",
+        {"filter": unit_filter, "table": table, "count": unit_filter.qs.count()},
+    )
+
+
+def _latest_by_position(entries: list, key: str) -> dict[int, object]:
+    latest: dict[int, object] = {}
+    for entry in entries:  # newest first
+        latest.setdefault(getattr(entry, key), entry)
+    return latest
+
+
+def unit_detail(request: HttpRequest, serial: str) -> HttpResponse:
+    unit = get_unit_for_user(request, serial)
+    variant = unit.variant
+    anode_positions = list(variant.anode_positions.all())
+    seal_positions = list(variant.seal_positions.all())
+
+    readings = list(
+        AnodeReading.objects.filter(record__unit=unit)
+        .select_related("record", "position")
+        .order_by("-record__opened_at", "-pk")
+    )
+    seal_changes = list(
+        SealChange.objects.filter(record__unit=unit)
+        .select_related("record", "position")
+        .order_by("-record__opened_at", "-pk")
+    )
+    last_reading = _latest_by_position(readings, "position_id")
+    last_seal = _latest_by_position(seal_changes, "position_id")
+    fitted_pack = BatteryInstall.objects.filter(unit=unit, removed_on__isnull=True).first()
+
+    records = (
+        ServiceRecord.objects.filter(unit=unit)
+        .select_related("technician", "place", "closed_by")
+        .prefetch_related(
+            Prefetch("anode_readings", queryset=AnodeReading.objects.select_related("position")),
+            Prefetch("seal_changes", queryset=SealChange.objects.select_related("position")),
+            "battery_installs",
+            "pressure_tests",
+            "release_tests",
+            "sensor_checks",
+            "housing_openings",
+            "amendments",
+        )
+    )
+    deployments = Deployment.objects.filter(unit=unit).select_related("site")
+    history = sorted(
+        [("record", r.opened_at, r) for r in records]
+        + [("deployment", d.over_side_at, d) for d in deployments],
+        key=lambda item: item[1],
+        reverse=True,
+    )
+    return render(
+        request,
+        "fleet/unit_detail.html",
+        {
+            "unit": unit,
+            "variant": variant,
+            "status_badge": status_badge(unit.status, unit.get_status_display()),
+            "anodes": [(p, last_reading.get(p.pk)) for p in anode_positions],
+            "seals": [(p, last_seal.get(p.pk)) for p in seal_positions],
+            "fitted_pack": fitted_pack,
+            "open_deployment": next((d for d in deployments if d.recovered_at is None), None),
+            "history": history,
+            "photos": unit.photos.all(),
+        },
+    )

@@ -1,0 +1,101 @@
+"""Small named builders for test records. Fixed values; override what a test cares about."""
+
+import datetime as dt
+from typing import Any
+
+from django.contrib.auth import get_user_model
+from django.contrib.auth.models import Group
+
+from fleet import roles
+from fleet.models import (
+    AnodePosition,
+    Place,
+    ReplyChargeStep,
+    SealPosition,
+    ServiceRecord,
+    Site,
+    Transponder,
+    Variant,
+)
+
+T0 = dt.datetime(2026, 3, 2, 9, 0, tzinfo=dt.UTC)
+
+
+def make_user(username: str, role: str | None = None, **kwargs: Any):
+    user = get_user_model().objects.create_user(
+        username=username, password="pw-for-tests-only", **kwargs
+    )
+    if role:
+        roles.ensure_groups()
+        user.groups.add(Group.objects.get(name=role))
+    return user
+
+
+def make_place(**kwargs: Any) -> Place:
+    kwargs.setdefault("name", "Bench workshop")
+    kwargs.setdefault("kind", Place.Kind.WORKSHOP)
+    return Place.objects.create(**kwargs)
+
+
+def make_site(**kwargs: Any) -> Site:
+    kwargs.setdefault("name", "Test site A")
+    kwargs.setdefault("latitude_deg", 45.0)
+    kwargs.setdefault("longitude_deg", -20.0)
+    kwargs.setdefault("water_depth_m", 1350.0)
+    kwargs.setdefault("bottom_temperature_c", 4.0)
+    kwargs.setdefault("practical_salinity", 35.0)
+    site = Site(**kwargs)
+    site.full_clean()
+    site.save()
+    return site
+
+
+def make_variant(*, anodes: int = 2, seals: int = 2, **kwargs: Any) -> Variant:
+    kwargs.setdefault("name", "Test variant 1500")
+    kwargs.setdefault("depth_rating_m", 1500.0)
+    kwargs.setdefault("housing_alloy", "al6061")
+    kwargs.setdefault("release_fitted", True)
+    kwargs.setdefault("allowed_chemistries", ["alkaline", "li_socl2"])
+    kwargs.setdefault("cells_in_series", 21)
+    kwargs.setdefault("parallel_strings", 1)
+    kwargs.setdefault("listen_current_a", 0.0002)
+    kwargs.setdefault("mass_in_air_kg", 45.0)
+    kwargs.setdefault("displaced_volume_m3", 0.060)
+    variant = Variant(**kwargs)
+    variant.full_clean()
+    variant.save()
+    for i in range(anodes):
+        AnodePosition.objects.create(
+            variant=variant, name=f"Anode {i + 1}", new_net_mass_g=400.0, design_current_a=0.005
+        )
+    for i in range(seals):
+        SealPosition.objects.create(
+            variant=variant,
+            name=f"Seal {i + 1}",
+            as568_dash="240",
+            interval_months=12,
+            max_openings=6,
+        )
+    ReplyChargeStep.objects.create(variant=variant, step=1, charge_per_reply_as=0.005)
+    return variant
+
+
+def make_unit(**kwargs: Any) -> Transponder:
+    if "variant" not in kwargs:
+        kwargs["variant"] = Variant.objects.first() or make_variant()
+    kwargs.setdefault("serial", "TX-0001")
+    kwargs.setdefault("acoustic_address", "101")
+    kwargs.setdefault("turnaround_delay_ms", 12.5)
+    unit = Transponder(**kwargs)
+    unit.full_clean()
+    unit.save()
+    return unit
+
+
+def make_record(*, unit: Transponder, by, **kwargs: Any) -> ServiceRecord:
+    kwargs.setdefault("opened_at", T0)
+    kwargs.setdefault("technician", by)
+    if "place" not in kwargs:
+        kwargs["place"] = Place.objects.first() or make_place()
+    kwargs.setdefault("created_by", by)
+    return ServiceRecord.objects.create(unit=unit, **kwargs)

@@ -1,0 +1,64 @@
+import pytest
+from django.urls import reverse
+
+from fleet.models import AnodeReading, Transponder
+from tests.builders import make_record, make_unit
+
+pytestmark = pytest.mark.django_db
+
+
+def test_the_fleet_list_filters_by_status_and_search(as_viewer, unit, variant):
+    make_unit(serial="TX-0002", acoustic_address="102", status="ready", variant=variant)
+    response = as_viewer.get("/units/", {"status": "ready"})
+    assert b"TX-0002" in response.content
+    assert b"TX-0001" not in response.content
+    response = as_viewer.get("/units/", {"q": "0001"})
+    assert b"TX-0001" in response.content
+    assert b"TX-0002" not in response.content
+
+
+def test_the_fleet_list_sorts_by_a_column(as_viewer, unit, variant):
+    make_unit(serial="AA-0009", acoustic_address="109", variant=variant)
+    body = as_viewer.get("/units/", {"sort": "-serial"}).content.decode()
+    assert body.index("TX-0001") < body.index("AA-0009")
+
+
+def test_the_fleet_list_uses_a_fixed_number_of_queries(
+    as_viewer, variant, django_assert_max_num_queries
+):
+    for i in range(30):
+        make_unit(serial=f"TX-{i:04d}", acoustic_address=str(200 + i), variant=variant)
+    # Expect: session, user, groups (role check), count, units page with variant and place,
+    # filter choices (places, variants).
+    with django_assert_max_num_queries(9):
+        response = as_viewer.get("/units/")
+    assert response.status_code == 200
+
+
+def test_the_csv_export_escapes_spreadsheet_formulas(as_viewer, variant):
+    make_unit(serial="TX-0100", acoustic_address="100", variant=variant, notes="")
+    Transponder.objects.filter(serial="TX-0100").update(acoustic_address="=1+2")
+    response = as_viewer.get("/units/", {"export": "csv"})
+    assert response["Content-Type"].startswith("text/csv")
+    body = response.content.decode("utf-8-sig")
+    assert "'=1+2" in body
+    assert "TX-0100" in body
+
+
+def test_an_unknown_export_format_is_ignored_not_a_500(as_viewer, unit):
+    response = as_viewer.get("/units/", {"export": "xlsx", "_export": "xlsx"})
+    assert response.status_code == 200
+
+
+def test_the_unit_page_shows_the_last_reading_of_each_anode(as_viewer, unit, technician):
+    old = make_record(unit=unit, by=technician)
+    position = unit.variant.anode_positions.first()
+    AnodeReading.objects.create(record=old, position=position, mass_g=380.0)
+    new = make_record(unit=unit, by=technician, opened_at=old.opened_at.replace(month=6))
+    AnodeReading.objects.create(record=new, position=position, mass_g=331.0)
+    body = as_viewer.get(reverse("unit-detail", args=[unit.serial])).content.decode()
+    anodes, history = body.split("<h2>History")
+    assert "331 g" in anodes
+    assert "380 g" not in anodes
+    # Both visits are in the history, newest first.
+    assert history.index("331 g") < history.index("380 g")

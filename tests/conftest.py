@@ -1,77 +1,88 @@
-import pytest
-from django.test import Client
+"""Personas and common records. Builders are imported lazily so that the pure calc tests can
+also run without Django (``pytest tests/calc -p no:django``)."""
 
-from tests.builders import make_place, make_site, make_unit, make_user, make_variant
+import pytest
+
+
+def _builders():
+    from tests import builders
+
+    return builders
 
 
 @pytest.fixture
 def technician(db):
-    return make_user("tech", "technician")
+    return _builders().make_user("tech", "technician")
 
 
 @pytest.fixture
 def supervisor(db):
-    return make_user("super", "supervisor", is_staff=True)
+    return _builders().make_user("super", "supervisor", is_staff=True)
 
 
 @pytest.fixture
 def viewer(db):
-    return make_user("view", "viewer")
+    return _builders().make_user("view", "viewer")
 
 
 @pytest.fixture
 def outsider(db):
     """Signed in, but in no role group."""
-    return make_user("outsider")
+    return _builders().make_user("outsider")
 
 
-def _client_for(user) -> Client:
+def _client_for(user):
+    from django.test import Client
+
     client = Client()
     client.force_login(user)
     return client
 
 
 @pytest.fixture
-def as_technician(technician) -> Client:
+def as_technician(technician):
     return _client_for(technician)
 
 
 @pytest.fixture
-def as_supervisor(supervisor) -> Client:
+def as_supervisor(supervisor):
     return _client_for(supervisor)
 
 
 @pytest.fixture
-def as_viewer(viewer) -> Client:
+def as_viewer(viewer):
     return _client_for(viewer)
 
 
 @pytest.fixture
-def as_outsider(outsider) -> Client:
+def as_outsider(outsider):
     return _client_for(outsider)
 
 
 @pytest.fixture
 def workshop(db):
-    return make_place()
+    return _builders().make_place()
 
 
 @pytest.fixture
 def variant(db):
-    return make_variant()
+    return _builders().make_variant()
 
 
 @pytest.fixture
 def unit(db, variant, workshop):
-    return make_unit(variant=variant, place=workshop)
+    return _builders().make_unit(variant=variant, place=workshop)
 
 
 @pytest.fixture
 def site(db):
-    return make_site()
+    return _builders().make_site()
 
 
 @pytest.fixture(autouse=True)
-def _fast_password_hashing(settings):
+def _fast_password_hashing(request):
     # Tests create many users; the production hasher is slow on purpose.
+    if not request.config.pluginmanager.hasplugin("django"):
+        return
+    settings = request.getfixturevalue("settings")
     settings.PASSWORD_HASHERS = ["django.contrib.auth.hashers.MD5PasswordHasher"]

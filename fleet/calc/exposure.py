@@ -1,0 +1,72 @@
+"""Time in the water: cumulative immersed days from deployment intervals.
+
+An anode only wears, and a transponder only listens, while it is in the water, so wear and
+battery projections run on immersed time, not calendar time. A deployment is the interval
+[over the side, recovered); an open one runs to the moment asked about.
+
+Example: deployed 2025-01-01 to 2025-04-11 (100 days) and again from 2025-06-01; on
+2025-06-11 the unit has 110 immersed days.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from collections.abc import Iterable
+
+SECONDS_PER_DAY = 86400.0
+
+
+def _aware(name: str, value: dt.datetime) -> dt.datetime:
+    if not isinstance(value, dt.datetime):
+        raise TypeError(f"{name} must be a datetime, got {type(value).__name__}")
+    if value.tzinfo is None or value.utcoffset() is None:
+        raise ValueError(f"{name} must be timezone-aware, got naive {value.isoformat()}")
+    return value
+
+
+def immersed_days(
+    intervals: Iterable[tuple[dt.datetime, dt.datetime | None]], at: dt.datetime
+) -> float:
+    """Days spent in the water before ``at``, summed over deployment intervals.
+
+    ``intervals`` are (over the side, recovered or None while deployed). Overlapping
+    intervals are refused: a unit is in one place at a time.
+    """
+    at = _aware("at", at)
+    spans = []
+    for start, end in intervals:
+        start = _aware("over_side_at", start)
+        if end is not None:
+            end = _aware("recovered_at", end)
+            if end < start:
+                raise ValueError(
+                    f"recovered_at must be on or after over_side_at {start.isoformat()}, "
+                    f"got {end.isoformat()}"
+                )
+        spans.append((start, end))
+    spans.sort(key=lambda span: span[0])
+    total = 0.0
+    previous_end: dt.datetime | None = None
+    for start, end in spans:
+        if previous_end is not None and start < previous_end:
+            raise ValueError(
+                f"over_side_at {start.isoformat()} overlaps the deployment before it "
+                f"(recovered {previous_end.isoformat()})"
+            )
+        stop = at if end is None else min(end, at)
+        if stop > start:
+            total += (stop - start).total_seconds() / SECONDS_PER_DAY
+        previous_end = end if end is not None else dt.datetime.max.replace(tzinfo=dt.UTC)
+    return total
+
+
+def overlap_days(
+    start: dt.datetime, end: dt.datetime, window_start: dt.datetime, window_end: dt.datetime
+) -> float:
+    """Days of [start, end) that fall inside [window_start, window_end); 0 if disjoint.
+
+    Example: a deployment 2025-01-01..2025-03-01 against a pack fitted 2025-02-01 -> 28 days.
+    """
+    lo = max(_aware("start", start), _aware("window_start", window_start))
+    hi = min(_aware("end", end), _aware("window_end", window_end))
+    return max(0.0, (hi - lo).total_seconds() / SECONDS_PER_DAY)

@@ -1,0 +1,58 @@
+import datetime as dt
+
+import pytest
+from hypothesis import given
+from hypothesis import strategies as st
+
+from fleet.calc.exposure import immersed_days, overlap_days
+
+
+def t(*args: int) -> dt.datetime:
+    return dt.datetime(*args, tzinfo=dt.UTC)
+
+
+# Definitions: immersed time is the length of the deployment intervals before the moment.
+# common practice, no published source (an anode only wears in the water)
+@pytest.mark.parametrize(
+    ("intervals", "at", "expected"),
+    [
+        ([], t(2025, 6, 1), 0.0),
+        ([(t(2025, 1, 1), t(2025, 4, 11))], t(2025, 6, 11), 100.0),
+        ([(t(2025, 1, 1), t(2025, 4, 11)), (t(2025, 6, 1), None)], t(2025, 6, 11), 110.0),
+        ([(t(2025, 1, 1), t(2025, 4, 11))], t(2025, 1, 11), 10.0),  # asked mid-deployment
+        ([(t(2025, 1, 1), None)], t(2024, 12, 1), 0.0),  # before the first deployment
+        ([(t(2025, 1, 1, 12), t(2025, 1, 2))], t(2025, 2, 1), 0.5),
+    ],
+)
+def test_it_sums_deployment_intervals(intervals, at, expected):
+    assert immersed_days(intervals, at) == pytest.approx(expected)
+
+
+def test_it_rejects_overlapping_deployments():
+    with pytest.raises(ValueError, match="over_side_at .* overlaps"):
+        immersed_days([(t(2025, 1, 1), t(2025, 3, 1)), (t(2025, 2, 1), None)], t(2025, 6, 1))
+
+
+def test_it_rejects_recovery_before_over_the_side():
+    with pytest.raises(ValueError, match="recovered_at must be on or after"):
+        immersed_days([(t(2025, 3, 1), t(2025, 1, 1))], t(2025, 6, 1))
+
+
+def test_it_rejects_naive_datetimes():
+    with pytest.raises(ValueError, match="at must be timezone-aware"):
+        immersed_days([], dt.datetime(2025, 1, 1))  # noqa: DTZ001
+
+
+def test_overlap_counts_only_the_shared_part():
+    assert overlap_days(t(2025, 1, 1), t(2025, 3, 1), t(2025, 2, 1), t(2025, 12, 1)) == 28.0
+    assert overlap_days(t(2025, 1, 1), t(2025, 2, 1), t(2025, 3, 1), t(2025, 4, 1)) == 0.0
+
+
+@given(st.integers(0, 4000), st.integers(0, 4000))
+def test_immersed_days_never_decrease_with_time(a, b):
+    intervals = [(t(2020, 1, 1), t(2021, 1, 1)), (t(2022, 1, 1), None)]
+    early, late = sorted((a, b))
+    base = t(2020, 1, 1)
+    assert immersed_days(intervals, base + dt.timedelta(days=early)) <= immersed_days(
+        intervals, base + dt.timedelta(days=late)
+    )

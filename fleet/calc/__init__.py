@@ -11,6 +11,7 @@ Modules:
 - ``pressure``: proof test pressure and pressure-hold verdicts.
 - ``buoyancy``: net buoyancy, recovery margin, ascent speed.
 - ``ranging``: slant range and turnaround, absorption, the reply sonar equation.
+- ``exposure``: cumulative immersed days from deployment intervals.
 
 Every out-of-domain argument raises ``ValueError`` naming the argument and its range
 (helpers in ``_checks``).

@@ -169,6 +169,25 @@ DJANGO_TABLES2_TEMPLATE = "django_tables2/table.html"
 # published standard; they are workshop practice and belong to the operator to set.
 HOLDFAST = {
     "DUE_SOON_DAYS": env_int("HOLDFAST_DUE_SOON_DAYS", 30, minimum=0),
+    "PRESSURE_TEST_VALID_MONTHS": 12,
+    "PROOF_FACTOR": 1.25,
+    "PRESSURE_HOLD_MIN_MINUTES": 30.0,
+    "PRESSURE_ALLOWABLE_DROP_PERCENT": 1.0,
+    "RELEASE_TEST_VALID_DAYS": 180,
+    "RELEASE_MAX_SECONDS": 60.0,
+    "RELEASE_MAX_MOTOR_CURRENT_A": 3.0,
+    "SENSOR_CHECK_INTERVAL_MONTHS": 12,
+    "SENSOR_TOLERANCE": {"temperature": 0.1, "pressure_fraction_of_rating": 0.001, "tilt": 1.0},
+    "PT100_CLASS": "B",
+    "BOND_RESISTANCE_LIMIT_OHM": 0.1,
+    "WEAR_FLAG_FACTOR": 1.5,
+    "BATTERY_RESERVE_FRACTION": 0.2,
+    "BATTERY_DEFAULT_TEMPERATURE_C": 4.0,
+    "SEAL_SHELF_STANDARD": "ISO2230",
+    "DEPTH_MARGIN_FRACTION": 0.10,
+    "RECOVERY_MIN_MARGIN_FRACTION": 0.10,
+    "RECOVERY_MIN_NET_BUOYANCY_KG": 2.0,
+    "DEFAULT_LATITUDE_DEG": 45.0,
 }
 
 LOGGING = {

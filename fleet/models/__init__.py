@@ -13,6 +13,7 @@ from .records import (
     SensorCheck,
     ServiceRecord,
 )
+from .state import AnodeState, SealState, UnitState
 from .units import Transponder, UnitPhoto, UnitStatus
 from .variants import (
     AnodeAlloy,
@@ -30,6 +31,7 @@ __all__ = [
     "AnodeAlloy",
     "AnodePosition",
     "AnodeReading",
+    "AnodeState",
     "BatteryInstall",
     "Chemistry",
     "Deployment",
@@ -42,11 +44,13 @@ __all__ = [
     "ReplyChargeStep",
     "SealChange",
     "SealPosition",
+    "SealState",
     "SensorCheck",
     "ServiceRecord",
     "Site",
     "Transponder",
     "UnitPhoto",
+    "UnitState",
     "UnitStatus",
     "Variant",
 ]

@@ -1,0 +1,1 @@
+"""Maintenance rules: records in, due items and readiness verdicts out (via fleet.calc)."""

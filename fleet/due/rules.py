@@ -1,0 +1,79 @@
+"""Intervals and thresholds: the variant's value where it sets one, else the settings default.
+
+None of these numbers comes from a published standard; they are workshop practice and the
+operator's to set (common practice, no published source). This module is the only place
+that knows them.
+"""
+
+from dataclasses import dataclass
+
+from django.conf import settings
+
+from fleet.models import Variant
+
+
+@dataclass(frozen=True, slots=True)
+class Rules:
+    due_soon_days: int
+    pressure_test_valid_months: int
+    proof_factor: float
+    hold_min_minutes: float
+    allowable_drop_percent: float
+    release_test_valid_days: int
+    release_max_seconds: float
+    release_max_motor_current_a: float
+    sensor_check_interval_months: int
+    temperature_tolerance_c: float
+    pressure_tolerance_fraction_of_rating: float
+    tilt_tolerance_deg: float
+    pt100_class: str
+    bond_resistance_limit_ohm: float
+    wear_flag_factor: float
+    battery_reserve_fraction: float
+    battery_default_temperature_c: float
+    seal_shelf_standard: str
+    depth_margin_fraction: float
+    recovery_min_margin_fraction: float
+    recovery_min_net_buoyancy_kg: float
+    default_latitude_deg: float
+
+
+def _pick(value: object, default: object) -> object:
+    return default if value is None else value
+
+
+def rules_for(variant: Variant) -> Rules:
+    d = settings.HOLDFAST
+    tol = d["SENSOR_TOLERANCE"]
+    return Rules(
+        due_soon_days=d["DUE_SOON_DAYS"],
+        pressure_test_valid_months=_pick(
+            variant.pressure_test_valid_months, d["PRESSURE_TEST_VALID_MONTHS"]
+        ),  # type: ignore[arg-type]
+        proof_factor=_pick(variant.proof_factor, d["PROOF_FACTOR"]),  # type: ignore[arg-type]
+        hold_min_minutes=d["PRESSURE_HOLD_MIN_MINUTES"],
+        allowable_drop_percent=d["PRESSURE_ALLOWABLE_DROP_PERCENT"],
+        release_test_valid_days=_pick(
+            variant.release_test_valid_days, d["RELEASE_TEST_VALID_DAYS"]
+        ),  # type: ignore[arg-type]
+        release_max_seconds=d["RELEASE_MAX_SECONDS"],
+        release_max_motor_current_a=d["RELEASE_MAX_MOTOR_CURRENT_A"],
+        sensor_check_interval_months=_pick(
+            variant.sensor_check_interval_months, d["SENSOR_CHECK_INTERVAL_MONTHS"]
+        ),  # type: ignore[arg-type]
+        temperature_tolerance_c=tol["temperature"],
+        pressure_tolerance_fraction_of_rating=tol["pressure_fraction_of_rating"],
+        tilt_tolerance_deg=tol["tilt"],
+        pt100_class=d["PT100_CLASS"],
+        bond_resistance_limit_ohm=_pick(
+            variant.bond_resistance_limit_ohm, d["BOND_RESISTANCE_LIMIT_OHM"]
+        ),  # type: ignore[arg-type]
+        wear_flag_factor=d["WEAR_FLAG_FACTOR"],
+        battery_reserve_fraction=d["BATTERY_RESERVE_FRACTION"],
+        battery_default_temperature_c=d["BATTERY_DEFAULT_TEMPERATURE_C"],
+        seal_shelf_standard=d["SEAL_SHELF_STANDARD"],
+        depth_margin_fraction=d["DEPTH_MARGIN_FRACTION"],
+        recovery_min_margin_fraction=d["RECOVERY_MIN_MARGIN_FRACTION"],
+        recovery_min_net_buoyancy_kg=d["RECOVERY_MIN_NET_BUOYANCY_KG"],
+        default_latitude_deg=d["DEFAULT_LATITUDE_DEG"],
+    )

@@ -1,0 +1,53 @@
+"""A comparable picture of the derived state, for checking the running rows against a rebuild."""
+
+from fleet.models import AnodeState, SealState, UnitState
+
+_UNIT_FIELDS = (
+    "immersed_days_closed",
+    "first_over_side_at",
+    "open_deployment_id",
+    "duty_deployment_id",
+    "duty_replies_per_day",
+    "duty_site_id",
+    "pack_id",
+    "pack_charge_used_ah",
+    "pack_releases",
+    "last_pressure_test_id",
+    "last_opening_at",
+    "test_voided_by_opening",
+    "last_release_test_id",
+    "last_temperature_check_id",
+    "last_pressure_check_id",
+    "last_tilt_check_id",
+)
+_ANODE_FIELDS = (
+    "fitted_at",
+    "immersed_days_at_fit",
+    "n",
+    "sum_x",
+    "sum_y",
+    "sum_xx",
+    "sum_xy",
+    "sum_yy",
+    "last_read_at",
+    "last_mass_kg",
+    "last_bond_resistance_ohm",
+)
+_SEAL_FIELDS = ("fitted_at", "cure_date", "material", "openings_since_fit")
+
+
+def _norm(value: object) -> object:
+    return float(f"{value:.9g}") if isinstance(value, float) else value
+
+
+def state_snapshot() -> dict[tuple, tuple]:
+    snapshot: dict[tuple, tuple] = {}
+    for row in UnitState.objects.values("unit_id", *_UNIT_FIELDS):
+        snapshot[("unit", row["unit_id"])] = tuple(_norm(row[f]) for f in _UNIT_FIELDS)
+    for row in AnodeState.objects.values("unit_id", "position_id", *_ANODE_FIELDS):
+        key = ("anode", row["unit_id"], row["position_id"])
+        snapshot[key] = tuple(_norm(row[f]) for f in _ANODE_FIELDS)
+    for row in SealState.objects.values("unit_id", "position_id", *_SEAL_FIELDS):
+        key = ("seal", row["unit_id"], row["position_id"])
+        snapshot[key] = tuple(_norm(row[f]) for f in _SEAL_FIELDS)
+    return snapshot

@@ -1,0 +1,109 @@
+"""Derived state, one row per maintenance item, kept current by the write services.
+
+A whole-fleet evaluation reads these rows instead of every reading ever taken. Each row is
+rewritten for its unit inside the same transaction as any write that can change it (a bench
+visit, an amendment, a deployment or a recovery), and ``manage.py rebuild_state`` recomputes
+every row from the records. Nothing here is entered by hand.
+"""
+
+from django.db import models
+
+from .deployments import Deployment
+from .places import Site
+from .records import BatteryInstall, PressureTest, ReleaseTest, SensorCheck
+from .units import Transponder
+from .variants import AnodePosition, SealPosition
+
+
+class UnitState(models.Model):
+    unit = models.OneToOneField(
+        Transponder, on_delete=models.CASCADE, primary_key=True, related_name="state"
+    )
+    refreshed_at = models.DateTimeField()
+
+    # Time in the water: closed deployments summed; an open one is added at evaluation time.
+    immersed_days_closed = models.FloatField(default=0.0)
+    first_over_side_at = models.DateTimeField(null=True)
+    open_deployment = models.ForeignKey(
+        Deployment, on_delete=models.SET_NULL, null=True, related_name="+"
+    )
+    # The duty the unit last worked at: replies per day and power step of its last deployment.
+    duty_deployment = models.ForeignKey(
+        Deployment, on_delete=models.SET_NULL, null=True, related_name="+"
+    )
+    duty_replies_per_day = models.FloatField(null=True)
+    duty_site = models.ForeignKey(Site, on_delete=models.SET_NULL, null=True, related_name="+")
+
+    # Battery: the fitted pack and the charge it gave over closed deployments since install.
+    pack = models.ForeignKey(BatteryInstall, on_delete=models.SET_NULL, null=True, related_name="+")
+    pack_charge_used_ah = models.FloatField(default=0.0)
+    pack_releases = models.PositiveIntegerField(default=0)
+
+    # Pressure tests and openings
+    last_pressure_test = models.ForeignKey(
+        PressureTest, on_delete=models.SET_NULL, null=True, related_name="+"
+    )
+    last_opening_at = models.DateTimeField(null=True)
+    test_voided_by_opening = models.BooleanField(default=False)
+
+    last_release_test = models.ForeignKey(
+        ReleaseTest, on_delete=models.SET_NULL, null=True, related_name="+"
+    )
+    last_temperature_check = models.ForeignKey(
+        SensorCheck, on_delete=models.SET_NULL, null=True, related_name="+"
+    )
+    last_pressure_check = models.ForeignKey(
+        SensorCheck, on_delete=models.SET_NULL, null=True, related_name="+"
+    )
+    last_tilt_check = models.ForeignKey(
+        SensorCheck, on_delete=models.SET_NULL, null=True, related_name="+"
+    )
+
+    def __str__(self) -> str:
+        return f"state of {self.unit_id}"
+
+
+class AnodeState(models.Model):
+    """The anode now fitted at one position of one unit, with its wear-fit running sums.
+
+    x is immersed days since this anode was fitted, y its net mass in kg.
+    """
+
+    unit = models.ForeignKey(Transponder, on_delete=models.CASCADE, related_name="anode_states")
+    position = models.ForeignKey(AnodePosition, on_delete=models.CASCADE, related_name="+")
+    fitted_at = models.DateTimeField(null=True)
+    immersed_days_at_fit = models.FloatField(default=0.0)
+    n = models.PositiveIntegerField(default=0)
+    sum_x = models.FloatField(default=0.0)
+    sum_y = models.FloatField(default=0.0)
+    sum_xx = models.FloatField(default=0.0)
+    sum_xy = models.FloatField(default=0.0)
+    sum_yy = models.FloatField(default=0.0)
+    last_read_at = models.DateTimeField(null=True)
+    last_mass_kg = models.FloatField(null=True)
+    last_bond_resistance_ohm = models.FloatField(null=True)
+
+    class Meta:
+        constraints = [
+            models.UniqueConstraint(fields=["unit", "position"], name="uniq_anode_state")
+        ]
+
+    def __str__(self) -> str:
+        return f"anode state {self.unit_id}/{self.position_id}"
+
+
+class SealState(models.Model):
+    """The ring now fitted at one seal position of one unit."""
+
+    unit = models.ForeignKey(Transponder, on_delete=models.CASCADE, related_name="seal_states")
+    position = models.ForeignKey(SealPosition, on_delete=models.CASCADE, related_name="+")
+    fitted_at = models.DateTimeField(null=True)
+    cure_date = models.DateField(null=True)
+    material = models.CharField(max_length=8, blank=True)
+    openings_since_fit = models.PositiveIntegerField(default=0)
+
+    class Meta:
+        constraints = [models.UniqueConstraint(fields=["unit", "position"], name="uniq_seal_state")]
+
+    def __str__(self) -> str:
+        return f"seal state {self.unit_id}/{self.position_id}"

@@ -20,6 +20,7 @@ from .models import (
     ServiceRecord,
     Site,
     Transponder,
+    Variant,
 )
 from .photos import clean_photo
 
@@ -309,3 +310,26 @@ class SiteForm(forms.ModelForm):
             "notes",
         ]
         widgets = {"notes": forms.Textarea(attrs={"rows": 3})}
+
+
+class DueFilterForm(forms.Form):
+    """Filters for the overdue and due-soon list on the overview."""
+
+    SHOW = (
+        ("attention", "Overdue and due soon"),
+        ("overdue", "Overdue only"),
+        ("all", "Everything"),
+    )
+
+    show = forms.ChoiceField(choices=SHOW, required=False, initial="attention")
+    place = forms.ModelChoiceField(
+        queryset=Place.objects.all(), required=False, empty_label="Any place"
+    )
+    variant = forms.ModelChoiceField(
+        queryset=Variant.objects.all(), required=False, empty_label="Any variant"
+    )
+    kind = forms.ChoiceField(required=False)
+
+    def __init__(self, *args: object, kinds: list[tuple[str, str]], **kwargs: object) -> None:
+        super().__init__(*args, **kwargs)
+        self.fields["kind"].choices = [("", "Any kind"), *kinds]

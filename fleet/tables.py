@@ -1,4 +1,7 @@
+import datetime as dt
+
 import django_tables2 as tables
+from django.urls import reverse
 from django.utils.html import format_html
 
 from .models import Deployment, Site, Transponder
@@ -117,3 +120,61 @@ class SiteTable(tables.Table):
             "practical_salinity",
         )
         attrs = {"class": "grid"}
+
+
+class DueItemTable(tables.Table):
+    """Due items are computed, not stored: the table sorts the list in Python."""
+
+    state = tables.Column(verbose_name="State", order_by=("state_rank", "due_sort"))
+    serial = tables.Column(
+        verbose_name="Unit", linkify=lambda record: reverse("unit-detail", args=[record["serial"]])
+    )
+    variant = tables.Column(verbose_name="Variant")
+    place = tables.Column(verbose_name="Place")
+    kind = tables.Column(verbose_name="Kind")
+    item = tables.Column(verbose_name="Item")
+    due_on = tables.DateColumn(
+        verbose_name="Due", format="Y-m-d", default="—", order_by=("due_sort",)
+    )
+    basis = tables.Column(verbose_name="Basis", orderable=False)
+    flags = tables.Column(verbose_name="Flags", orderable=False, default="")
+
+    class Meta:
+        attrs = {"class": "grid due"}
+        per_page = 100
+        order_by = ("state",)
+
+    def render_state(self, value: str, record: dict) -> str:
+        return format_html(
+            '<span class="due due-{}"><span aria-hidden="true">{}</span> {}</span>',
+            record["state_value"],
+            record["state_icon"],
+            value,
+        )
+
+    def render_flags(self, value: tuple) -> str:
+        return "; ".join(value)
+
+    def value_flags(self, value: tuple) -> str:
+        return "; ".join(value)
+
+
+def due_rows(items: list) -> list[dict]:
+    return [
+        {
+            "state": i.state.label,
+            "state_value": i.state.value,
+            "state_icon": i.state.icon,
+            "state_rank": i.state.rank,
+            "serial": i.serial,
+            "variant": i.variant,
+            "place": i.place or "—",
+            "kind": i.kind.label,
+            "item": i.item,
+            "due_on": i.due_on,
+            "due_sort": i.due_on or dt.date.max,
+            "basis": i.basis,
+            "flags": i.flags,
+        }
+        for i in items
+    ]

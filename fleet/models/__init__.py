@@ -2,6 +2,7 @@
 
 from .audit import Amendment
 from .deployments import Deployment
+from .feeds import CalendarFeed
 from .places import Place, Site
 from .records import (
     AnodeReading,
@@ -33,6 +34,7 @@ __all__ = [
     "AnodeReading",
     "AnodeState",
     "BatteryInstall",
+    "CalendarFeed",
     "Chemistry",
     "Deployment",
     "Elastomer",

@@ -42,4 +42,4 @@ test: lint migrations-check
 	$(BIN)/pytest
 
 clean:
-	rm -rf $(VENV) db.sqlite3 db.sqlite3-* test-db.sqlite3*
+	rm -rf $(VENV) db.sqlite3 db.sqlite3-* test-db*.sqlite3*

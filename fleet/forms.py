@@ -333,3 +333,45 @@ class DueFilterForm(forms.Form):
     def __init__(self, *args: object, kinds: list[tuple[str, str]], **kwargs: object) -> None:
         super().__init__(*args, **kwargs)
         self.fields["kind"].choices = [("", "Any kind"), *kinds]
+
+
+class PlannedDeploymentForm(forms.Form):
+    """A planned deployment: where, from when, for how long, at what duty."""
+
+    site = forms.ModelChoiceField(queryset=Site.objects.all())
+    start = forms.DateField(widget=DateInput(), label="Over the side on")
+    days = forms.IntegerField(min_value=1, max_value=3650, label="Planned days")
+    rate = forms.IntegerField(
+        min_value=0,
+        max_value=1_000_000,
+        required=False,
+        label="Interrogations a day",
+        help_text="Empty: the unit's recent duty.",
+    )
+    step = forms.IntegerField(
+        min_value=1,
+        max_value=9,
+        required=False,
+        label="Transmit power step",
+        help_text="Empty: the unit's setting.",
+    )
+
+    def __init__(self, *args: object, today: object, **kwargs: object) -> None:
+        super().__init__(*args, **kwargs)
+        self.today = today
+
+    def clean_start(self) -> object:
+        start = self.cleaned_data["start"]
+        if start < self.today:
+            raise forms.ValidationError("The deployment must start today or later.")
+        return start
+
+
+class PlanForm(PlannedDeploymentForm):
+    wanted = forms.IntegerField(min_value=1, max_value=500, label="Units wanted", initial=4)
+
+    field_order = ["site", "start", "days", "wanted", "rate"]
+
+    def __init__(self, *args: object, **kwargs: object) -> None:
+        super().__init__(*args, **kwargs)
+        del self.fields["step"]

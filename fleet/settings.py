@@ -125,7 +125,9 @@ else:
             "ENGINE": "django.db.backends.sqlite3",
             "NAME": _SQLITE_PATH,
             "OPTIONS": dict(_SQLITE_OPTIONS),
-            "TEST": {"NAME": BASE_DIR / "test-db.sqlite3"},
+            # A file, not memory, so threaded tests share it; one per process so that two
+            # test runs side by side never touch each other's database.
+            "TEST": {"NAME": BASE_DIR / f"test-db-{os.getpid()}.sqlite3"},
         }
     }
 

@@ -125,7 +125,7 @@ class SiteTable(tables.Table):
 class DueItemTable(tables.Table):
     """Due items are computed, not stored: the table sorts the list in Python."""
 
-    state = tables.Column(verbose_name="State", order_by=("state_rank", "due_sort"))
+    due_state = tables.Column(verbose_name="State", order_by=("state_rank", "due_sort"))
     serial = tables.Column(
         verbose_name="Unit", linkify=lambda record: reverse("unit-detail", args=[record["serial"]])
     )
@@ -140,11 +140,11 @@ class DueItemTable(tables.Table):
     flags = tables.Column(verbose_name="Flags", orderable=False, default="")
 
     class Meta:
-        attrs = {"class": "grid due"}
+        attrs = {"class": "grid due-list"}
         per_page = 100
-        order_by = ("state",)
+        order_by = ("due_state",)
 
-    def render_state(self, value: str, record: dict) -> str:
+    def render_due_state(self, value: str, record: dict) -> str:
         return format_html(
             '<span class="due due-{}"><span aria-hidden="true">{}</span> {}</span>',
             record["state_value"],
@@ -162,7 +162,7 @@ class DueItemTable(tables.Table):
 def due_rows(items: list) -> list[dict]:
     return [
         {
-            "state": i.state.label,
+            "due_state": i.state.label,
             "state_value": i.state.value,
             "state_icon": i.state.icon,
             "state_rank": i.state.rank,

@@ -1,13 +1,25 @@
 from django.contrib import admin
 from django.urls import include, path
 
-from .views import dashboard, deployments, media, records, units
+from .views import dashboard, deployments, feeds, media, planning, records, units
 
 urlpatterns = [
     path("", dashboard.dashboard, name="dashboard"),
     path("units/", units.unit_list, name="unit-list"),
     path("units/<str:serial>/", units.unit_detail, name="unit-detail"),
     path("units/<str:serial>/records/new/", records.record_new, name="record-new"),
+    path("units/<str:serial>/readiness/", planning.readiness, name="unit-readiness"),
+    path(
+        "units/<str:serial>/charts/anode/<int:position_id>.svg",
+        planning.anode_chart,
+        name="unit-anode-chart",
+    ),
+    path(
+        "units/<str:serial>/charts/battery.svg", planning.battery_chart, name="unit-battery-chart"
+    ),
+    path("plan/", planning.plan, name="plan"),
+    path("feed/", feeds.feed_settings, name="feed-settings"),
+    path("feed/<str:token>.ics", feeds.feed_ics, name="feed-ics"),
     path("records/<int:pk>/", records.record_detail, name="record-detail"),
     path("records/<int:pk>/edit/", records.record_edit, name="record-edit"),
     path("records/<int:pk>/close/", records.record_close, name="record-close"),
@@ -23,6 +35,7 @@ urlpatterns = [
     path("sites/new/", deployments.site_new, name="site-new"),
     path("sites/<int:pk>/", deployments.site_detail, name="site-detail"),
     path("sites/<int:pk>/edit/", deployments.site_edit, name="site-edit"),
+    # Documents (PDFs), release certificates and the public verification page
     path("accounts/", include("django.contrib.auth.urls")),
     path("admin/", admin.site.urls),
     path("media/<path:path>", media.media_file, name="media"),

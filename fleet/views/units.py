@@ -1,11 +1,14 @@
 from django.db.models import Max, Prefetch
 from django.http import HttpRequest, HttpResponse
 from django.shortcuts import render
+from django.utils import timezone
 from django_tables2 import RequestConfig
 
 from fleet import roles
+from fleet.due.engine import evaluate_unit, fleet_queryset
 from fleet.exports import csv_response
 from fleet.filters import UnitFilter
+from fleet.forms import PlannedDeploymentForm
 from fleet.models import (
     AnodeReading,
     BatteryInstall,
@@ -84,11 +87,18 @@ def unit_detail(request: HttpRequest, serial: str) -> HttpResponse:
         key=lambda item: item[1],
         reverse=True,
     )
+    at = timezone.now()
+    on = timezone.localdate(at)
+    evaluation = evaluate_unit(
+        fleet_queryset(Transponder.objects.filter(pk=unit.pk)).get(), on=on, at=at
+    )
     return render(
         request,
         "fleet/unit_detail.html",
         {
             "unit": unit,
+            "due_items": evaluation.items,
+            "readiness_form": PlannedDeploymentForm(initial={"start": on, "days": 90}, today=on),
             "variant": variant,
             "status_badge": status_badge(unit.status, unit.get_status_display()),
             "anodes": [(p, last_reading.get(p.pk)) for p in anode_positions],

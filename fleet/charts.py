@@ -1,0 +1,128 @@
+"""Small server-side SVG line charts, legible in black and white: series differ by dash
+pattern and marker shape, not only by colour. Served as images (no inline SVG, no scripts)."""
+
+from __future__ import annotations
+
+import datetime as dt
+from dataclasses import dataclass, field
+from xml.sax.saxutils import escape
+
+WIDTH, HEIGHT = 640, 260
+LEFT, RIGHT, TOP, BOTTOM = 56, 16, 28, 40
+
+
+@dataclass(frozen=True, slots=True)
+class Series:
+    label: str
+    points: tuple[tuple[dt.date, float], ...]
+    dash: str = ""  # SVG stroke-dasharray; "" for a solid line
+    marker: str = ""  # "circle", "square" or ""
+    line: bool = True
+
+
+@dataclass(slots=True)
+class Chart:
+    title: str
+    y_label: str
+    series: list[Series] = field(default_factory=list)
+    y_min: float = 0.0
+    y_max: float | None = None
+    today: dt.date | None = None
+
+
+def _ticks(lo: float, hi: float, n: int = 5) -> list[float]:
+    step = (hi - lo) / n if hi > lo else 1.0
+    return [lo + i * step for i in range(n + 1)]
+
+
+def render(chart: Chart) -> str:
+    points = [p for s in chart.series for p in s.points]
+    out = [
+        f'<svg xmlns="http://www.w3.org/2000/svg" width="{WIDTH}" height="{HEIGHT}" '
+        f'viewBox="0 0 {WIDTH} {HEIGHT}" font-family="DejaVu Sans, sans-serif" font-size="11">',
+        f"<title>{escape(chart.title)}</title>",
+        '<rect width="100%" height="100%" fill="#fff"/>',
+        f'<text x="{LEFT}" y="16" font-size="13" font-weight="bold">{escape(chart.title)}</text>',
+    ]
+    if not points:
+        out.append(f'<text x="{LEFT}" y="{HEIGHT / 2}">No data to draw yet.</text></svg>')
+        return "".join(out)
+    d0 = min(p[0] for p in points)
+    d1 = max(p[0] for p in points)
+    if chart.today:
+        d0, d1 = min(d0, chart.today), max(d1, chart.today)
+    if d1 == d0:
+        d1 = d0 + dt.timedelta(days=1)
+    y_max = chart.y_max if chart.y_max is not None else max(p[1] for p in points) * 1.1 or 1.0
+    y_min = chart.y_min
+    span_days = (d1 - d0).days
+    plot_w, plot_h = WIDTH - LEFT - RIGHT, HEIGHT - TOP - BOTTOM
+
+    def x(day: dt.date) -> float:
+        return LEFT + plot_w * (day - d0).days / span_days
+
+    def y(value: float) -> float:
+        clamped = min(max(value, y_min), y_max)
+        return TOP + plot_h * (1 - (clamped - y_min) / (y_max - y_min))
+
+    out.append(
+        f'<rect x="{LEFT}" y="{TOP}" width="{plot_w}" height="{plot_h}" fill="none" stroke="#000"/>'
+    )
+    for value in _ticks(y_min, y_max):
+        yy = y(value)
+        out.append(f'<line x1="{LEFT - 4}" y1="{yy:.1f}" x2="{LEFT}" y2="{yy:.1f}" stroke="#000"/>')
+        out.append(f'<text x="{LEFT - 6}" y="{yy + 4:.1f}" text-anchor="end">{value:.0f}</text>')
+    for i in range(5):
+        day = d0 + dt.timedelta(days=round(span_days * i / 4))
+        xx = x(day)
+        anchor = "start" if i == 0 else "end" if i == 4 else "middle"
+        out.append(
+            f'<text x="{xx:.1f}" y="{HEIGHT - BOTTOM + 14}" text-anchor="{anchor}">'
+            f"{day.isoformat()}</text>"
+        )
+    out.append(
+        f'<text x="14" y="{TOP + plot_h / 2}" transform="rotate(-90 14 {TOP + plot_h / 2})" '
+        f'text-anchor="middle">{escape(chart.y_label)}</text>'
+    )
+    if chart.today and d0 <= chart.today <= d1:
+        tx = x(chart.today)
+        out.append(
+            f'<line x1="{tx:.1f}" y1="{TOP}" x2="{tx:.1f}" y2="{TOP + plot_h}" stroke="#000" '
+            'stroke-width="0.5"/>'
+            f'<text x="{tx + 3:.1f}" y="{TOP + 10}">today</text>'
+        )
+    legend_x = LEFT
+    for s in chart.series:
+        coords = [(x(d), y(v)) for d, v in s.points]
+        dash = f' stroke-dasharray="{s.dash}"' if s.dash else ""
+        if s.line and len(coords) > 1:
+            path = " ".join(f"{cx:.1f},{cy:.1f}" for cx, cy in coords)
+            out.append(
+                f'<polyline points="{path}" fill="none" stroke="#000" stroke-width="1.6"{dash}/>'
+            )
+        for cx, cy in coords:
+            if s.marker == "circle":
+                out.append(
+                    f'<circle cx="{cx:.1f}" cy="{cy:.1f}" r="3.5" fill="#fff" stroke="#000"/>'
+                )
+            elif s.marker == "square":
+                out.append(
+                    f'<rect x="{cx - 3:.1f}" y="{cy - 3:.1f}" width="6" height="6" fill="#000"/>'
+                )
+        # legend
+        ly = HEIGHT - 8
+        visibility = dash if s.line else ' stroke-opacity="0"'
+        out.append(
+            f'<line x1="{legend_x}" y1="{ly - 4}" x2="{legend_x + 22}" y2="{ly - 4}" '
+            f'stroke="#000" stroke-width="1.6"{visibility}/>'
+        )
+        if s.marker == "circle":
+            out.append(
+                f'<circle cx="{legend_x + 11}" cy="{ly - 4}" r="3.5" fill="#fff" stroke="#000"/>'
+            )
+        elif s.marker == "square":
+            out.append(f'<rect x="{legend_x + 8}" y="{ly - 7}" width="6" height="6" fill="#000"/>')
+        out.append(f'<text x="{legend_x + 26}" y="{ly}">{escape(s.label)}</text>')
+        legend_x += 30 + 7 * len(s.label)
+    out.append("</svg>")
+    return "".join(out)

@@ -1,0 +1,152 @@
+import datetime as dt
+
+from django.http import Http404, HttpRequest, HttpResponse
+from django.shortcuts import render
+from django.utils import timezone
+
+from fleet import charts, roles
+from fleet.due.engine import evaluate_unit, fleet_queryset
+from fleet.due.history import anode_history, battery_history
+from fleet.due.readiness import plan_campaign, readiness_for
+from fleet.forms import PlanForm, PlannedDeploymentForm
+from fleet.models import Transponder
+
+from .guards import get_unit_for_user, require
+
+
+def _now() -> tuple[dt.date, dt.datetime]:
+    at = timezone.now()
+    return timezone.localdate(at), at
+
+
+def readiness(request: HttpRequest, serial: str) -> HttpResponse:
+    unit = get_unit_for_user(request, serial)
+    on, at = _now()
+    form = PlannedDeploymentForm(request.GET or None, today=on)
+    result = None
+    status = 200
+    if form.is_bound:
+        if form.is_valid():
+            data = form.cleaned_data
+            result = readiness_for(
+                unit,
+                site=data["site"],
+                start=data["start"],
+                days=data["days"],
+                interrogations_per_day=data["rate"],
+                power_step=data["step"],
+                on=on,
+                at=at,
+            )
+        else:
+            status = 400
+    return render(
+        request,
+        "fleet/readiness.html",
+        {"unit": unit, "form": form, "result": result, "query": request.GET.urlencode()},
+        status=status,
+    )
+
+
+@require(roles.can_read)
+def plan(request: HttpRequest) -> HttpResponse:
+    on, at = _now()
+    form = PlanForm(request.GET or None, today=on)
+    result = None
+    status = 200
+    if form.is_bound:
+        if form.is_valid():
+            data = form.cleaned_data
+            result = plan_campaign(
+                site=data["site"],
+                start=data["start"],
+                days=data["days"],
+                wanted=data["wanted"],
+                interrogations_per_day=data["rate"],
+                on=on,
+                at=at,
+            )
+        else:
+            status = 400
+    blockers: dict[str, int] = {}
+    if result is not None:
+        for r in result.rejected:
+            for check in r.checks:
+                if check.verdict == "fail":
+                    blockers[check.name.split(":")[0]] = (
+                        blockers.get(check.name.split(":")[0], 0) + 1
+                    )
+    return render(
+        request,
+        "fleet/plan.html",
+        {
+            "form": form,
+            "result": result,
+            "blockers": sorted(blockers.items(), key=lambda kv: -kv[1]),
+        },
+        status=status,
+    )
+
+
+def _evaluation(request: HttpRequest, serial: str):
+    unit = get_unit_for_user(request, serial)
+    on, at = _now()
+    loaded = fleet_queryset(Transponder.objects.filter(pk=unit.pk)).get()
+    return evaluate_unit(loaded, on=on, at=at), on
+
+
+def _svg(body: str) -> HttpResponse:
+    response = HttpResponse(body, content_type="image/svg+xml; charset=utf-8")
+    response["Cache-Control"] = "private, max-age=60"
+    return response
+
+
+def anode_chart(request: HttpRequest, serial: str, position_id: int) -> HttpResponse:
+    ev, on = _evaluation(request, serial)
+    history = anode_history(ev, position_id, on)
+    if history is None:
+        raise Http404("No such anode position on this unit.")
+    chart = charts.Chart(
+        title=f"{ev.unit.serial}: anode {history.name}",
+        y_label="% of new mass",
+        y_min=0.0,
+        y_max=100.0,
+        today=on,
+        series=[
+            charts.Series("readings", history.readings, marker="circle", line=False),
+            charts.Series("fitted wear", history.fitted),
+            charts.Series("projection", history.projection, dash="6 4"),
+        ],
+    )
+    if history.readings or history.projection:
+        first = min(d for d, _ in (*history.readings, *history.projection))
+        last = max(d for d, _ in (*history.readings, *history.projection, (on, 0)))
+        chart.series.append(
+            charts.Series(
+                f"replace at {history.threshold_percent:.0f} %",
+                ((first, history.threshold_percent), (last, history.threshold_percent)),
+                dash="2 3",
+            )
+        )
+    return _svg(charts.render(chart))
+
+
+def battery_chart(request: HttpRequest, serial: str) -> HttpResponse:
+    ev, on = _evaluation(request, serial)
+    history = battery_history(ev, on)
+    chart = charts.Chart(title=f"{ev.unit.serial}: battery charge", y_label="Ah left", today=on)
+    if history is not None:
+        chart.y_max = max(history.usable_ah * 1.05, 0.1)
+        chart.series = [
+            charts.Series("used so far", history.used, marker="square"),
+            charts.Series("projection at duty", history.projection, dash="6 4"),
+        ]
+        ends = [d for d, _ in (*history.used, *history.projection)]
+        chart.series.append(
+            charts.Series(
+                "reserve",
+                ((min(ends), history.reserve_ah), (max(ends), history.reserve_ah)),
+                dash="2 3",
+            )
+        )
+    return _svg(charts.render(chart))

@@ -1,0 +1,128 @@
+import datetime as dt
+
+import pytest
+from django.urls import reverse
+from django.utils import timezone
+from icalendar import Calendar
+
+from fleet.models import AnodeReading, CalendarFeed
+from tests.due.test_engine import t, visit
+
+pytestmark = pytest.mark.django_db
+
+
+def test_the_readiness_page_shows_every_check(as_viewer, unit, site):
+    start = (timezone.localdate() + dt.timedelta(days=5)).isoformat()
+    response = as_viewer.get(
+        reverse("unit-readiness", args=[unit.serial]), {"site": site.pk, "start": start, "days": 30}
+    )
+    assert response.status_code == 200
+    body = response.content.decode()
+    for name in (
+        "Depth rating",
+        "Pressure test",
+        "Battery",
+        "Recovery buoyancy",
+        "Acoustic address",
+    ):
+        assert name in body
+    assert "no pressure test recorded" in body
+
+
+def test_the_readiness_form_rejects_a_past_start(as_viewer, unit, site):
+    response = as_viewer.get(
+        reverse("unit-readiness", args=[unit.serial]),
+        {"site": site.pk, "start": "2020-01-01", "days": "x"},
+    )
+    assert response.status_code == 400
+    body = response.content.decode()
+    assert "The deployment must start today or later." in body
+    assert "Enter a whole number." in body
+
+
+def test_the_planner_lists_ready_and_rejected_units(as_viewer, unit, site):
+    start = (timezone.localdate() + dt.timedelta(days=5)).isoformat()
+    response = as_viewer.get(
+        reverse("plan"), {"site": site.pk, "start": start, "days": 30, "wanted": 2}
+    )
+    assert response.status_code == 200
+    body = response.content.decode()
+    assert "Cannot go (1)" in body
+    assert unit.serial in body
+    assert "Short by 2" in body
+
+
+def test_the_planner_is_for_people_with_a_role(as_outsider):
+    assert as_outsider.get(reverse("plan")).status_code == 403
+
+
+def test_the_charts_are_svg_images(as_viewer, unit, technician):
+    position = unit.variant.anode_positions.first()
+    visit(unit, technician, t(2026, 1, 5), AnodeReading(position=position, mass_g=300))
+    response = as_viewer.get(reverse("unit-anode-chart", args=[unit.serial, position.pk]))
+    assert response["Content-Type"].startswith("image/svg+xml")
+    assert b"<svg" in response.content and b"replace at 50 %" in response.content
+    assert b"<script" not in response.content
+    response = as_viewer.get(reverse("unit-battery-chart", args=[unit.serial]))
+    assert response.status_code == 200
+    assert as_viewer.get(reverse("unit-anode-chart", args=[unit.serial, 99999])).status_code == 404
+
+
+def test_the_unit_page_lists_its_due_items(as_viewer, unit):
+    body = as_viewer.get(reverse("unit-detail", args=[unit.serial])).content.decode()
+    assert "Maintenance due" in body
+    assert "no reading recorded" in body
+
+
+def test_the_overview_lists_overdue_items_and_exports_them(as_viewer, unit, technician):
+    position = unit.variant.anode_positions.first()
+    visit(
+        unit,
+        technician,
+        t(2026, 1, 5),
+        AnodeReading(position=position, mass_g=150, bond_resistance_ohm=0.5),
+    )
+    body = as_viewer.get("/").content.decode()
+    assert "Anode: Anode 1" in body
+    assert "at or below the replace-at mass now" in body
+    csv_body = as_viewer.get("/", {"export": "csv"}).content.decode("utf-8-sig")
+    assert "Anode: Anode 1" in csv_body
+    assert "Overdue" in csv_body
+
+
+def test_the_overview_reads_the_fleet_in_a_bounded_number_of_queries(
+    as_viewer, variant, workshop, django_assert_max_num_queries
+):
+    from tests.builders import make_unit
+
+    for i in range(25):
+        make_unit(serial=f"Q-{i:03d}", acoustic_address=str(i), variant=variant, place=workshop)
+    # Expect: session, user, groups; filter choices (places, variants); the engine's six;
+    # counts by status and by place; open records; units in the water.
+    with django_assert_max_num_queries(16):
+        assert as_viewer.get("/").status_code == 200
+
+
+def test_the_calendar_feed_is_secret_and_revocable(as_viewer, viewer, client, unit, technician):
+    position = unit.variant.anode_positions.first()
+    visit(unit, technician, t(2026, 1, 5), AnodeReading(position=position, mass_g=150))
+    as_viewer.post(reverse("feed-settings"), {"action": "create"})
+    feed = CalendarFeed.objects.get(user=viewer)
+    response = client.get(f"/feed/{feed.token}.ics")  # no login: calendar programs cannot
+    assert response.status_code == 200
+    calendar = Calendar.from_ical(response.content)
+    summaries = [str(e["summary"]) for e in calendar.walk("VEVENT")]
+    assert any(s.startswith(f"{unit.serial}: Anode: Anode 1") for s in summaries)
+    assert client.get("/feed/made-up-token.ics").status_code == 404
+    old = feed.token
+    as_viewer.post(reverse("feed-settings"), {"action": "renew"})
+    assert client.get(f"/feed/{old}.ics").status_code == 404
+    as_viewer.post(reverse("feed-settings"), {"action": "revoke"})
+    assert not CalendarFeed.objects.filter(user=viewer).exists()
+
+
+def test_a_feed_stops_when_its_owner_loses_every_role(as_viewer, viewer, client):
+    as_viewer.post(reverse("feed-settings"), {"action": "create"})
+    token = CalendarFeed.objects.get(user=viewer).token
+    viewer.groups.clear()
+    assert client.get(f"/feed/{token}.ics").status_code == 404

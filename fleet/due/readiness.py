@@ -39,7 +39,6 @@ from .engine import (
     _seal_item,
     _state,
     battery_projection,
-    classify,
     evaluate_unit,
     fleet_queryset,
     release_test_failures,
@@ -502,23 +501,28 @@ def plan_campaign(
                 address_clashes=others,
             )
         )
-    ready = sorted(
+    candidates = sorted(
         (r for r in results if r.verdict != Verdict.FAIL),
-        key=lambda r: (r.verdict.rank * -1, -r.margin, r.unit.serial),
+        key=lambda r: (-r.verdict.rank, -r.margin, r.unit.serial),
     )
-    rejected = sorted(
-        (r for r in results if r.verdict == Verdict.FAIL), key=lambda r: r.unit.serial
-    )
+    # Units picked for the same job must answer to different addresses: the better-ranked
+    # unit keeps its address and a later one with the same address is set aside.
+    ready: list[Readiness] = []
+    taken: dict[str, str] = {}
+    rejected = [r for r in results if r.verdict == Verdict.FAIL]
+    for r in candidates:
+        address = r.unit.acoustic_address
+        if address in taken:
+            clash = CheckResult(
+                "Acoustic address",
+                Verdict.FAIL,
+                f"address {address} is also {taken[address]}'s, ranked higher in this plan",
+                "—",
+            )
+            r.checks.insert(0, clash)
+            rejected.append(r)
+            continue
+        taken[address] = r.unit.serial
+        ready.append(r)
+    rejected.sort(key=lambda r: r.unit.serial)
     return Plan(site, start, days, wanted, ready, rejected)
-
-
-__all__ = [
-    "Verdict",
-    "CheckResult",
-    "Readiness",
-    "check_unit",
-    "readiness_for",
-    "plan_campaign",
-    "Plan",
-    "classify",
-]

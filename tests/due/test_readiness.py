@@ -189,3 +189,18 @@ def test_the_planner_ranks_by_margin_and_explains_rejects(variant, workshop, sit
     assert [r.unit.serial for r in plan.rejected] == [c.serial]
     assert plan.rejected[0].first_failure.name == "Pressure test"
     assert plan.shortfall == 1
+
+
+def test_the_planner_never_sends_two_units_with_one_address(variant, workshop, site, technician):
+    first = serviced(
+        make_unit(serial="TX-A", acoustic_address="7", variant=variant, place=workshop), technician
+    )
+    second = serviced(
+        make_unit(serial="TX-B", acoustic_address="7", variant=variant, place=workshop), technician
+    )
+    plan = plan_campaign(site=site, start=START, days=30, wanted=2, on=ON, at=AT)
+    assert [r.unit.serial for r in plan.ready] == [first.serial]
+    assert [r.unit.serial for r in plan.rejected] == [second.serial]
+    reason = plan.rejected[0].first_failure
+    assert reason.name == "Acoustic address"
+    assert "TX-A" in reason.numbers

@@ -34,6 +34,7 @@ from dataclasses import dataclass, field
 from enum import StrEnum
 
 from django.db.models import QuerySet
+from django.utils import timezone
 
 from fleet.calc import anodes as calc_anodes
 from fleet.calc import battery as calc_battery
@@ -51,7 +52,7 @@ from fleet.models import (
 )
 
 from .rules import Rules, rules_for
-from .state import charge_per_reply_as
+from .state import charge_per_reply_as, start_of
 
 ANODE_METAL = {"al_zn_in": "Al-Zn-In", "zn": "Zn", "mg": "Mg"}
 CHEMISTRY_KEY = {
@@ -401,7 +402,7 @@ def battery_projection(
     q_reply = charge_per_reply_as(steps, step)
     open_d = state.open_deployment
     if open_d is not None:
-        fitted_from = dt.datetime.combine(pack.installed_on, dt.time.min, tzinfo=dt.UTC)
+        fitted_from = start_of(pack.installed_on)
         days_open = max(0.0, _days(at - max(open_d.over_side_at, fitted_from)))
         used += calc_battery.charge_used_ah(
             days_open * 24.0,
@@ -473,13 +474,13 @@ def _pressure_item(
         test.water_temperature_start_c,
         test.water_temperature_end_c,
         test.ingress_found,
-        required,
+        required * (1.0 - rules.gauge_tolerance_percent / 100.0),
         rules.hold_min_minutes,
         rules.allowable_drop_percent,
     )
     tested = f"tested {test.tested_on} at {test.start_pressure_dbar:.0f} dbar"
     if state and state.test_voided_by_opening:
-        opened = state.last_opening_at.date() if state.last_opening_at else "since"
+        opened = timezone.localdate(state.last_opening_at) if state.last_opening_at else "since"
         return on, DueState.OVERDUE, f"{tested}; void: the housing was opened {opened}", ()
     if not verdict.passed:
         return on, DueState.OVERDUE, f"{tested}; not accepted: {'; '.join(verdict.reasons)}", ()
@@ -570,7 +571,7 @@ def _seal_item(row: SealState, rules: Rules, on: dt.date) -> tuple:
     position = row.position
     if row.fitted_at is None:
         return None, DueState.NO_DATA, "no seal change recorded", ()
-    fitted_on = row.fitted_at.date()
+    fitted_on = timezone.localdate(row.fitted_at)
     cure = row.cure_date if row.cure_date and row.cure_date <= fitted_on else None
     result = calc_seals.seal_due(
         fitted_on,

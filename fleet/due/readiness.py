@@ -178,7 +178,9 @@ def check_unit(
         )
         if state.test_voided_by_opening:
             verdict, numbers = Verdict.FAIL, numbers + "; void: the housing was opened since"
-        elif test.ingress_found or test.start_pressure_dbar < needed:
+        elif test.ingress_found or test.start_pressure_dbar < needed * (
+            1.0 - rules.gauge_tolerance_percent / 100.0
+        ):
             verdict = Verdict.FAIL
             numbers += "; ingress found" if test.ingress_found else "; held less than needed"
         elif due_on is None or due_on < start:

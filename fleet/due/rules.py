@@ -19,6 +19,7 @@ class Rules:
     proof_factor: float
     hold_min_minutes: float
     allowable_drop_percent: float
+    gauge_tolerance_percent: float
     release_test_valid_days: int
     release_max_seconds: float
     release_max_motor_current_a: float
@@ -53,6 +54,7 @@ def rules_for(variant: Variant) -> Rules:
         proof_factor=_pick(variant.proof_factor, d["PROOF_FACTOR"]),  # type: ignore[arg-type]
         hold_min_minutes=d["PRESSURE_HOLD_MIN_MINUTES"],
         allowable_drop_percent=d["PRESSURE_ALLOWABLE_DROP_PERCENT"],
+        gauge_tolerance_percent=d["PRESSURE_GAUGE_TOLERANCE_PERCENT"],
         release_test_valid_days=_pick(
             variant.release_test_valid_days, d["RELEASE_TEST_VALID_DAYS"]
         ),  # type: ignore[arg-type]

@@ -23,6 +23,7 @@ evaluation then reads one row per item.
 import datetime as dt
 
 from django.db import transaction
+from django.utils import timezone
 
 from fleet.calc.anodes import WearSums
 from fleet.calc.battery import charge_used_ah
@@ -45,8 +46,9 @@ from fleet.models import (
 _FAR_FUTURE = dt.datetime(9000, 1, 1, tzinfo=dt.UTC)
 
 
-def _start_of(day: dt.date) -> dt.datetime:
-    return dt.datetime.combine(day, dt.time.min, tzinfo=dt.UTC)
+def start_of(day: dt.date) -> dt.datetime:
+    """Midnight at the start of ``day`` in the workshop's time zone (settings.TIME_ZONE)."""
+    return timezone.make_aware(dt.datetime.combine(day, dt.time.min))
 
 
 def charge_per_reply_as(steps: dict[int, float], step: int) -> float:
@@ -164,7 +166,7 @@ def refresh_unit_state(unit: Transponder, *, at: dt.datetime) -> UnitState:
     pack_charge = 0.0
     pack_releases = 0
     if pack is not None:
-        fitted_from = _start_of(pack.installed_on)
+        fitted_from = start_of(pack.installed_on)
         hours = 0.0
         replies_charge = 0.0
         for d in closed:
@@ -198,7 +200,7 @@ def refresh_unit_state(unit: Transponder, *, at: dt.datetime) -> UnitState:
     voided = False
     if last_test is not None:
         voided = any(
-            o.opened_at.date() > last_test.tested_on
+            timezone.localdate(o.opened_at) > last_test.tested_on
             or o.record.opened_at > last_test.record.opened_at
             for o in openings
         )

@@ -129,6 +129,8 @@ def service_record_save(
         if entry.pk is not None and entry.record_id == record.pk:
             entry.delete()
     for entry in entries:
+        if entry.pk is not None and entry.record_id != record.pk:
+            raise ValidationError("An entry can only be edited within its own record.")
         entry.record = record
         if isinstance(entry, BatteryInstall):
             entry.unit = record.unit

@@ -335,3 +335,26 @@ def test_the_engine_reads_a_fleet_in_a_constant_number_of_queries(
         large = evaluate_fleet(on=ON, at=AT)
     assert len(small) == 10
     assert len(large) == 200
+
+
+def test_a_test_set_to_the_proof_pressure_on_the_gauge_is_accepted(unit, technician):
+    # 1.25 x gsw p at 1500 m, 45 deg = 1896.7 dbar; a gauge set to 1895 is within 0.5 %.
+    visit(
+        unit,
+        technician,
+        t(2026, 2, 1),
+        _pressure_test(dt.date(2026, 2, 1), start_pressure_dbar=1895, end_pressure_dbar=1894),
+    )
+    assert item(evaluate(unit), "Pressure test").state == DueState.CURRENT
+
+
+def test_an_entry_cannot_be_moved_to_another_record(unit, technician):
+    from django.core.exceptions import ValidationError
+
+    position = unit.variant.anode_positions.first()
+    first = visit(unit, technician, t(2026, 2, 1), AnodeReading(position=position, mass_g=390))
+    reading = first.anode_readings.get()
+    with pytest.raises(ValidationError, match="within its own record"):
+        visit(unit, technician, t(2026, 3, 1), reading)
+    reading.refresh_from_db()
+    assert reading.record_id == first.pk

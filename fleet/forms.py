@@ -60,11 +60,42 @@ class ServiceRecordForm(forms.ModelForm):
             "summary": forms.Textarea(attrs={"rows": 3}),
         }
 
+    # Taking out the pack fitted at an earlier visit (a new pack below replaces it anyway).
+    remove_pack_on = forms.DateField(
+        required=False, widget=DateInput(), label="Fitted pack removed on"
+    )
+    removed_pack_ocv_v = forms.FloatField(
+        required=False, min_value=0.0, max_value=300.0, label="Its open-circuit volts at removal"
+    )
+
     def __init__(self, *args: object, unit: Transponder, **kwargs: object) -> None:
         super().__init__(*args, **kwargs)
         self.instance.unit = unit
         self.fields["technician"].queryset = _technicians()
         self.fields["place"].queryset = Place.objects.all()
+        self.fitted_pack = BatteryInstall.objects.filter(unit=unit, removed_on__isnull=True).first()
+        if self.fitted_pack is None:
+            del self.fields["remove_pack_on"]
+            del self.fields["removed_pack_ocv_v"]
+        else:
+            self.fields[
+                "remove_pack_on"
+            ].help_text = (
+                f"Pack {self.fitted_pack.pack_serial}, installed {self.fitted_pack.installed_on}."
+            )
+
+    def clean(self) -> dict[str, object]:
+        data = super().clean()
+        if self.fitted_pack is not None:
+            if data.get("removed_pack_ocv_v") is not None and not data.get("remove_pack_on"):
+                self.add_error("remove_pack_on", "Give the removal date with the removal volts.")
+        return data
+
+    @property
+    def pack_removal(self) -> tuple[object, float | None] | None:
+        if self.fitted_pack is None or not self.cleaned_data.get("remove_pack_on"):
+            return None
+        return self.cleaned_data["remove_pack_on"], self.cleaned_data.get("removed_pack_ocv_v")
 
 
 class EntryForm(forms.ModelForm):

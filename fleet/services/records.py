@@ -94,6 +94,25 @@ def _fit_battery(install: BatteryInstall) -> None:
     fitted.save(update_fields=["removed_on"])
 
 
+def _remove_fitted_pack(record: ServiceRecord, removed_on: dt.date, ocv_v: float | None) -> None:
+    fitted = (
+        BatteryInstall.objects.select_for_update()
+        .filter(unit_id=record.unit_id, removed_on__isnull=True)
+        .first()
+    )
+    if fitted is None:
+        raise ValidationError({"remove_pack_on": "No pack is fitted to this unit."})
+    fitted.removed_on = removed_on
+    fitted.ocv_removal_v = ocv_v
+    try:
+        fitted.full_clean()
+    except ValidationError as exc:
+        raise ValidationError(
+            {"remove_pack_on": [m for msgs in exc.message_dict.values() for m in msgs]}
+        ) from exc
+    fitted.save(update_fields=["removed_on", "ocv_removal_v"])
+
+
 @transaction.atomic
 def service_record_save(
     *,
@@ -102,11 +121,13 @@ def service_record_save(
     delete: Iterable[Entry] = (),
     by: AbstractBaseUser,
     expected_version: int | None = None,
+    pack_removal: tuple[dt.date, float | None] | None = None,
 ) -> ServiceRecord:
     """Create or update an open record with its entries, all or nothing.
 
     ``expected_version`` is the version the editor loaded; a stale edit is refused rather than
-    silently overwriting a colleague's work.
+    silently overwriting a colleague's work. ``pack_removal`` (date, open-circuit volts) takes
+    out the pack fitted at an earlier visit.
     """
     if record.pk is not None:
         current = _lock(record)
@@ -125,6 +146,8 @@ def service_record_save(
     record.full_clean()
     record.save()
 
+    if pack_removal is not None:
+        _remove_fitted_pack(record, *pack_removal)
     for entry in delete:
         if entry.pk is not None and entry.record_id == record.pk:
             entry.delete()

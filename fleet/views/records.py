@@ -44,6 +44,7 @@ def _edit(request: HttpRequest, record: ServiceRecord, template_title: str) -> H
                     delete=deleted,
                     by=request.user,
                     expected_version=expected,
+                    pack_removal=form.pack_removal,
                 )
             except ValidationError as exc:
                 errors = exc.messages

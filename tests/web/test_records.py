@@ -341,3 +341,60 @@ def test_the_record_page_shows_who_created_and_closed_it(
     assert "Closed, read-only" in body
     assert f"Created</dt><dd>{technician}" in body
     assert f"Closed</dt><dd>{supervisor}" in body
+
+
+def test_a_fitted_pack_is_taken_out_with_its_removal_volts(
+    as_technician, unit, workshop, technician
+):
+    def pack(serial, day):
+        return {
+            "pack_serial": serial,
+            "chemistry": "alkaline",
+            "nominal_voltage_v": "31.5",
+            "capacity_ah": "17",
+            "made_on": "2025-01-01",
+            "installed_on": day,
+            "ocv_install_v": "32.0",
+        }
+
+    url = reverse("record-new", args=[unit.serial])
+    as_technician.post(
+        url, record_post(unit, workshop, technician, battery=[pack("P1", "2025-06-01")])
+    )
+    page = as_technician.get(url).content.decode()
+    assert "Pack P1, installed 2025-06-01." in page
+    data = record_post(unit, workshop, technician)
+    data.update(remove_pack_on="2026-01-15", removed_pack_ocv_v="23.0")
+    response = as_technician.post(url, data)
+    assert response.status_code == 302
+    removed = BatteryInstall.objects.get()
+    assert removed.removed_on == dt.date(2026, 1, 15)
+    assert removed.ocv_removal_v == 23.0
+
+
+def test_a_removal_before_the_install_is_refused(as_technician, unit, workshop, technician):
+    url = reverse("record-new", args=[unit.serial])
+    data = record_post(
+        unit,
+        workshop,
+        technician,
+        battery=[
+            {
+                "pack_serial": "P1",
+                "chemistry": "alkaline",
+                "nominal_voltage_v": "31.5",
+                "capacity_ah": "17",
+                "made_on": "2025-01-01",
+                "installed_on": "2025-06-01",
+                "ocv_install_v": "32.0",
+            }
+        ],
+    )
+    as_technician.post(url, data)
+    data = record_post(unit, workshop, technician)
+    data.update(remove_pack_on="2025-05-01")
+    response = as_technician.post(url, data)
+    assert response.status_code == 400
+    assert "Removal must be on or after the install date." in response.content.decode()
+    assert BatteryInstall.objects.get().removed_on is None
+    assert ServiceRecord.objects.count() == 1

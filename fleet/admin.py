@@ -69,3 +69,13 @@ class DeploymentAdmin(ReadOnlyAdmin):
 @admin.register(models.Amendment)
 class AmendmentAdmin(ReadOnlyAdmin):
     list_display = ("record", "field_name", "original_value", "corrected_value", "created_by")
+
+
+@admin.register(models.ReleaseCertificate)
+class ReleaseCertificateAdmin(ReadOnlyAdmin):
+    """Issued and withdrawn from the record page (the service keeps numbering and supersession)."""
+
+    list_display = ("number", "release_test", "status", "issued_at", "issued_by", "valid_until")
+    list_filter = ("status", "year")
+    search_fields = ("number",)
+    exclude = ("verification_code",)

@@ -1,7 +1,7 @@
 from django.contrib import admin
 from django.urls import include, path
 
-from .views import dashboard, deployments, feeds, media, planning, records, units
+from .views import dashboard, deployments, documents, feeds, media, planning, records, units
 
 urlpatterns = [
     path("", dashboard.dashboard, name="dashboard"),
@@ -36,6 +36,22 @@ urlpatterns = [
     path("sites/<int:pk>/", deployments.site_detail, name="site-detail"),
     path("sites/<int:pk>/edit/", deployments.site_edit, name="site-edit"),
     # Documents (PDFs), release certificates and the public verification page
+    path("units/<str:serial>/checklist.pdf", documents.checklist_pdf, name="unit-checklist-pdf"),
+    path("units/<str:serial>/checklist/", documents.checklist_form, name="unit-checklist"),
+    path("labels.pdf", documents.labels_pdf, name="labels-pdf"),
+    path("records/<int:pk>/report.pdf", documents.record_report_pdf, name="record-report-pdf"),
+    path(
+        "release-tests/<int:pk>/certificate/",
+        documents.certificate_issue_view,
+        name="certificate-issue",
+    ),
+    path("certificates/<str:number>.pdf", documents.certificate_pdf, name="certificate-pdf"),
+    path(
+        "certificates/<str:number>/withdraw/",
+        documents.certificate_withdraw_view,
+        name="certificate-withdraw",
+    ),
+    path("verify/<str:code>/", documents.certificate_verify, name="certificate-verify"),
     path("accounts/", include("django.contrib.auth.urls")),
     path("admin/", admin.site.urls),
     path("media/<path:path>", media.media_file, name="media"),

@@ -2,6 +2,7 @@
 
 from .audit import Amendment
 from .deployments import Deployment
+from .documents import CertificateCounter, ReleaseCertificate
 from .feeds import CalendarFeed
 from .places import Place, Site
 from .records import (
@@ -35,6 +36,7 @@ __all__ = [
     "AnodeState",
     "BatteryInstall",
     "CalendarFeed",
+    "CertificateCounter",
     "Chemistry",
     "Deployment",
     "Elastomer",
@@ -42,6 +44,7 @@ __all__ = [
     "HousingOpening",
     "Place",
     "PressureTest",
+    "ReleaseCertificate",
     "ReleaseTest",
     "ReplyChargeStep",
     "SealChange",

@@ -23,40 +23,44 @@ class UnitState(models.Model):
 
     # Time in the water: closed deployments summed; an open one is added at evaluation time.
     immersed_days_closed = models.FloatField(default=0.0)
-    first_over_side_at = models.DateTimeField(null=True)
+    first_over_side_at = models.DateTimeField(null=True, blank=True)
     open_deployment = models.ForeignKey(
-        Deployment, on_delete=models.SET_NULL, null=True, related_name="+"
+        Deployment, on_delete=models.SET_NULL, null=True, blank=True, related_name="+"
     )
     # The duty the unit last worked at: replies per day and power step of its last deployment.
     duty_deployment = models.ForeignKey(
-        Deployment, on_delete=models.SET_NULL, null=True, related_name="+"
+        Deployment, on_delete=models.SET_NULL, null=True, blank=True, related_name="+"
     )
-    duty_replies_per_day = models.FloatField(null=True)
-    duty_site = models.ForeignKey(Site, on_delete=models.SET_NULL, null=True, related_name="+")
+    duty_replies_per_day = models.FloatField(null=True, blank=True)
+    duty_site = models.ForeignKey(
+        Site, on_delete=models.SET_NULL, null=True, blank=True, related_name="+"
+    )
 
     # Battery: the fitted pack and the charge it gave over closed deployments since install.
-    pack = models.ForeignKey(BatteryInstall, on_delete=models.SET_NULL, null=True, related_name="+")
+    pack = models.ForeignKey(
+        BatteryInstall, on_delete=models.SET_NULL, null=True, blank=True, related_name="+"
+    )
     pack_charge_used_ah = models.FloatField(default=0.0)
     pack_releases = models.PositiveIntegerField(default=0)
 
     # Pressure tests and openings
     last_pressure_test = models.ForeignKey(
-        PressureTest, on_delete=models.SET_NULL, null=True, related_name="+"
+        PressureTest, on_delete=models.SET_NULL, null=True, blank=True, related_name="+"
     )
-    last_opening_at = models.DateTimeField(null=True)
+    last_opening_at = models.DateTimeField(null=True, blank=True)
     test_voided_by_opening = models.BooleanField(default=False)
 
     last_release_test = models.ForeignKey(
-        ReleaseTest, on_delete=models.SET_NULL, null=True, related_name="+"
+        ReleaseTest, on_delete=models.SET_NULL, null=True, blank=True, related_name="+"
     )
     last_temperature_check = models.ForeignKey(
-        SensorCheck, on_delete=models.SET_NULL, null=True, related_name="+"
+        SensorCheck, on_delete=models.SET_NULL, null=True, blank=True, related_name="+"
     )
     last_pressure_check = models.ForeignKey(
-        SensorCheck, on_delete=models.SET_NULL, null=True, related_name="+"
+        SensorCheck, on_delete=models.SET_NULL, null=True, blank=True, related_name="+"
     )
     last_tilt_check = models.ForeignKey(
-        SensorCheck, on_delete=models.SET_NULL, null=True, related_name="+"
+        SensorCheck, on_delete=models.SET_NULL, null=True, blank=True, related_name="+"
     )
 
     def __str__(self) -> str:
@@ -71,7 +75,7 @@ class AnodeState(models.Model):
 
     unit = models.ForeignKey(Transponder, on_delete=models.CASCADE, related_name="anode_states")
     position = models.ForeignKey(AnodePosition, on_delete=models.CASCADE, related_name="+")
-    fitted_at = models.DateTimeField(null=True)
+    fitted_at = models.DateTimeField(null=True, blank=True)
     immersed_days_at_fit = models.FloatField(default=0.0)
     n = models.PositiveIntegerField(default=0)
     sum_x = models.FloatField(default=0.0)
@@ -79,9 +83,9 @@ class AnodeState(models.Model):
     sum_xx = models.FloatField(default=0.0)
     sum_xy = models.FloatField(default=0.0)
     sum_yy = models.FloatField(default=0.0)
-    last_read_at = models.DateTimeField(null=True)
-    last_mass_kg = models.FloatField(null=True)
-    last_bond_resistance_ohm = models.FloatField(null=True)
+    last_read_at = models.DateTimeField(null=True, blank=True)
+    last_mass_kg = models.FloatField(null=True, blank=True)
+    last_bond_resistance_ohm = models.FloatField(null=True, blank=True)
 
     class Meta:
         constraints = [
@@ -97,8 +101,8 @@ class SealState(models.Model):
 
     unit = models.ForeignKey(Transponder, on_delete=models.CASCADE, related_name="seal_states")
     position = models.ForeignKey(SealPosition, on_delete=models.CASCADE, related_name="+")
-    fitted_at = models.DateTimeField(null=True)
-    cure_date = models.DateField(null=True)
+    fitted_at = models.DateTimeField(null=True, blank=True)
+    cure_date = models.DateField(null=True, blank=True)
     material = models.CharField(max_length=8, blank=True)
     openings_since_fit = models.PositiveIntegerField(default=0)
 

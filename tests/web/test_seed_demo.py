@@ -176,11 +176,6 @@ def test_every_row_passes_full_clean(seeded: Seeded) -> None:
     assert checked > 1000
 
 
-@pytest.mark.xfail(
-    strict=False,
-    reason="UnitState's nullable links (e.g. last_release_test, last_tilt_check) lack "
-    "blank=True, so full_clean refuses a unit without a release or tilt sensor; reported",
-)
 def test_every_derived_state_row_passes_full_clean(seeded: Seeded) -> None:
     for row in _all_rows(derived=True):
         row.full_clean()

@@ -1,0 +1,263 @@
+"""Pre-deployment checklist: the readiness checks for one unit, site and period, the manual
+items to tick on deck, cautions and sign-off. ``prepare_checklist`` computes everything the
+page states (via ``fleet.due.readiness``); ``render_checklist`` turns it into bytes."""
+
+from __future__ import annotations
+
+import datetime as dt
+from dataclasses import dataclass
+
+from reportlab.lib.units import mm
+from reportlab.platypus import CondPageBreak, KeepTogether, Spacer, Table, TableStyle
+
+from fleet.due.readiness import Verdict, readiness_for
+from fleet.models import BatteryInstall, Site, Transponder
+
+from .base import (
+    CAUTIONS,
+    SHADE,
+    QrCode,
+    build_pdf,
+    cautions_table,
+    facts_table,
+    fmt_date,
+    fmt_datetime,
+    frame_width,
+    grid_table,
+    para,
+    para_bold,
+    signature_table,
+)
+
+TITLE = "Pre-deployment checklist"
+
+
+@dataclass(frozen=True, slots=True)
+class CheckLine:
+    name: str
+    verdict: str  # pass / warn / fail
+    verdict_label: str  # Pass / Check / Fail
+    verdict_icon: str
+    numbers: str
+    source: str
+
+
+@dataclass(frozen=True, slots=True)
+class ManualItem:
+    text: str
+    reading: str  # what to write down, "" for a tick only
+
+
+@dataclass(frozen=True, slots=True)
+class ChecklistDocument:
+    reference: str
+    prepared_at: dt.datetime
+    serial: str
+    variant: str
+    acoustic_address: str
+    turnaround_delay: str
+    site_id: int
+    site: str
+    site_depth_m: float
+    start: dt.date
+    end: dt.date
+    days: int
+    interrogations_per_day: int
+    power_step: int
+    verdict: str
+    verdict_label: str
+    verdict_icon: str
+    checks: tuple[CheckLine, ...]
+    manual_items: tuple[ManualItem, ...]
+    cautions: tuple[str, ...]
+    unit_url: str
+
+
+def checklist_reference(serial: str, start: dt.date, site_id: int) -> str:
+    return f"HF-CL-{serial}-{start.isoformat()}-{site_id}"
+
+
+def manual_items(unit: Transponder, pack: BatteryInstall | None) -> tuple[ManualItem, ...]:
+    delay = f"{unit.turnaround_delay_ms:g} ms"
+    pack_words = (
+        f"pack {pack.pack_serial}, {pack.nominal_voltage_v:g} V nominal, "
+        f"{pack.ocv_install_v:g} V at install"
+        if pack
+        else "no pack recorded as fitted"
+    )
+    items = [
+        ManualItem("Seals inspected, clean and greased; no nicks, set or debris", ""),
+        ManualItem("Vent plug fitted and tight", ""),
+        ManualItem("Anodes tight, bonded and not painted over", "bond ______ Ω"),
+        ManualItem("Flotation collar fitted and secured (or not used on this job)", ""),
+    ]
+    if unit.variant.release_fitted:
+        items.append(ManualItem("Release latched and hook safe; safety pin removed at launch", ""))
+    items += [
+        ManualItem(
+            f"Acoustic address {unit.acoustic_address} and turnaround delay {delay} "
+            "set and verified on deck with the deck unit",
+            "read back ______ / ______ ms",
+        ),
+        ManualItem(f"Battery volts recorded ({pack_words})", "______ V open circuit"),
+    ]
+    return tuple(items)
+
+
+def prepare_checklist(
+    unit: Transponder,
+    *,
+    site: Site,
+    start: dt.date,
+    days: int,
+    interrogations_per_day: int | None,
+    power_step: int | None,
+    on: dt.date,
+    at: dt.datetime,
+    unit_url: str,
+) -> ChecklistDocument:
+    """Everything the checklist states. Raises ValueError for a start in the past or bad days."""
+    readiness = readiness_for(
+        unit,
+        site=site,
+        start=start,
+        days=days,
+        interrogations_per_day=interrogations_per_day,
+        power_step=power_step,
+        on=on,
+        at=at,
+    )
+    pack = BatteryInstall.objects.filter(unit=unit, removed_on__isnull=True).first()
+    verdict = readiness.verdict
+    return ChecklistDocument(
+        reference=checklist_reference(unit.serial, start, site.pk),
+        prepared_at=at,
+        serial=unit.serial,
+        variant=unit.variant.name,
+        acoustic_address=unit.acoustic_address,
+        turnaround_delay=f"{unit.turnaround_delay_ms:g} ms",
+        site_id=site.pk,
+        site=site.name,
+        site_depth_m=site.water_depth_m,
+        start=start,
+        end=readiness.end,
+        days=days,
+        interrogations_per_day=readiness.interrogations_per_day,
+        power_step=readiness.power_step,
+        verdict=verdict.value,
+        verdict_label=verdict.label,
+        verdict_icon=verdict.icon,
+        checks=tuple(
+            CheckLine(c.name, c.verdict.value, c.verdict.label, c.verdict.icon, c.numbers, c.source)
+            for c in readiness.checks
+        ),
+        manual_items=manual_items(unit, pack),
+        cautions=tuple(
+            CAUTIONS[k]
+            for k in ("defer", "lithium", "pressure", "transducer", "release", "lifting")
+        ),
+        unit_url=unit_url,
+    )
+
+
+def verdict_cell(label: str, icon: str) -> str:
+    """Word and icon shape, so a black-and-white copy still reads."""
+    return f"{icon} {label}"
+
+
+def render_checklist(doc: ChecklistDocument) -> bytes:
+    width = frame_width()
+    qr_size = 26 * mm
+    head = Table(
+        [
+            [
+                [
+                    para(TITLE, "title"),
+                    para(
+                        f"Unit {doc.serial} ({doc.variant}) to {doc.site}, "
+                        f"{fmt_date(doc.start)} to {fmt_date(doc.end)}"
+                    ),
+                ],
+                [QrCode(doc.unit_url, qr_size), para("Scan: unit page", "small")],
+            ]
+        ],
+        colWidths=[width - qr_size - 4 * mm, qr_size + 4 * mm],
+    )
+    head.setStyle(
+        TableStyle([("VALIGN", (0, 0), (-1, -1), "TOP"), ("LEFTPADDING", (0, 0), (-1, -1), 0)])
+    )
+    facts = facts_table(
+        [
+            ("Serial", doc.serial),
+            ("Variant", doc.variant),
+            ("Site", f"{doc.site} (id {doc.site_id}), {doc.site_depth_m:g} m"),
+            ("Deployment", f"{fmt_date(doc.start)} to {fmt_date(doc.end)}, {doc.days} days"),
+            ("Acoustic address", doc.acoustic_address),
+            ("Turnaround delay", doc.turnaround_delay),
+            ("Duty", f"{doc.interrogations_per_day} replies a day, power step {doc.power_step}"),
+            ("Prepared", fmt_datetime(doc.prepared_at)),
+        ],
+        [24 * mm, width / 2 - 24 * mm, 24 * mm, width / 2 - 24 * mm],
+    )
+    overall = Table(
+        [
+            [
+                para_bold(
+                    "Automated checks overall: "
+                    + verdict_cell(doc.verdict_label, doc.verdict_icon),
+                    "verdict",
+                )
+            ]
+        ],
+        colWidths=[width],
+    )
+    overall.setStyle(
+        TableStyle(
+            [
+                ("BOX", (0, 0), (-1, -1), 2 if doc.verdict == Verdict.FAIL else 1, "black"),
+                ("BACKGROUND", (0, 0), (-1, -1), SHADE),
+                ("TOPPADDING", (0, 0), (-1, -1), 3),
+                ("BOTTOMPADDING", (0, 0), (-1, -1), 5),
+            ]
+        )
+    )
+    check_rows = [["Check", "Verdict", "Numbers", "Source"]]
+    fails = []
+    for i, c in enumerate(doc.checks, start=1):
+        check_rows.append(
+            [c.name, verdict_cell(c.verdict_label, c.verdict_icon), c.numbers, c.source]
+        )
+        if c.verdict == Verdict.FAIL:
+            fails.append(("BOX", (1, i), (1, i), 1.5, "black"))
+    checks = grid_table(
+        check_rows,
+        [32 * mm, 17 * mm, width - 32 * mm - 17 * mm - 45 * mm, 45 * mm],
+        extra=fails,
+    )
+    manual_rows = [["", "Item", "Reading"]] + [
+        [para("☐", "tick"), item.text, item.reading] for item in doc.manual_items
+    ]
+    manual = grid_table(
+        manual_rows,
+        [8 * mm, width - 8 * mm - 55 * mm, 55 * mm],
+        extra=[("TOPPADDING", (0, 1), (-1, -1), 5), ("BOTTOMPADDING", (0, 1), (-1, -1), 5)],
+    )
+    story = [
+        head,
+        Spacer(0, 2 * mm),
+        facts,
+        Spacer(0, 3 * mm),
+        overall,
+        CondPageBreak(30 * mm),
+        para("Automated checks", "h2_flow"),
+        checks,
+        CondPageBreak(30 * mm),
+        para("Manual checks on deck", "h2_flow"),
+        manual,
+        Spacer(0, 4 * mm),
+        KeepTogether([cautions_table(doc.cautions, width)]),
+        KeepTogether(
+            [para("Sign-off", "h2"), signature_table(["Technician", "Supervisor"], width)]
+        ),
+    ]
+    return build_pdf(story, title=TITLE, reference=doc.reference, when=doc.prepared_at)

@@ -1,0 +1,349 @@
+"""Service report: a closed bench visit, every entry of every kind, its amendments (original
+and corrected values), photos, and who did what when. Only closed records are reported: an
+open one can still change under the paper."""
+
+from __future__ import annotations
+
+import datetime as dt
+from collections.abc import Callable
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+from django.core.files.storage import default_storage
+from reportlab.lib.units import mm
+from reportlab.lib.utils import ImageReader
+from reportlab.platypus import CondPageBreak, Image, KeepTogether, Spacer
+
+from fleet.models import ServiceRecord
+
+from .base import (
+    CAUTIONS,
+    build_pdf,
+    cautions_table,
+    display_name,
+    facts_table,
+    fmt_date,
+    fmt_datetime,
+    fmt_number,
+    frame_width,
+    grid_table,
+    para,
+    signature_table,
+)
+
+TITLE = "Service report"
+
+
+class RecordOpenError(ValueError):
+    """A report was asked for an open record."""
+
+
+@dataclass(frozen=True, slots=True)
+class EntrySection:
+    title: str
+    headers: tuple[str, ...]
+    rows: tuple[tuple[str, ...], ...]
+
+
+@dataclass(frozen=True, slots=True)
+class AmendmentLine:
+    when: dt.datetime
+    by: str
+    target: str
+    field: str
+    original: str
+    corrected: str
+    reason: str
+
+
+@dataclass(frozen=True, slots=True)
+class PhotoLine:
+    caption: str
+    path: str  # absolute file path in storage; may be gone
+
+
+@dataclass(frozen=True, slots=True)
+class ReportDocument:
+    reference: str
+    record_id: int
+    serial: str
+    variant: str
+    place: str
+    technician: str
+    opened_at: dt.datetime
+    closed_at: dt.datetime
+    closed_by: str
+    created_at: dt.datetime
+    created_by: str
+    summary: str
+    sections: tuple[EntrySection, ...]
+    amendments: tuple[AmendmentLine, ...]
+    photos: tuple[PhotoLine, ...]
+    cautions: tuple[str, ...]
+
+
+def _yes(value: bool) -> str:
+    return "yes" if value else "no"
+
+
+def _n(value: float | None, unit: str = "") -> str:
+    return fmt_number(value, unit)
+
+
+# Per entry kind: section title, related name, and (header, getter) columns.
+Column = tuple[str, Callable[[Any], str]]
+SECTIONS: tuple[tuple[str, str, tuple[Column, ...]], ...] = (
+    (
+        "Anode readings",
+        "anode_readings",
+        (
+            ("#", lambda e: str(e.pk)),
+            ("Position", lambda e: e.position.name),
+            ("Net mass", lambda e: _n(e.mass_g, "g")),
+            ("Remaining", lambda e: _n(e.remaining_percent, "%")),
+            ("Bond", lambda e: _n(e.bond_resistance_ohm, "Ω")),
+            ("Replaced", lambda e: _yes(e.replaced)),
+            ("Note", lambda e: e.note),
+        ),
+    ),
+    (
+        "Seal changes",
+        "seal_changes",
+        (
+            ("#", lambda e: str(e.pk)),
+            ("Position", lambda e: f"{e.position.name} ({e.position.size_label})"),
+            ("Material", lambda e: e.material),
+            ("Cure date", lambda e: fmt_date(e.cure_date)),
+            ("Lot", lambda e: e.lot),
+            ("Reason", lambda e: e.get_reason_display()),
+        ),
+    ),
+    (
+        "Battery installs",
+        "battery_installs",
+        (
+            ("#", lambda e: str(e.pk)),
+            ("Pack", lambda e: e.pack_serial),
+            ("Chemistry", lambda e: e.get_chemistry_display()),
+            ("Nominal", lambda e: f"{_n(e.nominal_voltage_v, 'V')}, {_n(e.capacity_ah, 'Ah')}"),
+            ("Made / installed", lambda e: f"{fmt_date(e.made_on)} / {fmt_date(e.installed_on)}"),
+            ("Removed", lambda e: fmt_date(e.removed_on)),
+            ("OCV install", lambda e: _n(e.ocv_install_v, "V")),
+        ),
+    ),
+    (
+        "Pressure tests",
+        "pressure_tests",
+        (
+            ("#", lambda e: str(e.pk)),
+            ("Tested", lambda e: fmt_date(e.tested_on)),
+            ("Test pressure", lambda e: _n(e.test_pressure_dbar, "dbar")),
+            ("Hold", lambda e: _n(e.hold_minutes, "min")),
+            (
+                "Start → end",
+                lambda e: f"{_n(e.start_pressure_dbar)} → {_n(e.end_pressure_dbar, 'dbar')}",
+            ),
+            (
+                "Water",
+                lambda e: (
+                    f"{_n(e.water_temperature_start_c)} → {_n(e.water_temperature_end_c, '°C')}"
+                ),
+            ),
+            ("Ingress", lambda e: _yes(e.ingress_found)),
+            ("Facility", lambda e: e.facility),
+        ),
+    ),
+    (
+        "Release tests",
+        "release_tests",
+        (
+            ("#", lambda e: str(e.pk)),
+            ("Tested", lambda e: fmt_date(e.tested_on)),
+            ("Kind", lambda e: e.get_kind_display()),
+            ("Load", lambda e: _n(e.load_kg, "kg")),
+            ("Time to release", lambda e: _n(e.seconds_to_release, "s")),
+            ("Motor current", lambda e: _n(e.motor_current_a, "A")),
+            ("Limit switch", lambda e: _yes(e.limit_switch_ok)),
+            ("Acoustic command", lambda e: _yes(e.acoustic_command_ok)),
+        ),
+    ),
+    (
+        "Sensor checks",
+        "sensor_checks",
+        (
+            ("#", lambda e: str(e.pk)),
+            ("Checked", lambda e: fmt_date(e.checked_on)),
+            ("Sensor", lambda e: e.get_sensor_display()),
+            ("Reference", lambda e: _n(e.reference_value)),
+            ("Unit reads", lambda e: _n(e.unit_reading)),
+            ("Error", lambda e: f"{e.error:+.3g}"),
+            ("Raw", lambda e: _n(e.raw_resistance_ohm, "Ω")),
+        ),
+    ),
+    (
+        "Housing openings",
+        "housing_openings",
+        (
+            ("#", lambda e: str(e.pk)),
+            ("Opened", lambda e: fmt_datetime(e.opened_at)),
+            ("Closed", lambda e: fmt_datetime(e.closed_at)),
+            ("Vented first", lambda e: _yes(e.vented_before_opening)),
+            ("Pressure found", lambda e: _yes(e.internal_pressure_found)),
+            ("Reason", lambda e: e.reason),
+        ),
+    ),
+)
+
+
+def _photo_path(field: Any) -> str:
+    try:
+        return str(default_storage.path(field.name))
+    except NotImplementedError:  # a remote storage: no local path, skip the photo
+        return ""
+
+
+def prepare_report(record: ServiceRecord) -> ReportDocument:
+    if not record.is_closed:
+        raise RecordOpenError("This record is still open; close it before printing a report.")
+    sections = []
+    photos = []
+    for title, related, columns in SECTIONS:
+        queryset = getattr(record, related).order_by("pk")
+        if related in ("anode_readings", "seal_changes"):
+            queryset = queryset.select_related("position")
+        entries = list(queryset)
+        if not entries:
+            continue
+        sections.append(
+            EntrySection(
+                title,
+                tuple(h for h, _ in columns),
+                tuple(tuple(get(e) for _, get in columns) for e in entries),
+            )
+        )
+        if related == "anode_readings":
+            photos += [
+                PhotoLine(f"Anode reading #{e.pk}: {e.position.name}", _photo_path(e.photo))
+                for e in entries
+                if e.photo
+            ]
+    amendments = tuple(
+        AmendmentLine(
+            a.created_at,
+            display_name(a.created_by),
+            f"{a.target_type.name} #{a.target_id}",
+            a.field_name,
+            a.original_value or "(empty)",
+            a.corrected_value or "(empty)",
+            a.reason,
+        )
+        for a in record.amendments.select_related("created_by", "target_type").order_by(
+            "created_at", "pk"
+        )
+    )
+    unit = record.unit
+    return ReportDocument(
+        reference=f"HF-SR-{record.pk}",
+        record_id=record.pk,
+        serial=unit.serial,
+        variant=unit.variant.name,
+        place=record.place.name,
+        technician=display_name(record.technician),
+        opened_at=record.opened_at,
+        closed_at=record.closed_at,  # type: ignore[arg-type]
+        closed_by=display_name(record.closed_by),
+        created_at=record.created_at,
+        created_by=display_name(record.created_by),
+        summary=record.summary,
+        sections=tuple(sections),
+        amendments=amendments,
+        photos=tuple(photos),
+        cautions=(CAUTIONS["pressure"], CAUTIONS["lithium"], CAUTIONS["defer"]),
+    )
+
+
+def _photo_flowable(photo: PhotoLine, max_w: float, max_h: float) -> Image | None:
+    """The stored photo scaled into the box; None when the file is missing or unreadable."""
+    if not photo.path or not Path(photo.path).is_file():
+        return None
+    try:
+        reader = ImageReader(photo.path)
+        w, h = reader.getSize()
+    except Exception:  # noqa: BLE001 - a damaged file must not stop the report
+        return None
+    scale = min(max_w / w, max_h / h, 1.0)
+    return Image(photo.path, width=w * scale, height=h * scale)
+
+
+def render_report(doc: ReportDocument) -> bytes:
+    width = frame_width()
+    story: list = [
+        para(TITLE, "title"),
+        para(f"Bench visit #{doc.record_id} for unit {doc.serial} ({doc.variant})"),
+        Spacer(0, 3 * mm),
+        facts_table(
+            [
+                ("Unit serial", doc.serial),
+                ("Variant", doc.variant),
+                ("Place", doc.place),
+                ("Technician", doc.technician),
+                ("Opened", fmt_datetime(doc.opened_at)),
+                ("Closed", f"{fmt_datetime(doc.closed_at)} by {doc.closed_by}"),
+                ("Created", f"{fmt_datetime(doc.created_at)} by {doc.created_by}"),
+            ],
+            [22 * mm, width / 2 - 22 * mm, 22 * mm, width / 2 - 22 * mm],
+        ),
+    ]
+    if doc.summary:
+        story += [para("Summary", "h2"), para(doc.summary)]
+    if not doc.sections:
+        story += [para("Entries", "h2"), para("No entries were recorded on this visit.")]
+    for section in doc.sections:
+        # "#" narrow, the last column (note, reason, facility) twice the others.
+        first = 9 * mm
+        unit = (width - first) / len(section.headers)
+        widths = [first] + [unit] * (len(section.headers) - 2) + [2 * unit]
+        story += [
+            CondPageBreak(30 * mm),
+            para(section.title, "h2_flow"),
+            grid_table([section.headers, *section.rows], widths),
+        ]
+    if doc.amendments:
+        story += [
+            para("Amendments (the original value is kept)", "h2"),
+            grid_table(
+                [
+                    ("When", "By", "Entry", "Field", "Original", "Corrected", "Reason"),
+                    *[
+                        (
+                            fmt_datetime(a.when),
+                            a.by,
+                            a.target,
+                            a.field,
+                            a.original,
+                            a.corrected,
+                            a.reason,
+                        )
+                        for a in doc.amendments
+                    ],
+                ],
+                [24 * mm, 18 * mm, 22 * mm, 22 * mm, 24 * mm, 24 * mm, width - 134 * mm],
+            ),
+        ]
+    if doc.photos:
+        story.append(para("Photos", "h2"))
+        for photo in doc.photos:
+            image = _photo_flowable(photo, width * 0.6, 70 * mm)
+            if image is None:
+                story.append(para(f"{photo.caption}: photo file missing, not printed.", "small"))
+                continue
+            image.hAlign = "LEFT"
+            story.append(KeepTogether([image, para(photo.caption, "small"), Spacer(0, 3 * mm)]))
+    story += [
+        Spacer(0, 4 * mm),
+        KeepTogether([cautions_table(doc.cautions, width)]),
+        para("Review", "h2"),
+        KeepTogether([signature_table(["Reviewed by (supervisor)"], width)]),
+    ]
+    return build_pdf(story, title=TITLE, reference=doc.reference, when=doc.closed_at)

@@ -1,0 +1,117 @@
+"""Writes for release-test certificates. Each is one transaction, called by views and tests.
+
+Numbering: the year's counter row is locked with ``select_for_update`` (a row lock on
+PostgreSQL; on SQLite the IMMEDIATE transaction already holds the database write lock), so
+two supervisors issuing at once get consecutive numbers, never the same one. The unique
+constraints on (year, sequence) and on the number are the backstop.
+"""
+
+import datetime as dt
+
+from django.contrib.auth.models import AbstractBaseUser
+from django.core.exceptions import ValidationError
+from django.db import transaction
+from django.utils import timezone
+
+from fleet.due.engine import release_test_failures
+from fleet.due.rules import rules_for
+from fleet.models import CertificateCounter, ReleaseCertificate, ReleaseTest
+
+
+def _next_number(year: int) -> tuple[int, str]:
+    counter, _ = CertificateCounter.objects.select_for_update().get_or_create(year=year)
+    counter.last_number += 1
+    counter.save(update_fields=["last_number"])
+    return counter.last_number, f"RC-{year}-{counter.last_number:04d}"
+
+
+@transaction.atomic
+def certificate_issue(
+    *, release_test: ReleaseTest, by: AbstractBaseUser, at: dt.datetime
+) -> ReleaseCertificate:
+    """Issue a certificate for a passing release test on a closed record.
+
+    A failing test gets no certificate: the refusal names the failures. A new certificate for
+    a test that already has one supersedes the old one.
+    """
+    test = ReleaseTest.objects.select_related("record__unit__variant").get(pk=release_test.pk)
+    record = test.record
+    if not record.is_closed:
+        raise ValidationError(
+            "Close the bench visit first: a certificate certifies a closed record.",
+            code="record_open",
+        )
+    rules = rules_for(record.unit.variant)
+    failures = release_test_failures(test, rules)
+    if failures:
+        raise ValidationError(
+            "This release test failed (%(failures)s); no certificate is issued for a failed "
+            "test. Repair, retest and record a passing test first.",
+            params={"failures": "; ".join(failures)},
+            code="test_failed",
+        )
+    previous = list(
+        ReleaseCertificate.objects.select_for_update().filter(
+            release_test=test, status=ReleaseCertificate.Status.ISSUED
+        )
+    )
+    for old in previous:
+        old.status = ReleaseCertificate.Status.SUPERSEDED
+        old.status_changed_at = at
+        old.status_changed_by = by  # type: ignore[assignment]
+        old.save(update_fields=["status", "status_changed_at", "status_changed_by"])
+
+    year = timezone.localdate(at).year
+    sequence, number = _next_number(year)
+    certificate = ReleaseCertificate(
+        number=number,
+        year=year,
+        sequence=sequence,
+        release_test=test,
+        issued_at=at,
+        issued_by=by,
+        tested_on=test.tested_on,
+        kind=test.kind,
+        load_kg=test.load_kg,
+        seconds_to_release=test.seconds_to_release,
+        motor_current_a=test.motor_current_a,
+        limit_switch_ok=test.limit_switch_ok,
+        acoustic_command_ok=test.acoustic_command_ok,
+        max_seconds=rules.release_max_seconds,
+        max_motor_current_a=rules.release_max_motor_current_a,
+        passed=True,
+        valid_until=test.tested_on + dt.timedelta(days=rules.release_test_valid_days),
+    )
+    certificate.full_clean()
+    certificate.save()
+    for old in previous:
+        old.superseded_by = certificate
+        old.status_reason = f"Superseded by {certificate.number}."
+        old.save(update_fields=["superseded_by", "status_reason"])
+    return certificate
+
+
+@transaction.atomic
+def certificate_withdraw(
+    *, certificate: ReleaseCertificate, reason: str, by: AbstractBaseUser, at: dt.datetime
+) -> ReleaseCertificate:
+    current = ReleaseCertificate.objects.select_for_update().get(pk=certificate.pk)
+    if current.status != ReleaseCertificate.Status.ISSUED:
+        raise ValidationError(
+            "Only a current certificate can be withdrawn; this one is %(status)s.",
+            params={"status": current.get_status_display().lower()},
+            code="not_current",
+        )
+    if not reason.strip():
+        raise ValidationError(
+            {"reason": ValidationError("Say why the certificate is withdrawn.", code="no_reason")}
+        )
+    current.status = ReleaseCertificate.Status.WITHDRAWN
+    current.status_reason = reason.strip()
+    current.status_changed_at = at
+    current.status_changed_by = by  # type: ignore[assignment]
+    current.full_clean()
+    current.save(
+        update_fields=["status", "status_reason", "status_changed_at", "status_changed_by"]
+    )
+    return current

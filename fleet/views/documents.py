@@ -1,0 +1,235 @@
+"""PDF documents and certificate actions. Each view parses the request, guards, calls a
+``fleet.documents`` prepare function or service, and serves the bytes."""
+
+import datetime as dt
+
+from django.contrib import messages
+from django.contrib.auth.decorators import login_not_required
+from django.core.exceptions import PermissionDenied, ValidationError
+from django.http import HttpRequest, HttpResponse, HttpResponseBadRequest
+from django.shortcuts import get_object_or_404, redirect, render
+from django.urls import reverse
+from django.utils import timezone
+from django.utils.http import url_has_allowed_host_and_scheme
+from django.views.decorators.http import require_GET, require_POST
+
+from fleet import roles
+from fleet.documents.certificate import prepare_certificate, render_certificate
+from fleet.documents.checklist import prepare_checklist, render_checklist
+from fleet.documents.labels import PAPERS, prepare_labels, render_labels
+from fleet.documents.report import RecordOpenError, prepare_report, render_report
+from fleet.documents.services import certificate_issue, certificate_withdraw
+from fleet.models import ReleaseCertificate, ReleaseTest, Site, Transponder, Variant
+
+from .guards import get_record_for_user, get_unit_for_user, require
+
+
+def _pdf(data: bytes, filename: str) -> HttpResponse:
+    response = HttpResponse(data, content_type="application/pdf")
+    response["Content-Disposition"] = f'inline; filename="{filename}"'
+    response["X-Content-Type-Options"] = "nosniff"
+    return response
+
+
+def _bad(message: str) -> HttpResponse:
+    return HttpResponseBadRequest(message, content_type="text/plain; charset=utf-8")
+
+
+def _int_param(request: HttpRequest, name: str, lo: int, hi: int, *, required: bool) -> int | None:
+    raw = request.GET.get(name, "").strip()
+    if not raw:
+        if required:
+            raise ValueError(f"Give {name}.")
+        return None
+    try:
+        value = int(raw)
+    except ValueError:
+        raise ValueError(f"{name} must be a whole number, not {raw[:20]!r}.") from None
+    if not lo <= value <= hi:
+        raise ValueError(f"{name} must be between {lo} and {hi}, not {value}.")
+    return value
+
+
+@require_GET
+def checklist_pdf(request: HttpRequest, serial: str) -> HttpResponse:
+    """``?site=<id>&start=YYYY-MM-DD&days=N[&rate=N&step=N]``; any bad parameter is a 400."""
+    unit = get_unit_for_user(request, serial)
+    now = timezone.now()
+    today = timezone.localdate(now)
+    try:
+        site_id = _int_param(request, "site", 1, 2**62, required=True)
+        raw_start = request.GET.get("start", "").strip()
+        if not raw_start:
+            raise ValueError("Give start as YYYY-MM-DD.")
+        try:
+            start = dt.date.fromisoformat(raw_start)
+        except ValueError:
+            raise ValueError(
+                f"start must be a date as YYYY-MM-DD, not {raw_start[:20]!r}."
+            ) from None
+        if start < today:
+            raise ValueError(f"start must be today ({today}) or later, not {start}.")
+        days = _int_param(request, "days", 1, 3650, required=True)
+        rate = _int_param(request, "rate", 0, 1_000_000, required=False)
+        step = _int_param(request, "step", 1, 9, required=False)
+        site = Site.objects.filter(pk=site_id).first()
+        if site is None:
+            raise ValueError(f"There is no site with id {site_id}.")
+        doc = prepare_checklist(
+            unit,
+            site=site,
+            start=start,
+            days=days,  # type: ignore[arg-type]
+            interrogations_per_day=rate,
+            power_step=step,
+            on=today,
+            at=now,
+            unit_url=request.build_absolute_uri(unit.get_absolute_url()),
+        )
+    except ValueError as exc:
+        return _bad(f"Cannot prepare the checklist: {exc}")
+    return _pdf(render_checklist(doc), f"{doc.reference}.pdf")
+
+
+@require_GET
+def checklist_form(request: HttpRequest, serial: str) -> HttpResponse:
+    """A small GET form that builds the checklist address."""
+    unit = get_unit_for_user(request, serial)
+    return render(
+        request,
+        "fleet/documents/checklist_form.html",
+        {
+            "unit": unit,
+            "sites": Site.objects.order_by("name"),
+            "today": timezone.localdate(),
+        },
+    )
+
+
+@require_GET
+@require(roles.can_read)
+def labels_pdf(request: HttpRequest) -> HttpResponse:
+    paper = request.GET.get("paper", "a4").strip().lower()
+    if paper not in PAPERS:
+        return _bad(f"Unknown paper size {paper[:20]!r}; use one of: {', '.join(PAPERS)}.")
+    units = Transponder.objects.select_related("variant").order_by("serial")
+    variant_id = None
+    if request.GET.get("variant", "").strip():
+        try:
+            variant_id = _int_param(request, "variant", 1, 2**62, required=True)
+        except ValueError as exc:
+            return _bad(str(exc))
+        if not Variant.objects.filter(pk=variant_id).exists():
+            return _bad(f"There is no variant with id {variant_id}.")
+        units = units.filter(variant_id=variant_id)
+    sheet = prepare_labels(
+        list(units),
+        paper=paper,
+        variant_id=variant_id,
+        on=timezone.localdate(),
+        url_for=lambda u: request.build_absolute_uri(u.get_absolute_url()),
+    )
+    return _pdf(render_labels(sheet), f"{sheet.reference}.pdf")
+
+
+@require_GET
+def record_report_pdf(request: HttpRequest, pk: int) -> HttpResponse:
+    record = get_record_for_user(request, pk)
+    try:
+        doc = prepare_report(record)
+    except RecordOpenError as exc:
+        return HttpResponse(str(exc), status=409, content_type="text/plain; charset=utf-8")
+    return _pdf(render_report(doc), f"{doc.reference}.pdf")
+
+
+def _get_release_test_for_user(request: HttpRequest, pk: int) -> ReleaseTest:
+    """Issuing is for supervisors: 403 before 404, like every guard."""
+    if not roles.can_supervise(request.user):
+        raise PermissionDenied
+    return get_object_or_404(ReleaseTest.objects.select_related("record__unit"), pk=pk)
+
+
+def _get_certificate_for_user(
+    request: HttpRequest, number: str, *, supervise: bool = False
+) -> ReleaseCertificate:
+    allowed = roles.can_supervise if supervise else roles.can_read
+    if not allowed(request.user):
+        raise PermissionDenied
+    return get_object_or_404(
+        ReleaseCertificate.objects.select_related(
+            "release_test__record__unit__variant", "issued_by", "superseded_by"
+        ),
+        number=number,
+    )
+
+
+def _back(request: HttpRequest, fallback: str) -> HttpResponse:
+    target = request.POST.get("next", "")
+    if url_has_allowed_host_and_scheme(
+        target, allowed_hosts={request.get_host()}, require_https=request.is_secure()
+    ):
+        return redirect(target)
+    return redirect(fallback)
+
+
+@require_POST
+def certificate_issue_view(request: HttpRequest, pk: int) -> HttpResponse:
+    test = _get_release_test_for_user(request, pk)
+    try:
+        certificate = certificate_issue(release_test=test, by=request.user, at=timezone.now())
+    except ValidationError as exc:
+        messages.error(request, " ".join(exc.messages))
+    else:
+        messages.success(request, f"Issued certificate {certificate.number}.")
+    return _back(request, test.record.get_absolute_url())
+
+
+@require_POST
+def certificate_withdraw_view(request: HttpRequest, number: str) -> HttpResponse:
+    certificate = _get_certificate_for_user(request, number, supervise=True)
+    try:
+        certificate_withdraw(
+            certificate=certificate,
+            reason=request.POST.get("reason", ""),
+            by=request.user,
+            at=timezone.now(),
+        )
+    except ValidationError as exc:
+        messages.error(request, " ".join(exc.messages))
+    else:
+        messages.success(request, f"Withdrew certificate {certificate.number}.")
+    return _back(request, certificate.release_test.record.get_absolute_url())
+
+
+@require_GET
+def certificate_pdf(request: HttpRequest, number: str) -> HttpResponse:
+    certificate = _get_certificate_for_user(request, number)
+    verify_url = request.build_absolute_uri(
+        reverse("certificate-verify", args=[certificate.verification_code])
+    )
+    doc = prepare_certificate(certificate, verify_url=verify_url)
+    return _pdf(render_certificate(doc), f"{certificate.number}.pdf")
+
+
+@login_not_required
+@require_GET
+def certificate_verify(request: HttpRequest, code: str) -> HttpResponse:
+    """Public: the key facts of one certificate, nothing else (no notes, no reasons, no names)."""
+    certificate = (
+        ReleaseCertificate.objects.select_related("release_test__record__unit", "superseded_by")
+        .filter(verification_code=code)
+        .first()
+    )
+    context = {"certificate": certificate, "code": code[:40]}
+    if certificate is None:
+        return render(request, "fleet/documents/verify.html", context, status=404)
+    today = timezone.localdate()
+    context.update(
+        {
+            "serial": certificate.release_test.record.unit.serial,
+            "expired": certificate.is_current and certificate.valid_until < today,
+        }
+    )
+    response = render(request, "fleet/documents/verify.html", context)
+    response["X-Robots-Tag"] = "noindex"
+    return response

@@ -58,8 +58,10 @@ def rules_for(variant: Variant) -> Rules:
         release_test_valid_days=_pick(
             variant.release_test_valid_days, d["RELEASE_TEST_VALID_DAYS"]
         ),  # type: ignore[arg-type]
-        release_max_seconds=d["RELEASE_MAX_SECONDS"],
-        release_max_motor_current_a=d["RELEASE_MAX_MOTOR_CURRENT_A"],
+        release_max_seconds=_pick(variant.release_max_seconds, d["RELEASE_MAX_SECONDS"]),  # type: ignore[arg-type]
+        release_max_motor_current_a=_pick(
+            variant.release_max_motor_current_a, d["RELEASE_MAX_MOTOR_CURRENT_A"]
+        ),  # type: ignore[arg-type]
         sensor_check_interval_months=_pick(
             variant.sensor_check_interval_months, d["SENSOR_CHECK_INTERVAL_MONTHS"]
         ),  # type: ignore[arg-type]
@@ -71,7 +73,9 @@ def rules_for(variant: Variant) -> Rules:
             variant.bond_resistance_limit_ohm, d["BOND_RESISTANCE_LIMIT_OHM"]
         ),  # type: ignore[arg-type]
         wear_flag_factor=d["WEAR_FLAG_FACTOR"],
-        battery_reserve_fraction=d["BATTERY_RESERVE_FRACTION"],
+        battery_reserve_fraction=_pick(
+            variant.battery_reserve_fraction, d["BATTERY_RESERVE_FRACTION"]
+        ),  # type: ignore[arg-type]
         battery_default_temperature_c=d["BATTERY_DEFAULT_TEMPERATURE_C"],
         seal_shelf_standard=d["SEAL_SHELF_STANDARD"],
         depth_margin_fraction=d["DEPTH_MARGIN_FRACTION"],

@@ -126,6 +126,24 @@ class Variant(models.Model):
         blank=True,
         validators=[MinValueValidator(0.0), MaxValueValidator(100.0)],
     )
+    release_max_seconds = models.FloatField(
+        "release acceptance: longest time to release (s)",
+        null=True,
+        blank=True,
+        validators=[MinValueValidator(0.1), MaxValueValidator(3600.0)],
+    )
+    release_max_motor_current_a = models.FloatField(
+        "release acceptance: highest motor current (A)",
+        null=True,
+        blank=True,
+        validators=[MinValueValidator(0.01), MaxValueValidator(50.0)],
+    )
+    battery_reserve_fraction = models.FloatField(
+        "battery reserve (fraction of usable charge)",
+        null=True,
+        blank=True,
+        validators=[MinValueValidator(0.0), MaxValueValidator(0.9)],
+    )
 
     class Meta:
         ordering = ["name"]

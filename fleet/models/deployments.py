@@ -8,7 +8,7 @@ from django.db.models import Q
 from django.utils import timezone
 
 from .places import Site
-from .units import Transponder
+from .units import Transponder, check_power_step
 
 
 class Deployment(models.Model):
@@ -69,6 +69,11 @@ class Deployment(models.Model):
                 errors["recovered_at"] = "Recovery must come after over the side."
         if self.replies_counted is not None and self.recovered_at is None:
             errors["replies_counted"] = "Count replies when the unit is recovered."
+        if self.unit_id and self.transmit_power_step:
+            try:
+                check_power_step(self.unit.variant, self.transmit_power_step, "transmit_power_step")
+            except ValidationError as exc:
+                errors.update({k: v[0] for k, v in exc.message_dict.items()})
         if errors:
             raise ValidationError(errors)
         if self.unit_id and self.over_side_at:

@@ -1,6 +1,7 @@
 """Transponders (units), by serial, and their photos."""
 
 from django.conf import settings
+from django.core.exceptions import ValidationError
 from django.core.validators import MaxValueValidator, MinValueValidator, RegexValidator
 from django.db import models
 from django.urls import reverse
@@ -58,6 +59,20 @@ class Transponder(models.Model):
 
     def get_absolute_url(self) -> str:
         return reverse("unit-detail", args=[self.serial])
+
+    def clean(self) -> None:
+        super().clean()
+        if self.variant_id and self.transmit_power_step:
+            check_power_step(self.variant, self.transmit_power_step, "transmit_power_step")
+
+
+def check_power_step(variant: Variant, step: int, field: str) -> None:
+    """A power step must be one the variant lists a reply charge for (when it lists any)."""
+    steps = sorted(variant.reply_steps.values_list("step", flat=True))
+    if steps and step not in steps:
+        raise ValidationError(
+            {field: f"{variant} has transmit power steps {', '.join(map(str, steps))}."}
+        )
 
 
 def _photo_path(instance: "UnitPhoto", filename: str) -> str:

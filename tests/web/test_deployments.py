@@ -98,3 +98,10 @@ def test_site_validation_names_the_allowed_range(as_supervisor):
     body = response.content.decode()
     assert "less than or equal to 90.0" in body
     assert "less than or equal to 11000.0" in body
+
+
+def test_a_power_step_the_variant_does_not_have_is_refused(as_technician, unit, site):
+    response = _deploy(as_technician, unit, site, transmit_power_step="4")
+    assert response.status_code == 400
+    assert "has transmit power steps 1." in response.content.decode()
+    assert not Deployment.objects.exists()

@@ -20,6 +20,7 @@ from .models import (
     ServiceRecord,
     Site,
     Transponder,
+    UnitPhoto,
     Variant,
 )
 from .photos import clean_photo
@@ -406,3 +407,16 @@ class PlanForm(PlannedDeploymentForm):
     def __init__(self, *args: object, **kwargs: object) -> None:
         super().__init__(*args, **kwargs)
         del self.fields["step"]
+
+
+class UnitPhotoForm(forms.ModelForm):
+    class Meta:
+        model = UnitPhoto
+        fields = ["image", "caption"]
+        widgets = {"image": forms.ClearableFileInput(attrs={"accept": "image/*"})}
+
+    def clean_image(self) -> object:
+        image = self.cleaned_data.get("image")
+        if image is None:
+            raise forms.ValidationError("Choose a photo to upload.")
+        return clean_photo(image)

@@ -8,6 +8,7 @@ urlpatterns = [
     path("units/", units.unit_list, name="unit-list"),
     path("units/<str:serial>/", units.unit_detail, name="unit-detail"),
     path("units/<str:serial>/records/new/", records.record_new, name="record-new"),
+    path("units/<str:serial>/photos/", units.unit_photo_add, name="unit-photo-add"),
     path("units/<str:serial>/readiness/", planning.readiness, name="unit-readiness"),
     path(
         "units/<str:serial>/charts/anode/<int:position_id>.svg",

@@ -1,14 +1,16 @@
+from django.contrib import messages
 from django.db.models import Max, Prefetch
 from django.http import HttpRequest, HttpResponse
-from django.shortcuts import render
+from django.shortcuts import redirect, render
 from django.utils import timezone
+from django.views.decorators.http import require_http_methods
 from django_tables2 import RequestConfig
 
 from fleet import roles
 from fleet.due.engine import evaluate_unit, fleet_queryset
 from fleet.exports import csv_response
 from fleet.filters import UnitFilter
-from fleet.forms import PlannedDeploymentForm
+from fleet.forms import PlannedDeploymentForm, UnitPhotoForm
 from fleet.models import (
     AnodeReading,
     BatteryInstall,
@@ -20,6 +22,23 @@ from fleet.models import (
 from fleet.tables import UnitTable, status_badge
 
 from .guards import get_unit_for_user, require
+
+
+@require_http_methods(["POST"])
+def unit_photo_add(request: HttpRequest, serial: str) -> HttpResponse:
+    unit = get_unit_for_user(request, serial, write=True)
+    form = UnitPhotoForm(request.POST, request.FILES)
+    if form.is_valid():
+        photo = form.save(commit=False)
+        photo.unit = unit
+        photo.uploaded_by = request.user
+        photo.save()
+        messages.success(request, "Photo added.")
+    else:
+        for errors in form.errors.values():
+            for error in errors:
+                messages.error(request, f"Photo not added: {error}")
+    return redirect(unit)
 
 
 @require(roles.can_read)
@@ -106,6 +125,7 @@ def unit_detail(request: HttpRequest, serial: str) -> HttpResponse:
             "fitted_pack": fitted_pack,
             "open_deployment": next((d for d in deployments if d.recovered_at is None), None),
             "history": history,
-            "photos": unit.photos.all(),
+            "photos": unit.photos.select_related("uploaded_by"),
+            "photo_form": UnitPhotoForm(),
         },
     )

@@ -25,6 +25,7 @@ battery charge to spare, anode mass to spare, depth rating to spare.
 from __future__ import annotations
 
 import datetime as dt
+from collections import Counter
 from dataclasses import dataclass, field
 from enum import StrEnum
 
@@ -35,6 +36,7 @@ from fleet.models import Deployment, Site, Transponder, UnitStatus
 
 from .engine import (
     SENSOR_FLAGS,
+    ItemKind,
     UnitEvaluation,
     _seal_item,
     _state,
@@ -168,7 +170,7 @@ def check_unit(
     needed = site_p * rules.proof_factor
     test = state.last_pressure_test if state else None
     source = f"sea pressure: TEOS-10 (gsw); proof factor {rules.proof_factor:g}: {COMMON}"
-    due_on, due_state, basis, _ = _pressure_like(ev, on)
+    due_on, basis = _due_of(ev, ItemKind.PRESSURE_TEST)
     if test is None:
         add(CheckResult("Pressure test", Verdict.FAIL, "no pressure test recorded", source))
     else:
@@ -414,11 +416,9 @@ def check_unit(
     return r
 
 
-def _pressure_like(ev: UnitEvaluation, on: dt.date) -> tuple:
-    item = next((i for i in ev.items if i.kind == "pressure_test"), None)
-    if item is None:
-        return None, None, "", ()
-    return item.due_on, item.state, item.basis, item.flags
+def _due_of(ev: UnitEvaluation, kind: ItemKind) -> tuple[dt.date | None, str]:
+    item = next((i for i in ev.items if i.kind == kind), None)
+    return (None, "") if item is None else (item.due_on, item.basis)
 
 
 def address_clashes_at(site: Site) -> dict[str, list[str]]:
@@ -472,6 +472,17 @@ class Plan:
     @property
     def shortfall(self) -> int:
         return max(0, self.wanted - len(self.ready))
+
+    @property
+    def blockers(self) -> list[tuple[str, int]]:
+        """What keeps units back, most common first: the work that would free the most."""
+        counts = Counter(
+            c.name.split(":")[0]
+            for r in self.rejected
+            for c in r.checks
+            if c.verdict == Verdict.FAIL
+        )
+        return counts.most_common()
 
 
 def plan_campaign(

@@ -68,22 +68,10 @@ def plan(request: HttpRequest) -> HttpResponse:
             )
         else:
             status = 400
-    blockers: dict[str, int] = {}
-    if result is not None:
-        for r in result.rejected:
-            for check in r.checks:
-                if check.verdict == "fail":
-                    blockers[check.name.split(":")[0]] = (
-                        blockers.get(check.name.split(":")[0], 0) + 1
-                    )
     return render(
         request,
         "fleet/plan.html",
-        {
-            "form": form,
-            "result": result,
-            "blockers": sorted(blockers.items(), key=lambda kv: -kv[1]),
-        },
+        {"form": form, "result": result},
         status=status,
     )
 

@@ -204,3 +204,14 @@ def test_the_planner_never_sends_two_units_with_one_address(variant, workshop, s
     reason = plan.rejected[0].first_failure
     assert reason.name == "Acoustic address"
     assert "TX-A" in reason.numbers
+
+
+def test_the_plan_counts_what_keeps_units_back(variant, workshop, site, technician):
+    make_unit(serial="TX-X", acoustic_address="11", variant=variant, place=workshop)
+    make_unit(serial="TX-Y", acoustic_address="12", variant=variant, place=workshop)
+    plan = plan_campaign(site=site, start=START, days=30, wanted=1, on=ON, at=AT)
+    blockers = dict(plan.blockers)
+    # Nothing recorded on either: no pressure test, no pack, no release test, for both.
+    assert blockers["Pressure test"] == 2
+    assert blockers["Battery"] == 2
+    assert blockers["Release test"] == 2

@@ -2,9 +2,14 @@
 Service records are written through the workshop pages (they carry the audit trail), so the
 admin shows them read-only."""
 
+from typing import Any
+
 from django.contrib import admin
+from django.http import HttpRequest
+from django.utils import timezone
 
 from . import models
+from .due.store import refresh_unit
 
 
 class AnodePositionInline(admin.TabularInline):
@@ -27,12 +32,23 @@ class VariantAdmin(admin.ModelAdmin):
     list_display = ("name", "depth_rating_m", "housing_alloy", "release_fitted")
     inlines = [AnodePositionInline, SealPositionInline, ReplyChargeStepInline]
 
+    def save_related(self, request: HttpRequest, form: Any, formsets: Any, change: bool) -> None:
+        super().save_related(request, form, formsets, change)
+        # Intervals and positions feed every unit's due items: recompute them now.
+        at = timezone.now()
+        for unit in form.instance.units.select_related("variant"):
+            refresh_unit(unit, at=at)
+
 
 @admin.register(models.Transponder)
 class TransponderAdmin(admin.ModelAdmin):
     list_display = ("serial", "variant", "status", "place", "acoustic_address")
     list_filter = ("status", "variant", "place")
     search_fields = ("serial", "acoustic_address")
+
+    def save_model(self, request: HttpRequest, obj: Any, form: Any, change: bool) -> None:
+        super().save_model(request, obj, form, change)
+        refresh_unit(obj, at=timezone.now())
 
 
 @admin.register(models.Place)

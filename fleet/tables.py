@@ -152,6 +152,9 @@ class DueItemTable(tables.Table):
             value,
         )
 
+    def value_due_state(self, value: str) -> str:
+        return value
+
     def render_flags(self, value: tuple) -> str:
         return "; ".join(value)
 

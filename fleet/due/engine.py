@@ -22,8 +22,9 @@ For each unit (loaded with its derived state in a constant number of queries):
   is overdue at once. **Sensor checks** per fitted sensor: calibration interval, and the
   reading within tolerance (temperature elements also against IEC 60751).
 
-States: overdue (due date before today), due soon (within the warning window), current,
-no data (nothing recorded to compute from).
+States: overdue (due today or earlier), due soon (within the warning window), current,
+no data (nothing recorded to compute from). A fault found (a failed test, a high bond
+resistance, openings used up) makes the item due on the day it is evaluated.
 """
 
 from __future__ import annotations
@@ -127,7 +128,8 @@ class DueItem:
 def classify(due_on: dt.date | None, on: dt.date, soon_days: int) -> DueState:
     if due_on is None:
         return DueState.NO_DATA
-    if due_on < on:
+    # Due today is due now: the unit should not go out until the item is done.
+    if due_on <= on:
         return DueState.OVERDUE
     if due_on <= on + dt.timedelta(days=soon_days):
         return DueState.DUE_SOON
@@ -333,10 +335,9 @@ def _anode_item(p: AnodeProjection, rules: Rules, duty: Duty, on: dt.date) -> tu
         due = _add_days(on, p.remaining_immersed_days / duty.fraction)
         when = "beyond 200 years" if due is None else due.isoformat()
         parts.append(f"due {when} ({_duty_words(duty)})")
-    state = classify(due, on, rules.due_soon_days)
     if bond_bad:
-        state, due = DueState.OVERDUE, due if due and due < on else on
-    return due, state, ", ".join(parts), tuple(flags)
+        due = on if due is None else min(due, on)
+    return due, classify(due, on, rules.due_soon_days), ", ".join(parts), tuple(flags)
 
 
 # --- battery ------------------------------------------------------------------------------

@@ -240,10 +240,15 @@ def refresh_unit_state(unit: Transponder, *, at: dt.datetime) -> UnitState:
 
 
 def rebuild_all(*, at: dt.datetime, batch: int = 500) -> int:
-    """Recompute every unit's state from its records. Returns the number of units."""
+    """Recompute every unit's state and stored due items from its records.
+
+    Returns the number of units.
+    """
+    from .store import refresh_unit  # the store builds on this module
+
     count = 0
     queryset = Transponder.objects.select_related("variant").order_by("pk")
     for unit in queryset.iterator(chunk_size=batch):
-        refresh_unit_state(unit, at=at)
+        refresh_unit(unit, at=at)
         count += 1
     return count

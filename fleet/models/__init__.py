@@ -15,7 +15,7 @@ from .records import (
     SensorCheck,
     ServiceRecord,
 )
-from .state import AnodeState, SealState, UnitState
+from .state import AnodeState, DueRow, SealState, UnitState
 from .units import Transponder, UnitPhoto, UnitStatus
 from .variants import (
     AnodeAlloy,
@@ -39,6 +39,7 @@ __all__ = [
     "CertificateCounter",
     "Chemistry",
     "Deployment",
+    "DueRow",
     "Elastomer",
     "HousingAlloy",
     "HousingOpening",

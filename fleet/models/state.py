@@ -111,3 +111,27 @@ class SealState(models.Model):
 
     def __str__(self) -> str:
         return f"seal state {self.unit_id}/{self.position_id}"
+
+
+class DueRow(models.Model):
+    """One due item as computed at the unit's last write (or the last rebuild).
+
+    Fleet-wide lists (the overview, the calendar feed) read these rows and classify them
+    against today's date in SQL, instead of running the engine over every unit per request.
+    A unit page computes its own items live.
+    """
+
+    unit = models.ForeignKey(Transponder, on_delete=models.CASCADE, related_name="due_rows")
+    kind = models.CharField(max_length=16)
+    item = models.CharField(max_length=160)
+    due_on = models.DateField(null=True, blank=True)
+    basis = models.TextField()
+    flags = models.TextField(blank=True, help_text="One flag per line.")
+    computed_on = models.DateField()
+
+    class Meta:
+        ordering = ["due_on", "unit_id", "item"]
+        indexes = [models.Index(fields=["due_on"], name="duerow_due_on")]
+
+    def __str__(self) -> str:
+        return f"{self.item} due {self.due_on}"

@@ -5,7 +5,7 @@ from django.core.exceptions import ValidationError
 from django.db import transaction
 from django.utils import timezone
 
-from fleet.due.state import refresh_unit_state
+from fleet.due.store import refresh_unit
 from fleet.models import Deployment, Place, Transponder, UnitStatus
 
 _DEPLOYABLE = {UnitStatus.READY, UnitStatus.IN_STORE, UnitStatus.IN_WORKSHOP}
@@ -25,7 +25,7 @@ def deployment_start(*, deployment: Deployment, by: AbstractBaseUser) -> Deploym
         unit.status = UnitStatus.DEPLOYED
         unit.version += 1
         unit.save(update_fields=["status", "version", "updated_at"])
-    refresh_unit_state(unit, at=timezone.now())
+    refresh_unit(unit, at=timezone.now())
     return deployment
 
 
@@ -52,5 +52,5 @@ def deployment_recover(
         unit.place = place
     unit.version += 1
     unit.save(update_fields=["status", "place", "version", "updated_at"])
-    refresh_unit_state(unit, at=timezone.now())
+    refresh_unit(unit, at=timezone.now())
     return current

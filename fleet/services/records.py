@@ -10,7 +10,7 @@ from django.db import transaction
 from django.db.models import Model
 from django.utils import timezone
 
-from fleet.due.state import refresh_unit_state
+from fleet.due.store import refresh_unit
 from fleet.models import Amendment, BatteryInstall, ServiceRecord
 from fleet.models.records import Entry
 
@@ -160,7 +160,7 @@ def service_record_save(
             _fit_battery(entry)
         entry.full_clean()
         entry.save()
-    refresh_unit_state(record.unit, at=timezone.now())
+    refresh_unit(record.unit, at=timezone.now())
     return record
 
 
@@ -240,7 +240,7 @@ def amendment_create(
     target.save()
     current.version += 1
     current.save(update_fields=["version", "updated_at"])
-    refresh_unit_state(current.unit, at=timezone.now())
+    refresh_unit(current.unit, at=timezone.now())
     return Amendment.objects.create(
         record=record,
         target_type=ContentType.objects.get_for_model(target),

@@ -1,3 +1,4 @@
+from django.conf import settings
 from django.db.models import Count
 from django.http import HttpRequest, HttpResponse
 from django.shortcuts import render
@@ -5,7 +6,8 @@ from django.utils import timezone
 from django_tables2 import RequestConfig
 
 from fleet import roles
-from fleet.due.engine import DueState, ItemKind, due_items, evaluate_fleet
+from fleet.due.engine import ItemKind
+from fleet.due.store import due_list
 from fleet.exports import csv_response
 from fleet.forms import DueFilterForm
 from fleet.models import Deployment, ServiceRecord, Transponder, UnitStatus
@@ -13,39 +15,24 @@ from fleet.tables import DueItemTable, due_rows, status_badge
 
 from .guards import require
 
-_SHOW = {
-    "attention": {DueState.OVERDUE, DueState.DUE_SOON},
-    "overdue": {DueState.OVERDUE},
-    "all": set(DueState),
-}
-
 
 @require(roles.can_read)
 def dashboard(request: HttpRequest) -> HttpResponse:
-    at = timezone.now()
-    on = timezone.localdate(at)
+    on = timezone.localdate()
     form = DueFilterForm(request.GET or None, kinds=[(k.value, k.label) for k in ItemKind])
-    queryset = Transponder.objects.all()
-    show = _SHOW["attention"]
-    kind = ""
-    flagged = True
+    units = Transponder.objects.all()
+    show, kind = "attention", ""
     if form.is_valid():
-        show = _SHOW.get(form.cleaned_data["show"] or "attention", show)
+        show = form.cleaned_data["show"] or "attention"
         if form.cleaned_data["place"]:
-            queryset = queryset.filter(place=form.cleaned_data["place"])
+            units = units.filter(place=form.cleaned_data["place"])
         if form.cleaned_data["variant"]:
-            queryset = queryset.filter(variant=form.cleaned_data["variant"])
+            units = units.filter(variant=form.cleaned_data["variant"])
         kind = form.cleaned_data["kind"]
-    evaluations = evaluate_fleet(on=on, at=at, queryset=queryset)
-    all_items = due_items(evaluations)
-    if form.is_bound and form.is_valid():
-        flagged = form.cleaned_data["show"] in ("", "attention")
-    items = [
-        i
-        for i in all_items
-        if (i.state in show or (flagged and i.flags)) and (not kind or i.kind == kind)
-    ]
-    table = DueItemTable(due_rows(items))
+    due = due_list(
+        on=on, soon_days=settings.HOLDFAST["DUE_SOON_DAYS"], show=show, units=units, kind=kind
+    )
+    table = DueItemTable(due_rows(due.items))
     if request.GET.get("export") == "csv":
         return csv_response(table, f"holdfast-due-{on.isoformat()}.csv")
     RequestConfig(request, paginate={"per_page": 100}).configure(table)
@@ -67,9 +54,8 @@ def dashboard(request: HttpRequest) -> HttpResponse:
             "on": on,
             "form": form,
             "table": table,
-            "overdue_count": sum(1 for i in all_items if i.state == DueState.OVERDUE),
-            "due_soon_count": sum(1 for i in all_items if i.state == DueState.DUE_SOON),
-            "units_overdue": sum(1 for ev in evaluations if ev.worst == DueState.OVERDUE),
+            "due": due,
+            "stale": due.oldest_computed_on is not None and due.oldest_computed_on < on,
             "status_rows": status_rows,
             "by_place": by_place,
             "unit_count": sum(by_status.values()),

@@ -2,6 +2,7 @@
 
 import hashlib
 
+from django.conf import settings
 from django.contrib import messages
 from django.contrib.auth.decorators import login_not_required
 from django.http import Http404, HttpRequest, HttpResponse
@@ -11,7 +12,7 @@ from django.views.decorators.http import require_http_methods
 from icalendar import Calendar, Event
 
 from fleet import roles
-from fleet.due.engine import DueState, due_items, evaluate_fleet
+from fleet.due.store import due_list
 from fleet.models import CalendarFeed
 from fleet.models.feeds import new_feed_token
 
@@ -52,8 +53,9 @@ def feed_ics(request: HttpRequest, token: str) -> HttpResponse:
     calendar.add("prodid", "-//Holdfast//due maintenance//EN")
     calendar.add("version", "2.0")
     calendar.add("x-wr-calname", "Holdfast: maintenance due")
-    for item in due_items(evaluate_fleet(on=on, at=at)):
-        if item.due_on is None or item.state == DueState.NO_DATA:
+    everything = due_list(on=on, soon_days=settings.HOLDFAST["DUE_SOON_DAYS"], show="all")
+    for item in everything.items:
+        if item.due_on is None:
             continue
         event = Event()
         key = f"{item.serial}|{item.kind}|{item.item}".encode()

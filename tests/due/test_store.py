@@ -1,0 +1,145 @@
+"""Stored due items: written with every change, read fleet-wide in a few queries."""
+
+import datetime as dt
+
+import pytest
+from django.core.management import call_command
+from django.utils import timezone
+
+from fleet.due.engine import DueState
+from fleet.due.store import due_list
+from fleet.models import AnodeReading, DueRow, PressureTest, UnitStatus
+from tests.builders import make_unit
+from tests.due.test_engine import t, visit
+
+pytestmark = pytest.mark.django_db
+
+
+def test_a_bench_visit_rewrites_the_units_due_rows(unit, technician):
+    visit(unit, technician, t(2026, 2, 1))
+    before = DueRow.objects.get(unit=unit, item="Pressure test")
+    assert before.due_on is None
+    visit(
+        unit,
+        technician,
+        t(2026, 3, 1),
+        PressureTest(
+            tested_on=dt.date(2026, 3, 1),
+            test_pressure_dbar=1900,
+            hold_minutes=60,
+            start_pressure_dbar=1900,
+            end_pressure_dbar=1899,
+            water_temperature_start_c=12,
+            water_temperature_end_c=12,
+            facility="Tank",
+        ),
+    )
+    after = DueRow.objects.get(unit=unit, item="Pressure test")
+    assert after.due_on == dt.date(2027, 3, 1)
+    assert after.computed_on == timezone.localdate()
+
+
+def test_the_list_classifies_rows_against_the_day_it_is_read(unit, technician):
+    position = unit.variant.anode_positions.first()
+    visit(unit, technician, t(2026, 2, 1), AnodeReading(position=position, mass_g=150))
+    DueRow.objects.filter(unit=unit, item="Anode: Anode 1").update(due_on=dt.date(2026, 6, 1))
+    early = due_list(on=dt.date(2026, 5, 20), soon_days=30)
+    late = due_list(on=dt.date(2026, 6, 2), soon_days=30)
+    pick = {i.item: i.state for i in early.items}
+    assert pick["Anode: Anode 1"] == DueState.DUE_SOON
+    assert {i.item: i.state for i in late.items}["Anode: Anode 1"] == DueState.OVERDUE
+    assert late.overdue >= 1 and late.units_overdue == 1
+
+
+def test_retired_and_lost_units_drop_off_the_list(unit, technician):
+    visit(unit, technician, t(2026, 2, 1))
+    on = timezone.localdate()
+    assert due_list(on=on, soon_days=30, show="all").items
+    unit.status = UnitStatus.RETIRED
+    unit.save()
+    assert due_list(on=on, soon_days=30, show="all").items == []
+
+
+def test_reading_the_list_takes_two_queries_at_any_size(
+    variant, workshop, technician, django_assert_num_queries
+):
+    for i in range(12):
+        u = make_unit(serial=f"S-{i:03d}", acoustic_address=str(i), variant=variant, place=workshop)
+        visit(u, technician, t(2026, 2, 1))
+    # Expect 2 queries: the totals (one aggregate) and the rows with unit, variant and place.
+    with django_assert_num_queries(2):
+        result = due_list(on=dt.date(2026, 12, 1), soon_days=30, show="all")
+    assert len({i.serial for i in result.items}) == 12
+
+
+def test_rebuild_state_recomputes_the_rows(unit, technician):
+    visit(unit, technician, t(2026, 2, 1))
+    DueRow.objects.filter(unit=unit).delete()
+    call_command("rebuild_state")
+    assert DueRow.objects.filter(unit=unit).count() > 0
+
+
+def test_a_variant_change_in_the_admin_reaches_the_units_rows(as_supervisor, unit, technician):
+    visit(
+        unit,
+        technician,
+        t(2026, 3, 1),
+        PressureTest(
+            tested_on=dt.date(2026, 3, 1),
+            test_pressure_dbar=1900,
+            hold_minutes=60,
+            start_pressure_dbar=1900,
+            end_pressure_dbar=1899,
+            water_temperature_start_c=12,
+            water_temperature_end_c=12,
+            facility="Tank",
+        ),
+    )
+    variant = unit.variant
+    data = {
+        "name": variant.name,
+        "description": "",
+        "depth_rating_m": "1500",
+        "housing_alloy": "al6061",
+        "release_fitted": "on",
+        "has_temperature_sensor": "on",
+        "has_pressure_sensor": "on",
+        "allowed_chemistries": '["alkaline", "li_socl2"]',
+        "cells_in_series": "21",
+        "parallel_strings": "1",
+        "listen_current_a": "0.0002",
+        "release_charge_as": "0",
+        "mass_in_air_kg": "45",
+        "displaced_volume_m3": "0.06",
+        "pressure_test_valid_months": "6",
+    }
+    for prefix, related in (
+        ("anode_positions", variant.anode_positions),
+        ("seal_positions", variant.seal_positions),
+        ("reply_steps", variant.reply_steps),
+    ):
+        rows = list(related.all())
+        data.update(
+            {
+                f"{prefix}-TOTAL_FORMS": str(len(rows)),
+                f"{prefix}-INITIAL_FORMS": str(len(rows)),
+                f"{prefix}-MIN_NUM_FORMS": "0",
+                f"{prefix}-MAX_NUM_FORMS": "1000",
+            }
+        )
+        for i, row in enumerate(rows):
+            for field in row._meta.concrete_fields:
+                if field.name == "variant":
+                    data[f"{prefix}-{i}-variant"] = str(variant.pk)
+                elif field.name == "id":
+                    data[f"{prefix}-{i}-id"] = str(row.pk)
+                else:
+                    value = getattr(row, field.attname)
+                    if isinstance(value, bool):
+                        if value:
+                            data[f"{prefix}-{i}-{field.name}"] = "on"
+                    elif value is not None:
+                        data[f"{prefix}-{i}-{field.name}"] = str(value)
+    response = as_supervisor.post(f"/admin/fleet/variant/{variant.pk}/change/", data)
+    assert response.status_code == 302, response.content.decode()[:2000]
+    assert DueRow.objects.get(unit=unit, item="Pressure test").due_on == dt.date(2026, 9, 1)

@@ -3,8 +3,10 @@
 Builds a synthetic fleet in an EMPTY scratch database (point DATABASE_URL at one), with the
 given number of units and anode readings, derives the state from the records, then times:
 
-- raw: one SQL query per state table reading every row (one row per maintenance item);
-- engine: ``fleet.due.engine.evaluate_fleet`` + ``due_items`` (what the overview computes);
+- raw: one SQL query reading every stored due item with its unit's serial (one row per
+  maintenance item);
+- engine: ``fleet.due.engine.evaluate_fleet`` + ``due_items``, the live computation a unit
+  page does, run over the whole fleet (what ``rebuild_state`` costs, less the writes);
 - page: the overview page through Django's test client, signed in as a viewer.
 
 Example: DATABASE_URL=sqlite:////tmp/bench.sqlite3 python manage.py migrate &&
@@ -46,10 +48,11 @@ from fleet.models import (
     Variant,
 )
 
+# One row per maintenance item, with the unit it belongs to: the least any fleet-wide due
+# list has to read.
 RAW_SQL = (
-    "SELECT * FROM fleet_unitstate",
-    "SELECT * FROM fleet_anodestate",
-    "SELECT * FROM fleet_sealstate",
+    "SELECT r.unit_id, u.serial, r.kind, r.item, r.due_on, r.basis, r.flags "
+    "FROM fleet_duerow r JOIN fleet_transponder u ON u.id = r.unit_id",
 )
 
 

@@ -81,21 +81,42 @@ class DueState(StrEnum):
 
     @property
     def label(self) -> str:
-        return {
-            "overdue": "Overdue",
-            "due_soon": "Due soon",
-            "current": "Current",
-            "no_data": "No data",
-        }[self.value]
+        return _STATE_LABEL[self]
 
     @property
     def icon(self) -> str:
         # Shapes of our own, readable in black and white.
-        return {"overdue": "▲", "due_soon": "◆", "current": "●", "no_data": "○"}[self.value]
+        return _STATE_ICON[self]
 
     @property
     def rank(self) -> int:
-        return {"overdue": 0, "due_soon": 1, "no_data": 2, "current": 3}[self.value]
+        """Sort order: what needs action first."""
+        return _STATE_RANK[self]
+
+    @classmethod
+    def from_rank(cls, rank: int) -> DueState:
+        return _RANK_STATE[rank]
+
+
+_STATE_LABEL = {
+    DueState.OVERDUE: "Overdue",
+    DueState.DUE_SOON: "Due soon",
+    DueState.CURRENT: "Current",
+    DueState.NO_DATA: "No data",
+}
+_STATE_ICON = {
+    DueState.OVERDUE: "▲",
+    DueState.DUE_SOON: "◆",
+    DueState.CURRENT: "●",
+    DueState.NO_DATA: "○",
+}
+_STATE_RANK = {
+    DueState.OVERDUE: 0,
+    DueState.DUE_SOON: 1,
+    DueState.NO_DATA: 2,
+    DueState.CURRENT: 3,
+}
+_RANK_STATE = {rank: state for state, rank in _STATE_RANK.items()}
 
 
 class ItemKind(StrEnum):

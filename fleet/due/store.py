@@ -15,7 +15,7 @@ import datetime as dt
 from dataclasses import dataclass
 
 from django.db import transaction
-from django.db.models import Count, Min, Q, QuerySet
+from django.db.models import Case, Count, IntegerField, Min, Q, QuerySet, Value, When
 from django.utils import timezone
 
 from fleet.models import DueRow, Transponder
@@ -51,81 +51,99 @@ def refresh_unit(unit: Transponder, *, at: dt.datetime) -> None:
 
 
 @dataclass(frozen=True, slots=True)
-class DueList:
-    items: list[DueItem]
+class DueTotals:
     overdue: int
     due_soon: int
     units_overdue: int
     oldest_computed_on: dt.date | None
 
 
-def active_rows(queryset: QuerySet[Transponder] | None = None) -> QuerySet[DueRow]:
+def active_rows(units: QuerySet[Transponder] | None = None) -> QuerySet[DueRow]:
     rows = DueRow.objects.exclude(unit__status__in=INACTIVE)
-    if queryset is not None:
-        rows = rows.filter(unit__in=queryset.values("pk"))
+    if units is not None:
+        rows = rows.filter(unit__in=units.values("pk"))
     return rows
 
 
-def due_list(
+def state_rank(on: dt.date, soon_days: int) -> Case:
+    """The row's ``DueState.rank`` in SQL, the same rule as ``engine.classify``."""
+    return Case(
+        When(due_on__isnull=True, then=Value(DueState.NO_DATA.rank)),
+        When(due_on__lte=on, then=Value(DueState.OVERDUE.rank)),
+        When(due_on__lte=on + dt.timedelta(days=soon_days), then=Value(DueState.DUE_SOON.rank)),
+        default=Value(DueState.CURRENT.rank),
+        output_field=IntegerField(),
+    )
+
+
+def due_totals(
+    *, on: dt.date, soon_days: int, units: QuerySet[Transponder] | None = None
+) -> DueTotals:
+    soon = on + dt.timedelta(days=soon_days)
+    totals = active_rows(units).aggregate(
+        overdue=Count("pk", filter=Q(due_on__lte=on)),
+        due_soon=Count("pk", filter=Q(due_on__gt=on, due_on__lte=soon)),
+        units_overdue=Count("unit", filter=Q(due_on__lte=on), distinct=True),
+        oldest=Min("computed_on"),
+    )
+    return DueTotals(
+        totals["overdue"], totals["due_soon"], totals["units_overdue"], totals["oldest"]
+    )
+
+
+def due_queryset(
     *,
     on: dt.date,
     soon_days: int,
     show: str = "attention",
     units: QuerySet[Transponder] | None = None,
     kind: str = "",
-) -> DueList:
-    """The fleet's due items for the overview, filtered in SQL (three queries).
+) -> QuerySet[DueRow]:
+    """Stored due items with their state rank, most urgent first; filtered and sorted in SQL.
 
     ``show``: "attention" (overdue, due soon, or flagged), "overdue", or "all".
     """
     soon = on + dt.timedelta(days=soon_days)
     rows = active_rows(units)
-    totals = rows.aggregate(
-        overdue=Count("pk", filter=Q(due_on__lte=on)),
-        due_soon=Count("pk", filter=Q(due_on__gt=on, due_on__lte=soon)),
-        units_overdue=Count("unit", filter=Q(due_on__lte=on), distinct=True),
-        oldest=Min("computed_on"),
-    )
     if show == "overdue":
         rows = rows.filter(due_on__lte=on)
     elif show != "all":
         rows = rows.filter(Q(due_on__lte=soon) | ~Q(flags=""))
     if kind:
         rows = rows.filter(kind=kind)
-    values = rows.values_list(
-        "unit_id",
-        "unit__serial",
-        "unit__variant__name",
-        "unit__place__name",
-        "kind",
-        "item",
-        "due_on",
-        "basis",
-        "flags",
+    return (
+        rows.select_related("unit__variant", "unit__place")
+        .annotate(state_rank=state_rank(on, soon_days))
+        .order_by("state_rank", "due_on", "unit__serial", "item")
     )
-    items = [
+
+
+def due_items_stored(
+    *, on: dt.date, soon_days: int, show: str = "all", units: QuerySet[Transponder] | None = None
+) -> list[DueItem]:
+    """The stored rows as ``DueItem``s (for the calendar feed and other plain consumers)."""
+    return [
         DueItem(
-            unit_id,
-            serial,
-            variant,
-            place or "",
-            ItemKind(kind_value),
-            item,
-            due_on,
-            classify(due_on, on, soon_days),
-            basis,
-            tuple(flags.splitlines()) if flags else (),
+            row.unit_id,
+            row.unit.serial,
+            row.unit.variant.name,
+            row.unit.place.name if row.unit.place else "",
+            ItemKind(row.kind),
+            row.item,
+            row.due_on,
+            classify(row.due_on, on, soon_days),
+            row.basis,
+            tuple(row.flags.splitlines()),
         )
-        for unit_id, serial, variant, place, kind_value, item, due_on, basis, flags in values
+        for row in due_queryset(on=on, soon_days=soon_days, show=show, units=units)
     ]
-    items.sort(key=lambda i: (i.state.rank, i.due_on or dt.date.max, i.serial, i.item))
-    return DueList(
-        items,
-        totals["overdue"],
-        totals["due_soon"],
-        totals["units_overdue"],
-        totals["oldest"],
-    )
 
 
-__all__ = ["DueList", "DueState", "due_list", "refresh_unit", "store_due_rows"]
+__all__ = [
+    "DueTotals",
+    "due_items_stored",
+    "due_queryset",
+    "due_totals",
+    "refresh_unit",
+    "store_due_rows",
+]

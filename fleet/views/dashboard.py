@@ -7,11 +7,11 @@ from django_tables2 import RequestConfig
 
 from fleet import roles
 from fleet.due.engine import ItemKind
-from fleet.due.store import due_list
+from fleet.due.store import due_queryset, due_totals
 from fleet.exports import csv_response
 from fleet.forms import DueFilterForm
 from fleet.models import Deployment, ServiceRecord, Transponder, UnitStatus
-from fleet.tables import DueItemTable, due_rows, status_badge
+from fleet.tables import DueItemTable, status_badge
 
 from .guards import require
 
@@ -29,10 +29,11 @@ def dashboard(request: HttpRequest) -> HttpResponse:
         if form.cleaned_data["variant"]:
             units = units.filter(variant=form.cleaned_data["variant"])
         kind = form.cleaned_data["kind"]
-    due = due_list(
-        on=on, soon_days=settings.HOLDFAST["DUE_SOON_DAYS"], show=show, units=units, kind=kind
+    soon_days = settings.HOLDFAST["DUE_SOON_DAYS"]
+    due = due_totals(on=on, soon_days=soon_days, units=units)
+    table = DueItemTable(
+        due_queryset(on=on, soon_days=soon_days, show=show, units=units, kind=kind)
     )
-    table = DueItemTable(due_rows(due.items))
     if request.GET.get("export") == "csv":
         return csv_response(table, f"holdfast-due-{on.isoformat()}.csv")
     RequestConfig(request, paginate={"per_page": 100}).configure(table)

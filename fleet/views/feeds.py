@@ -12,7 +12,7 @@ from django.views.decorators.http import require_http_methods
 from icalendar import Calendar, Event
 
 from fleet import roles
-from fleet.due.store import due_list
+from fleet.due.store import due_items_stored
 from fleet.models import CalendarFeed
 from fleet.models.feeds import new_feed_token
 
@@ -53,8 +53,7 @@ def feed_ics(request: HttpRequest, token: str) -> HttpResponse:
     calendar.add("prodid", "-//Holdfast//due maintenance//EN")
     calendar.add("version", "2.0")
     calendar.add("x-wr-calname", "Holdfast: maintenance due")
-    everything = due_list(on=on, soon_days=settings.HOLDFAST["DUE_SOON_DAYS"], show="all")
-    for item in everything.items:
+    for item in due_items_stored(on=on, soon_days=settings.HOLDFAST["DUE_SOON_DAYS"]):
         if item.due_on is None:
             continue
         event = Event()

@@ -6,8 +6,8 @@ import pytest
 from django.core.management import call_command
 from django.utils import timezone
 
-from fleet.due.engine import DueState
-from fleet.due.store import due_list
+from fleet.due.engine import DueState, classify
+from fleet.due.store import due_items_stored, due_queryset, due_totals
 from fleet.models import AnodeReading, DueRow, PressureTest, UnitStatus
 from tests.builders import make_unit
 from tests.due.test_engine import t, visit
@@ -43,21 +43,30 @@ def test_the_list_classifies_rows_against_the_day_it_is_read(unit, technician):
     position = unit.variant.anode_positions.first()
     visit(unit, technician, t(2026, 2, 1), AnodeReading(position=position, mass_g=150))
     DueRow.objects.filter(unit=unit, item="Anode: Anode 1").update(due_on=dt.date(2026, 6, 1))
-    early = due_list(on=dt.date(2026, 5, 20), soon_days=30)
-    late = due_list(on=dt.date(2026, 6, 2), soon_days=30)
-    pick = {i.item: i.state for i in early.items}
-    assert pick["Anode: Anode 1"] == DueState.DUE_SOON
-    assert {i.item: i.state for i in late.items}["Anode: Anode 1"] == DueState.OVERDUE
-    assert late.overdue >= 1 and late.units_overdue == 1
+    early = due_items_stored(on=dt.date(2026, 5, 20), soon_days=30)
+    late = due_items_stored(on=dt.date(2026, 6, 2), soon_days=30)
+    assert {i.item: i.state for i in early}["Anode: Anode 1"] == DueState.DUE_SOON
+    assert {i.item: i.state for i in late}["Anode: Anode 1"] == DueState.OVERDUE
+    totals = due_totals(on=dt.date(2026, 6, 2), soon_days=30)
+    assert totals.overdue >= 1 and totals.units_overdue == 1
+
+
+@pytest.mark.parametrize("offset", [-1, 0, 1, 29, 30, 31])
+def test_the_sql_state_rank_agrees_with_classify(unit, technician, offset):
+    visit(unit, technician, t(2026, 2, 1))
+    on = dt.date(2026, 6, 1)
+    DueRow.objects.filter(unit=unit).update(due_on=on + dt.timedelta(days=offset))
+    row = due_queryset(on=on, soon_days=30, show="all").first()
+    assert DueState.from_rank(row.state_rank) == classify(row.due_on, on, 30)
 
 
 def test_retired_and_lost_units_drop_off_the_list(unit, technician):
     visit(unit, technician, t(2026, 2, 1))
     on = timezone.localdate()
-    assert due_list(on=on, soon_days=30, show="all").items
+    assert due_items_stored(on=on, soon_days=30)
     unit.status = UnitStatus.RETIRED
     unit.save()
-    assert due_list(on=on, soon_days=30, show="all").items == []
+    assert due_items_stored(on=on, soon_days=30) == []
 
 
 def test_reading_the_list_takes_two_queries_at_any_size(
@@ -66,10 +75,12 @@ def test_reading_the_list_takes_two_queries_at_any_size(
     for i in range(12):
         u = make_unit(serial=f"S-{i:03d}", acoustic_address=str(i), variant=variant, place=workshop)
         visit(u, technician, t(2026, 2, 1))
+    on = dt.date(2026, 12, 1)
     # Expect 2 queries: the totals (one aggregate) and the rows with unit, variant and place.
     with django_assert_num_queries(2):
-        result = due_list(on=dt.date(2026, 12, 1), soon_days=30, show="all")
-    assert len({i.serial for i in result.items}) == 12
+        due_totals(on=on, soon_days=30)
+        result = due_items_stored(on=on, soon_days=30)
+    assert len({i.serial for i in result}) == 12
 
 
 def test_rebuild_state_recomputes_the_rows(unit, technician):

@@ -135,7 +135,8 @@ class DueItemTable(tables.Table):
     )
     variant = tables.Column(accessor="unit__variant__name", verbose_name="Variant")
     place = tables.Column(accessor="unit__place__name", verbose_name="Place", default="—")
-    kind = tables.Column(verbose_name="Kind")
+    # The item names its kind on screen; the export keeps the kind as a column to filter on.
+    kind = tables.Column(verbose_name="Kind", visible=False)
     item = tables.Column(verbose_name="Item")
     due_on = tables.DateColumn(verbose_name="Due", format="Y-m-d", default="—")
     basis = tables.Column(verbose_name="Basis", orderable=False)

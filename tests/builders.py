@@ -10,6 +10,7 @@ from fleet import roles
 from fleet.models import (
     AnodePosition,
     Place,
+    PressureTest,
     ReplyChargeStep,
     SealPosition,
     ServiceRecord,
@@ -99,3 +100,15 @@ def make_record(*, unit: Transponder, by, **kwargs: Any) -> ServiceRecord:
         kwargs["place"] = Place.objects.first() or make_place()
     kwargs.setdefault("created_by", by)
     return ServiceRecord.objects.create(unit=unit, **kwargs)
+
+
+def pressure_test(day: dt.date, **kwargs: Any) -> PressureTest:
+    """A held, dry hydrostatic test at 1900 dbar (1.25 x the 1500 m test variant's rating)."""
+    kwargs.setdefault("test_pressure_dbar", 1900)
+    kwargs.setdefault("start_pressure_dbar", 1900)
+    kwargs.setdefault("end_pressure_dbar", 1898)
+    kwargs.setdefault("hold_minutes", 60)
+    kwargs.setdefault("water_temperature_start_c", 12)
+    kwargs.setdefault("water_temperature_end_c", 12.2)
+    kwargs.setdefault("facility", "Tank")
+    return PressureTest(tested_on=day, **kwargs)

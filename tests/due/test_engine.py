@@ -10,7 +10,6 @@ from fleet.models import (
     BatteryInstall,
     Deployment,
     HousingOpening,
-    PressureTest,
     ReleaseTest,
     SealChange,
     SensorCheck,
@@ -19,6 +18,7 @@ from fleet.models import (
 )
 from fleet.services.deployments import deployment_recover, deployment_start
 from fleet.services.records import service_record_save
+from tests.builders import pressure_test
 
 pytestmark = pytest.mark.django_db
 
@@ -178,22 +178,8 @@ def test_a_seal_is_due_when_its_openings_are_used_up(unit, technician):
     assert "6 of 6 since fit" in item_.basis
 
 
-def _pressure_test(day: dt.date, **kwargs):
-    kwargs.setdefault("test_pressure_dbar", 1900)
-    kwargs.setdefault("start_pressure_dbar", 1900)
-    kwargs.setdefault("end_pressure_dbar", 1898)
-    return PressureTest(
-        tested_on=day,
-        hold_minutes=60,
-        water_temperature_start_c=12,
-        water_temperature_end_c=12.2,
-        facility="Tank",
-        **kwargs,
-    )
-
-
 def test_a_pressure_test_is_valid_for_twelve_months(unit, technician):
-    visit(unit, technician, t(2026, 2, 1), _pressure_test(dt.date(2026, 2, 1)))
+    visit(unit, technician, t(2026, 2, 1), pressure_test(dt.date(2026, 2, 1)))
     test = item(evaluate(unit), "Pressure test")
     assert test.due_on == dt.date(2027, 2, 1)
     assert test.state == DueState.CURRENT
@@ -201,8 +187,8 @@ def test_a_pressure_test_is_valid_for_twelve_months(unit, technician):
     assert "needs 1897 dbar" in test.basis
 
 
-def test_a_housing_opening_voids_the_pressure_test(unit, technician):
-    visit(unit, technician, t(2026, 2, 1), _pressure_test(dt.date(2026, 2, 1)))
+def test_a_housing_opening_voids_thepressure_test(unit, technician):
+    visit(unit, technician, t(2026, 2, 1), pressure_test(dt.date(2026, 2, 1)))
     visit(
         unit,
         technician,
@@ -220,7 +206,7 @@ def test_an_opening_before_the_test_in_the_same_visit_does_not_void_it(unit, tec
         technician,
         t(2026, 2, 1),
         HousingOpening(opened_at=t(2026, 2, 1, 9), vented_before_opening=True, reason="seals"),
-        _pressure_test(dt.date(2026, 2, 1)),
+        pressure_test(dt.date(2026, 2, 1)),
     )
     assert item(evaluate(unit), "Pressure test").state == DueState.CURRENT
 
@@ -230,7 +216,7 @@ def test_a_test_below_the_rating_pressure_is_not_accepted(unit, technician):
         unit,
         technician,
         t(2026, 2, 1),
-        _pressure_test(
+        pressure_test(
             dt.date(2026, 2, 1),
             start_pressure_dbar=1000,
             end_pressure_dbar=999,
@@ -343,7 +329,7 @@ def test_a_test_set_to_the_proof_pressure_on_the_gauge_is_accepted(unit, technic
         unit,
         technician,
         t(2026, 2, 1),
-        _pressure_test(dt.date(2026, 2, 1), start_pressure_dbar=1895, end_pressure_dbar=1894),
+        pressure_test(dt.date(2026, 2, 1), start_pressure_dbar=1895, end_pressure_dbar=1894),
     )
     assert item(evaluate(unit), "Pressure test").state == DueState.CURRENT
 

@@ -8,8 +8,8 @@ from django.utils import timezone
 
 from fleet.due.engine import DueState, classify
 from fleet.due.store import due_items_stored, due_queryset, due_totals
-from fleet.models import AnodeReading, DueRow, PressureTest, UnitStatus
-from tests.builders import make_unit
+from fleet.models import AnodeReading, DueRow, UnitStatus
+from tests.builders import make_unit, pressure_test
 from tests.due.test_engine import t, visit
 
 pytestmark = pytest.mark.django_db
@@ -23,16 +23,7 @@ def test_a_bench_visit_rewrites_the_units_due_rows(unit, technician):
         unit,
         technician,
         t(2026, 3, 1),
-        PressureTest(
-            tested_on=dt.date(2026, 3, 1),
-            test_pressure_dbar=1900,
-            hold_minutes=60,
-            start_pressure_dbar=1900,
-            end_pressure_dbar=1899,
-            water_temperature_start_c=12,
-            water_temperature_end_c=12,
-            facility="Tank",
-        ),
+        pressure_test(dt.date(2026, 3, 1), end_pressure_dbar=1899),
     )
     after = DueRow.objects.get(unit=unit, item="Pressure test")
     assert after.due_on == dt.date(2027, 3, 1)
@@ -95,16 +86,7 @@ def test_a_variant_change_in_the_admin_reaches_the_units_rows(as_supervisor, uni
         unit,
         technician,
         t(2026, 3, 1),
-        PressureTest(
-            tested_on=dt.date(2026, 3, 1),
-            test_pressure_dbar=1900,
-            hold_minutes=60,
-            start_pressure_dbar=1900,
-            end_pressure_dbar=1899,
-            water_temperature_start_c=12,
-            water_temperature_end_c=12,
-            facility="Tank",
-        ),
+        pressure_test(dt.date(2026, 3, 1), end_pressure_dbar=1899),
     )
     variant = unit.variant
     data = {

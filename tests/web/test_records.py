@@ -170,18 +170,20 @@ def test_garbage_numbers_get_a_field_message_not_a_500(as_technician, unit, work
     assert "Enter a valid date/time." in response.content.decode()
 
 
-def test_a_second_pack_replaces_the_fitted_one(as_technician, unit, workshop, technician):
-    def pack(serial, day):
-        return {
-            "pack_serial": serial,
-            "chemistry": "alkaline",
-            "nominal_voltage_v": "31.5",
-            "capacity_ah": "17",
-            "made_on": "2025-01-01",
-            "installed_on": day,
-            "ocv_install_v": "32.0",
-        }
+def pack(serial: str, day: str) -> dict[str, str]:
+    """Form fields for an alkaline pack installed on ``day``."""
+    return {
+        "pack_serial": serial,
+        "chemistry": "alkaline",
+        "nominal_voltage_v": "31.5",
+        "capacity_ah": "17",
+        "made_on": "2025-01-01",
+        "installed_on": day,
+        "ocv_install_v": "32.0",
+    }
 
+
+def test_a_second_pack_replaces_the_fitted_one(as_technician, unit, workshop, technician):
     url = reverse("record-new", args=[unit.serial])
     as_technician.post(
         url, record_post(unit, workshop, technician, battery=[pack("P1", "2025-06-01")])
@@ -346,17 +348,6 @@ def test_the_record_page_shows_who_created_and_closed_it(
 def test_a_fitted_pack_is_taken_out_with_its_removal_volts(
     as_technician, unit, workshop, technician
 ):
-    def pack(serial, day):
-        return {
-            "pack_serial": serial,
-            "chemistry": "alkaline",
-            "nominal_voltage_v": "31.5",
-            "capacity_ah": "17",
-            "made_on": "2025-01-01",
-            "installed_on": day,
-            "ocv_install_v": "32.0",
-        }
-
     url = reverse("record-new", args=[unit.serial])
     as_technician.post(
         url, record_post(unit, workshop, technician, battery=[pack("P1", "2025-06-01")])

@@ -2,6 +2,7 @@
 
 import csv
 import re
+from collections.abc import Iterable, Sequence
 
 from django.http import HttpResponse
 from django_tables2 import Table
@@ -18,11 +19,16 @@ def spreadsheet_safe(value: object) -> str:
     return text
 
 
-def csv_response(table: Table, filename: str) -> HttpResponse:
+def csv_rows_response(rows: Iterable[Sequence[object]], filename: str) -> HttpResponse:
+    """A CSV download of ``rows`` (the first one the header), every cell spreadsheet-safe."""
     response = HttpResponse(content_type="text/csv; charset=utf-8")
     response["Content-Disposition"] = f'attachment; filename="{filename}"'
     response.write("\ufeff")  # so spreadsheet programs read the file as UTF-8
     writer = csv.writer(response)
-    for row in table.as_values():
+    for row in rows:
         writer.writerow([spreadsheet_safe(cell) for cell in row])
     return response
+
+
+def csv_response(table: Table, filename: str) -> HttpResponse:
+    return csv_rows_response(table.as_values(), filename)

@@ -7,8 +7,8 @@ from django_tables2 import RequestConfig
 
 from fleet import roles
 from fleet.due.engine import ItemKind
-from fleet.due.store import due_queryset, due_totals
-from fleet.exports import csv_response
+from fleet.due.store import due_queryset, due_totals, export_rows
+from fleet.exports import csv_rows_response
 from fleet.forms import DueFilterForm
 from fleet.models import Deployment, ServiceRecord, Transponder, UnitStatus
 from fleet.tables import DueItemTable, status_badge
@@ -31,11 +31,10 @@ def dashboard(request: HttpRequest) -> HttpResponse:
         kind = form.cleaned_data["kind"]
     soon_days = settings.HOLDFAST["DUE_SOON_DAYS"]
     due = due_totals(on=on, soon_days=soon_days, units=units)
-    table = DueItemTable(
-        due_queryset(on=on, soon_days=soon_days, show=show, units=units, kind=kind)
-    )
+    rows = due_queryset(on=on, soon_days=soon_days, show=show, units=units, kind=kind)
     if request.GET.get("export") == "csv":
-        return csv_response(table, f"holdfast-due-{on.isoformat()}.csv")
+        return csv_rows_response(export_rows(rows), f"holdfast-due-{on.isoformat()}.csv")
+    table = DueItemTable(rows)
     RequestConfig(request, paginate={"per_page": 100}).configure(table)
 
     by_status = dict(

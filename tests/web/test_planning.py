@@ -148,3 +148,13 @@ def test_a_feed_stops_when_its_owner_loses_every_role(as_viewer, viewer, client)
     token = CalendarFeed.objects.get(user=viewer).token
     viewer.groups.clear()
     assert client.get(f"/feed/{token}.ics").status_code == 404
+
+
+def test_the_due_export_escapes_formulas_in_names_people_typed(as_viewer, unit, technician):
+    unit.place.name = "=HYPERLINK(1)"
+    unit.place.save()
+    visit(unit, technician, t(2026, 1, 5))
+    body = as_viewer.get("/", {"export": "csv", "show": "all"}).content.decode("utf-8-sig")
+    assert "'=HYPERLINK(1)" in body
+    header = body.splitlines()[0]
+    assert header == "State,Unit,Variant,Place,Kind,Item,Due,Basis,Flags"

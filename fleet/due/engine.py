@@ -45,6 +45,7 @@ from fleet.calc import seals as calc_seals
 from fleet.calc import seawater as calc_seawater
 from fleet.models import (
     AnodeState,
+    ReleaseTest,
     SealState,
     SensorCheck,
     Transponder,
@@ -515,19 +516,17 @@ def _pressure_item(
     return due, classify(due, on, rules.due_soon_days), basis, ()
 
 
-def release_test_failures(test: object, rules: Rules) -> list[str]:
+def release_test_failures(test: ReleaseTest, rules: Rules) -> list[str]:
     reasons = []
-    if not test.limit_switch_ok:  # type: ignore[attr-defined]
+    if not test.limit_switch_ok:
         reasons.append("limit switch not confirmed")
-    if not test.acoustic_command_ok:  # type: ignore[attr-defined]
+    if not test.acoustic_command_ok:
         reasons.append("acoustic release command not confirmed")
-    if test.seconds_to_release > rules.release_max_seconds:  # type: ignore[attr-defined]
+    if test.seconds_to_release > rules.release_max_seconds:
+        reasons.append(f"took {test.seconds_to_release:g} s, limit {rules.release_max_seconds:g} s")
+    if test.motor_current_a > rules.release_max_motor_current_a:
         reasons.append(
-            f"took {test.seconds_to_release:g} s, limit {rules.release_max_seconds:g} s"  # type: ignore[attr-defined]
-        )
-    if test.motor_current_a > rules.release_max_motor_current_a:  # type: ignore[attr-defined]
-        reasons.append(
-            f"motor drew {test.motor_current_a:g} A, limit {rules.release_max_motor_current_a:g} A"  # type: ignore[attr-defined]
+            f"motor drew {test.motor_current_a:g} A, limit {rules.release_max_motor_current_a:g} A"
         )
     return reasons
 

@@ -14,7 +14,7 @@ from django.utils import timezone
 from fleet.calc.exposure import immersed_days
 from fleet.models import AnodeReading, Deployment
 
-from .engine import AnodeProjection, UnitEvaluation
+from .engine import UnitEvaluation
 
 
 @dataclass(frozen=True, slots=True)
@@ -100,6 +100,3 @@ def battery_history(ev: UnitEvaluation, on: dt.date) -> BatteryHistory | None:
     if item is not None and item.due_on is not None and item.due_on > on:
         projection = ((on, b.remaining_ah), (item.due_on, b.reserve_ah))
     return BatteryHistory(used, projection, b.reserve_ah, b.usable_ah)
-
-
-__all__ = ["AnodeHistory", "AnodeProjection", "BatteryHistory", "anode_history", "battery_history"]

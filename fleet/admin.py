@@ -6,10 +6,9 @@ from typing import Any
 
 from django.contrib import admin
 from django.http import HttpRequest
-from django.utils import timezone
 
 from . import models
-from .due.store import refresh_unit
+from .services.reference import site_save, unit_save, variant_changed
 
 
 class AnodePositionInline(admin.TabularInline):
@@ -35,9 +34,7 @@ class VariantAdmin(admin.ModelAdmin):
     def save_related(self, request: HttpRequest, form: Any, formsets: Any, change: bool) -> None:
         super().save_related(request, form, formsets, change)
         # Intervals and positions feed every unit's due items: recompute them now.
-        at = timezone.now()
-        for unit in form.instance.units.select_related("variant"):
-            refresh_unit(unit, at=at)
+        variant_changed(variant=form.instance)
 
 
 @admin.register(models.Transponder)
@@ -47,8 +44,7 @@ class TransponderAdmin(admin.ModelAdmin):
     search_fields = ("serial", "acoustic_address")
 
     def save_model(self, request: HttpRequest, obj: Any, form: Any, change: bool) -> None:
-        super().save_model(request, obj, form, change)
-        refresh_unit(obj, at=timezone.now())
+        unit_save(unit=obj)
 
 
 @admin.register(models.Place)
@@ -59,6 +55,9 @@ class PlaceAdmin(admin.ModelAdmin):
 @admin.register(models.Site)
 class SiteAdmin(admin.ModelAdmin):
     list_display = ("name", "latitude_deg", "longitude_deg", "water_depth_m")
+
+    def save_model(self, request: HttpRequest, obj: Any, form: Any, change: bool) -> None:
+        site_save(site=obj)
 
 
 class ReadOnlyAdmin(admin.ModelAdmin):

@@ -1,12 +1,15 @@
 """Forms for the workshop pages. Validation of a value lives on the model; forms add the
 context a model cannot see on its own (which unit a record is for, who may be technician)."""
 
+import datetime as dt
+
 from django import forms
 from django.contrib.auth import get_user_model
 from django.db.models import Q, QuerySet
 from django.forms import BaseInlineFormSet, inlineformset_factory
 
 from . import roles
+from .due import planned as planned_limits
 from .models import (
     AnodeReading,
     BatteryInstall,
@@ -368,35 +371,69 @@ class DueFilterForm(forms.Form):
 
 
 class PlannedDeploymentForm(forms.Form):
-    """A planned deployment: where, from when, for how long, at what duty."""
+    """A planned deployment: where, from when, for how long, at what duty. ``planned()``
+    gives the one ``PlannedDeployment`` that readiness, the planner and the checklist read."""
 
-    site = forms.ModelChoiceField(queryset=Site.objects.all())
-    start = forms.DateField(widget=DateInput(), label="Over the side on")
-    days = forms.IntegerField(min_value=1, max_value=3650, label="Planned days")
+    site = forms.ModelChoiceField(
+        queryset=Site.objects.all(),
+        error_messages={"required": "Choose a site.", "invalid_choice": "There is no such site."},
+    )
+    start = forms.DateField(
+        widget=DateInput(),
+        label="Over the side on",
+        error_messages={
+            "required": "Give the start date.",
+            "invalid": "Give the start as a date, YYYY-MM-DD.",
+        },
+    )
+    days = forms.IntegerField(
+        min_value=1,
+        max_value=planned_limits.MAX_DAYS,
+        label="Planned days",
+        error_messages={
+            "required": "Give the planned days.",
+            "min_value": f"Planned days must be between 1 and {planned_limits.MAX_DAYS}.",
+            "max_value": f"Planned days must be between 1 and {planned_limits.MAX_DAYS}.",
+        },
+    )
     rate = forms.IntegerField(
         min_value=0,
-        max_value=1_000_000,
+        max_value=planned_limits.MAX_INTERROGATIONS_PER_DAY,
         required=False,
         label="Interrogations a day",
         help_text="Empty: the unit's recent duty.",
     )
     step = forms.IntegerField(
-        min_value=1,
-        max_value=9,
+        min_value=planned_limits.POWER_STEPS[0],
+        max_value=planned_limits.POWER_STEPS[1],
         required=False,
         label="Transmit power step",
         help_text="Empty: the unit's setting.",
     )
 
-    def __init__(self, *args: object, today: object, **kwargs: object) -> None:
+    def __init__(self, *args: object, today: dt.date, **kwargs: object) -> None:
         super().__init__(*args, **kwargs)
         self.today = today
 
-    def clean_start(self) -> object:
-        start = self.cleaned_data["start"]
-        if start < self.today:
-            raise forms.ValidationError("The deployment must start today or later.")
+    def clean_start(self) -> dt.date:
+        start: dt.date = self.cleaned_data["start"]
+        try:
+            planned_limits.PlannedDeployment(Site(), start, 1).check_start(self.today)
+        except ValueError as exc:
+            message = str(exc)
+            raise forms.ValidationError(message[0].upper() + message[1:] + ".") from exc
         return start
+
+    def planned(self) -> planned_limits.PlannedDeployment:
+        """The validated plan; call after ``is_valid()``."""
+        data = self.cleaned_data
+        return planned_limits.PlannedDeployment(
+            site=data["site"],
+            start=data["start"],
+            days=data["days"],
+            interrogations_per_day=data.get("rate"),
+            power_step=data.get("step"),
+        )
 
 
 class PlanForm(PlannedDeploymentForm):

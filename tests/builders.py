@@ -18,6 +18,7 @@ from fleet.models import (
     Transponder,
     Variant,
 )
+from fleet.services.reference import site_save, unit_save
 
 T0 = dt.datetime(2026, 3, 2, 9, 0, tzinfo=dt.UTC)
 
@@ -45,10 +46,7 @@ def make_site(**kwargs: Any) -> Site:
     kwargs.setdefault("water_depth_m", 1350.0)
     kwargs.setdefault("bottom_temperature_c", 4.0)
     kwargs.setdefault("practical_salinity", 35.0)
-    site = Site(**kwargs)
-    site.full_clean()
-    site.save()
-    return site
+    return site_save(site=Site(**kwargs))
 
 
 def make_variant(*, anodes: int = 2, seals: int = 2, **kwargs: Any) -> Variant:
@@ -87,10 +85,7 @@ def make_unit(**kwargs: Any) -> Transponder:
     kwargs.setdefault("serial", "TX-0001")
     kwargs.setdefault("acoustic_address", "101")
     kwargs.setdefault("turnaround_delay_ms", 12.5)
-    unit = Transponder(**kwargs)
-    unit.full_clean()
-    unit.save()
-    return unit
+    return unit_save(unit=Transponder(**kwargs))
 
 
 def make_record(*, unit: Transponder, by, **kwargs: Any) -> ServiceRecord:

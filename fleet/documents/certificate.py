@@ -72,7 +72,7 @@ def _yes(value: bool) -> str:
 
 def acceptance_lines(cert: ReleaseCertificate) -> tuple[AcceptanceLine, ...]:
     """The certified values against the acceptance values stored at issue. The overall verdict
-    was decided by ``fleet.due.engine.release_test_failures``; these marks mirror its tests."""
+    was decided by ``fleet.due.acceptance.release_test_failures``; these marks mirror its tests."""
     return (
         AcceptanceLine(
             "Load on the hook",

@@ -7,11 +7,13 @@ from __future__ import annotations
 import datetime as dt
 from dataclasses import dataclass
 
+from django.utils import timezone
 from reportlab.lib.units import mm
 from reportlab.platypus import CondPageBreak, KeepTogether, Spacer, Table, TableStyle
 
+from fleet.due.planned import PlannedDeployment
 from fleet.due.readiness import Verdict, readiness_for
-from fleet.models import BatteryInstall, Site, Transponder
+from fleet.models import BatteryInstall, Transponder
 
 from .base import (
     CAUTIONS,
@@ -106,27 +108,14 @@ def manual_items(unit: Transponder, pack: BatteryInstall | None) -> tuple[Manual
 
 def prepare_checklist(
     unit: Transponder,
+    planned: PlannedDeployment,
     *,
-    site: Site,
-    start: dt.date,
-    days: int,
-    interrogations_per_day: int | None,
-    power_step: int | None,
-    on: dt.date,
     at: dt.datetime,
     unit_url: str,
 ) -> ChecklistDocument:
-    """Everything the checklist states. Raises ValueError for a start in the past or bad days."""
-    readiness = readiness_for(
-        unit,
-        site=site,
-        start=start,
-        days=days,
-        interrogations_per_day=interrogations_per_day,
-        power_step=power_step,
-        on=on,
-        at=at,
-    )
+    """Everything the checklist states for ``planned``, prepared at ``at``."""
+    readiness = readiness_for(unit, planned, on=timezone.localdate(at))
+    site, start, days = planned.site, planned.start, planned.days
     pack = BatteryInstall.objects.filter(unit=unit, removed_on__isnull=True).first()
     verdict = readiness.verdict
     return ChecklistDocument(

@@ -13,7 +13,7 @@ from django.core.exceptions import ValidationError
 from django.db import transaction
 from django.utils import timezone
 
-from fleet.due.engine import release_test_failures
+from fleet.due.acceptance import release_test_failures
 from fleet.due.rules import rules_for
 from fleet.models import CertificateCounter, ReleaseCertificate, ReleaseTest
 

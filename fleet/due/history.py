@@ -26,7 +26,7 @@ class AnodeHistory:
     threshold_percent: float
 
 
-def anode_history(ev: UnitEvaluation, position_id: int, on: dt.date) -> AnodeHistory | None:
+def anode_history(ev: UnitEvaluation, position_id: int) -> AnodeHistory | None:
     projection = next((p for p in ev.anodes if p.position_id == position_id), None)
     if projection is None:
         return None
@@ -69,11 +69,11 @@ def anode_history(ev: UnitEvaluation, position_id: int, on: dt.date) -> AnodeHis
             if mass is not None:
                 fitted.append((day, 100.0 * mass / projection.new_kg))
     future: list[tuple[dt.date, float]] = []
-    item = next((i for i in ev.items if i.item == f"Anode: {projection.name}"), None)
-    if projection.mass_now_kg is not None:
-        now_pct = 100.0 * projection.mass_now_kg / projection.new_kg
-        future.append((on, now_pct))
-        if item is not None and item.due_on is not None and item.due_on > on:
+    item = ev.item(f"anode:{position_id}")
+    if projection.mass_now_kg is not None and ev.duty.as_of is not None:
+        as_of = timezone.localdate(ev.duty.as_of)
+        future.append((as_of, 100.0 * projection.mass_now_kg / projection.new_kg))
+        if item is not None and item.due_on is not None and item.due_on > as_of:
             future.append((item.due_on, projection.replace_at_percent))
     return AnodeHistory(
         projection.name, tuple(points), tuple(fitted), tuple(future), projection.replace_at_percent
@@ -88,15 +88,15 @@ class BatteryHistory:
     usable_ah: float
 
 
-def battery_history(ev: UnitEvaluation, on: dt.date) -> BatteryHistory | None:
+def battery_history(ev: UnitEvaluation) -> BatteryHistory | None:
     b = ev.battery
     state = getattr(ev.unit, "state", None)
     if b is None or state is None or state.pack is None:
         return None
     installed = state.pack.installed_on
-    used = ((installed, b.usable_ah + 0.0), (on, max(0.0, b.remaining_ah)))
-    item = next((i for i in ev.items if i.kind == "battery"), None)
+    used = ((installed, b.usable_ah + 0.0), (b.on, max(0.0, b.remaining_ah)))
+    item = ev.item("battery")
     projection: tuple[tuple[dt.date, float], ...] = ()
-    if item is not None and item.due_on is not None and item.due_on > on:
-        projection = ((on, b.remaining_ah), (item.due_on, b.reserve_ah))
+    if item is not None and item.due_on is not None and item.due_on > b.on:
+        projection = ((b.on, b.remaining_ah), (item.due_on, b.reserve_ah))
     return BatteryHistory(used, projection, b.reserve_ah, b.usable_ah)

@@ -1,51 +1,53 @@
 """Readiness: can this unit go to this site for this period? Every check, with its numbers.
 
-For a planned deployment (site, start date, days) each check gives pass, warn or fail, the
-numbers behind it and the source of the formula:
+For a planned deployment (``planned.PlannedDeployment``) each check gives pass, warn or fail,
+the numbers behind it and the source of the formula. Dates come from the unit's evaluated
+due items (``engine.evaluate_unit``), the same derivation the stored rows hold:
 
 1. Status: a unit that is in the water, quarantined, retired or lost cannot go.
 2. Depth: the site's depth against the variant's rating, with a margin.
 3. Pressure test: the site's sea pressure (TEOS-10, ``calc.seawater``) × the proof factor
-   must not exceed what the last accepted, unvoided test held; the test must still be valid
-   on the start date (warn if it lapses before recovery).
-4. Battery: the fitted pack's charge on the start date (self-discharge to then) at the
-   site's bottom temperature must cover the planned days at the planned interrogation rate
-   and power step, and keep the reserve.
+   must not exceed what the last accepted, unvoided test held; a failed or voided test
+   fails; the test must still be valid on the start date (warn if it lapses before recovery).
+4. Battery: the fitted pack's charge on the start date at the site's bottom temperature must
+   cover the planned days at the planned interrogation rate and power step, and keep the
+   reserve.
 5. Anodes: each stays above its replace-at mass at recovery, with the planned days added to
-   its immersed time.
+   its immersed time; a bond fault fails.
 6. Seals: each stays within its interval (and shelf life) to recovery; openings left.
 7. Release test and sensor checks: valid through recovery; a failed test fails.
 8. Recovery buoyancy: positive with a margin at the seabed's seawater density.
 9. Acoustic address: no unit now in the water at the site answers to the same address.
 
-The unit's margin (for ranking in the planner) is the smallest of the normalised margins:
-battery charge to spare, anode mass to spare, depth rating to spare.
+A fault found fails its check whatever the start date, today included. The unit's margin
+(for ranking in the planner) is the smallest of the normalised margins: battery charge to
+spare, anode mass to spare, depth rating to spare.
 """
 
 from __future__ import annotations
 
 import datetime as dt
 from collections import Counter
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from enum import StrEnum
 
 from fleet.calc import buoyancy as calc_buoyancy
-from fleet.calc import seals as calc_seals
 from fleet.calc import seawater as calc_seawater
-from fleet.models import Deployment, Site, Transponder, UnitStatus
+from fleet.models import Deployment, Transponder, UnitStatus
 
 from .engine import (
     SENSOR_FLAGS,
-    ItemKind,
     UnitEvaluation,
-    _seal_item,
-    _state,
     battery_projection,
+    evaluate_fleet,
     evaluate_unit,
     fleet_queryset,
-    release_test_failures,
-    sensor_check_failures,
+    sensor_key,
+    state_of,
 )
+from .items import DueItem
+from .planned import PlannedDeployment
 
 
 class Verdict(StrEnum):
@@ -77,25 +79,39 @@ class CheckResult:
 @dataclass(slots=True)
 class Readiness:
     unit: Transponder
-    site: Site
-    start: dt.date
-    days: int
+    planned: PlannedDeployment
     interrogations_per_day: int
     power_step: int
     checks: list[CheckResult] = field(default_factory=list)
     margins: dict[str, float] = field(default_factory=dict)
 
     @property
+    def site(self):  # noqa: ANN201 - the planned site
+        return self.planned.site
+
+    @property
+    def start(self) -> dt.date:
+        return self.planned.start
+
+    @property
+    def days(self) -> int:
+        return self.planned.days
+
+    @property
     def end(self) -> dt.date:
-        return self.start + dt.timedelta(days=self.days)
+        return self.planned.end
 
     @property
     def verdict(self) -> Verdict:
         return min((c.verdict for c in self.checks), key=lambda v: v.rank, default=Verdict.PASS)
 
     @property
+    def failures(self) -> list[CheckResult]:
+        return [c for c in self.checks if c.verdict == Verdict.FAIL]
+
+    @property
     def first_failure(self) -> CheckResult | None:
-        return next((c for c in self.checks if c.verdict == Verdict.FAIL), None)
+        return next(iter(self.failures), None)
 
     @property
     def margin(self) -> float:
@@ -105,369 +121,344 @@ class Readiness:
 COMMON = "common practice, no published source"
 
 
-def check_unit(
-    ev: UnitEvaluation,
+@dataclass(frozen=True, slots=True)
+class Context:
+    """What every check reads: the evaluation, the plan and the duty it implies."""
+
+    ev: UnitEvaluation
+    planned: PlannedDeployment
+    rate: float
+    step: int
+    site_pressure_dbar: float
+
+
+def _dated_item_check(
+    name: str,
+    item: DueItem | None,
+    planned: PlannedDeployment,
+    source: str,
     *,
-    site: Site,
-    start: dt.date,
-    days: int,
-    interrogations_per_day: int | None = None,
-    power_step: int | None = None,
-    on: dt.date,
-    at: dt.datetime,
-    address_clashes: list[str] | None = None,
-) -> Readiness:
-    unit, rules, duty = ev.unit, ev.rules, ev.duty
-    if days < 1 or days > 3650:
-        raise ValueError(f"days must be in [1, 3650], got {days}")
-    if start < on:
-        raise ValueError(f"start must be today ({on}) or later, got {start}")
-    rate = duty.replies_per_day if interrogations_per_day is None else interrogations_per_day
-    step = unit.transmit_power_step if power_step is None else power_step
-    r = Readiness(unit, site, start, days, round(rate), step)
-    end = r.end
-    add = r.checks.append
-    variant = unit.variant
-    state = _state(unit)
+    missing: Verdict,
+    lapses: Verdict,
+) -> CheckResult:
+    """A test or interval item against the planned period: a fault or an expiry by the
+    start fails; lapsing before recovery gives ``lapses``; no record gives ``missing``."""
+    if item is None or item.due_on is None:
+        basis = item.basis if item is not None else "nothing recorded"
+        return CheckResult(name, missing, basis, source)
+    if item.failed:
+        return CheckResult(name, Verdict.FAIL, item.basis, source)
+    if item.due_on <= planned.start:
+        return CheckResult(
+            name, Verdict.FAIL, f"due {item.due_on}, by the start {planned.start}", source
+        )
+    if item.due_on < planned.end:
+        return CheckResult(
+            name, lapses, f"due {item.due_on}, before recovery {planned.end}", source
+        )
+    return CheckResult(
+        name, Verdict.PASS, f"due {item.due_on}, after recovery {planned.end}", source
+    )
 
-    # 1. Status
+
+def check_status(c: Context) -> list[CheckResult]:
+    unit = c.ev.unit
     if unit.status in (UnitStatus.QUARANTINED, UnitStatus.RETIRED, UnitStatus.LOST):
-        add(
-            CheckResult(
-                "Unit status", Verdict.FAIL, f"unit is {unit.get_status_display().lower()}", "—"
-            )
-        )
+        numbers, verdict = f"unit is {unit.get_status_display().lower()}", Verdict.FAIL
     elif unit.status == UnitStatus.DEPLOYED:
-        add(
-            CheckResult(
-                "Unit status",
-                Verdict.FAIL,
-                "unit is in the water now; recover and service it first",
-                "—",
-            )
-        )
+        numbers = "unit is in the water now; recover and service it first"
+        verdict = Verdict.FAIL
     else:
-        add(CheckResult("Unit status", Verdict.PASS, unit.get_status_display().lower(), "—"))
+        numbers, verdict = unit.get_status_display().lower(), Verdict.PASS
+    return [CheckResult("Unit status", verdict, numbers, "—")]
 
-    # 2. Depth
-    rating = variant.depth_rating_m
+
+def check_depth(c: Context, margins: dict[str, float]) -> list[CheckResult]:
+    rules, site = c.ev.rules, c.planned.site
+    rating = c.ev.unit.variant.depth_rating_m
     spare = (rating - site.water_depth_m) / rating
-    depth_numbers = (
+    margins["depth"] = spare
+    numbers = (
         f"site {site.water_depth_m:.0f} m, rating {rating:.0f} m, "
         f"{spare:.0%} to spare (want {rules.depth_margin_fraction:.0%})"
     )
     if site.water_depth_m > rating:
-        depth_verdict = Verdict.FAIL
+        verdict = Verdict.FAIL
     elif spare < rules.depth_margin_fraction:
-        depth_verdict = Verdict.WARN
+        verdict = Verdict.WARN
     else:
-        depth_verdict = Verdict.PASS
-    add(CheckResult("Depth rating", depth_verdict, depth_numbers, f"margin: {COMMON}"))
-    r.margins["depth"] = spare
+        verdict = Verdict.PASS
+    return [CheckResult("Depth rating", verdict, numbers, f"margin: {COMMON}")]
 
-    # 3. Pressure test
-    site_p = calc_seawater.pressure_dbar(site.water_depth_m, site.latitude_deg)
-    needed = site_p * rules.proof_factor
+
+def check_pressure_test(c: Context) -> list[CheckResult]:
+    rules = c.ev.rules
+    state = state_of(c.ev.unit)
     test = state.last_pressure_test if state else None
+    needed = c.site_pressure_dbar * rules.proof_factor
     source = f"sea pressure: TEOS-10 (gsw); proof factor {rules.proof_factor:g}: {COMMON}"
-    due_on, basis = _due_of(ev, ItemKind.PRESSURE_TEST)
-    if test is None:
-        add(CheckResult("Pressure test", Verdict.FAIL, "no pressure test recorded", source))
-    else:
-        numbers = (
-            f"site {site_p:.0f} dbar × {rules.proof_factor:g} = {needed:.0f} dbar; "
-            f"tested {test.tested_on} at {test.start_pressure_dbar:.0f} dbar"
-        )
-        if state.test_voided_by_opening:
-            verdict, numbers = Verdict.FAIL, numbers + "; void: the housing was opened since"
-        elif test.ingress_found or test.start_pressure_dbar < needed * (
-            1.0 - rules.gauge_tolerance_percent / 100.0
-        ):
-            verdict = Verdict.FAIL
-            numbers += "; ingress found" if test.ingress_found else "; held less than needed"
-        elif due_on is None or due_on < start:
-            verdict, numbers = Verdict.FAIL, numbers + f"; {basis}"
-        elif due_on < end:
-            verdict, numbers = Verdict.WARN, numbers + f"; lapses {due_on}, before recovery {end}"
-        else:
-            verdict, numbers = Verdict.PASS, numbers + f"; valid to {due_on}"
-        add(CheckResult("Pressure test", verdict, numbers, source))
+    name = "Pressure test"
+    item = c.ev.item("pressure_test")
+    if test is None or item is None:
+        return [CheckResult(name, Verdict.FAIL, "no pressure test recorded", source)]
+    head = f"site {c.site_pressure_dbar:.0f} dbar × {rules.proof_factor:g} = {needed:.0f} dbar"
+    if item.failed:
+        return [CheckResult(name, Verdict.FAIL, f"{head}; {item.basis}", source)]
+    tested = f"tested {test.tested_on} at {test.start_pressure_dbar:.0f} dbar"
+    if test.start_pressure_dbar < needed * (1.0 - rules.gauge_tolerance_percent / 100.0):
+        return [CheckResult(name, Verdict.FAIL, f"{head}; {tested}: held less than needed", source)]
+    dated = _dated_item_check(
+        name, item, c.planned, source, missing=Verdict.FAIL, lapses=Verdict.WARN
+    )
+    return [CheckResult(name, dated.verdict, f"{head}; {tested}; {dated.numbers}", source)]
 
-    # 4. Battery
-    steps = {s.step: s.charge_per_reply_as for s in variant.reply_steps.all()}
-    b_source = "capacity vs temperature: Linden's Handbook of Batteries (from memory); charge = I·t"
+
+def check_battery(c: Context, margins: dict[str, float]) -> list[CheckResult]:
+    ev, planned = c.ev, c.planned
+    source = "capacity vs temperature: Linden's Handbook of Batteries (from memory); charge = I·t"
+    state = state_of(ev.unit)
     battery = (
         battery_projection(
-            unit,
+            ev.unit,
             state,
-            rules,
-            duty,
-            start,
-            at,
-            steps,
-            temperature_c=site.bottom_temperature_c,
-            replies_per_day=rate,
-            power_step=step,
+            ev.rules,
+            ev.duty,
+            ev.steps,
+            on=planned.start,
+            temperature_c=planned.site.bottom_temperature_c,
+            replies_per_day=c.rate,
+            power_step=c.step,
         )
         if state is not None
         else None
     )
     if battery is None:
-        add(CheckResult("Battery", Verdict.FAIL, "no pack recorded as fitted", b_source))
-        r.margins["battery"] = -1.0
+        margins["battery"] = -1.0
+        return [CheckResult("Battery", Verdict.FAIL, "no pack recorded as fitted", source)]
+    days = planned.days
+    need = (battery.daily_in_water_ah + battery.self_discharge_daily_ah) * days
+    left = battery.remaining_ah - need
+    numbers = (
+        f"{battery.remaining_ah:.1f} Ah on {planned.start} at {battery.temperature_c:g} °C; "
+        f"{days} days at {c.rate:.0f} replies a day, step {c.step} "
+        f"({battery.charge_per_reply_as * 1000:.1f} mA·s a reply) need {need:.1f} Ah; "
+        f"{left:.1f} Ah left at recovery, reserve {battery.reserve_ah:.1f} Ah"
+    )
+    if left < 0:
+        verdict = Verdict.FAIL
+    elif left < battery.reserve_ah:
+        verdict = Verdict.WARN
     else:
-        need = battery.daily_in_water_ah * days + battery.self_discharge_daily_ah * days
-        left = battery.remaining_ah - need
-        numbers = (
-            f"{battery.remaining_ah:.1f} Ah on {start} at {battery.temperature_c:g} °C; "
-            f"{days} days at {rate:.0f} replies a day, step {step} "
-            f"({battery.charge_per_reply_as * 1000:.1f} mA·s a reply) need {need:.1f} Ah; "
-            f"{left:.1f} Ah left at recovery, reserve {battery.reserve_ah:.1f} Ah"
-        )
-        verdict = (
-            Verdict.FAIL
-            if left < 0
-            else Verdict.WARN
-            if left < battery.reserve_ah
-            else Verdict.PASS
-        )
-        add(CheckResult("Battery", verdict, numbers, b_source))
-        r.margins["battery"] = left / battery.usable_ah if battery.usable_ah else -1.0
+        verdict = Verdict.PASS
+    margins["battery"] = left / battery.usable_ah if battery.usable_ah else -1.0
+    return [CheckResult("Battery", verdict, numbers, source)]
 
-    # 5. Anodes
-    a_source = "wear fit against immersed days; DNV-RP-B401 (2010) Table 10-6 design rate"
+
+def check_anodes(c: Context, margins: dict[str, float]) -> list[CheckResult]:
+    source = "wear fit against immersed days; DNV-RP-B401 (2010) Table 10-6 design rate"
+    results = []
     anode_margin = 1.0
-    for p in ev.anodes:
+    for p in c.ev.anodes:
+        name = f"Anode: {p.name}"
         if p.fit is None:
-            add(CheckResult(f"Anode: {p.name}", Verdict.WARN, "no reading recorded", a_source))
+            results.append(CheckResult(name, Verdict.WARN, "no reading recorded", source))
             continue
-        mass_end = p.mass_after_kg(days)
+        mass_end = p.mass_after_kg(c.planned.days)
         if mass_end is None:
-            add(
-                CheckResult(
-                    f"Anode: {p.name}",
-                    Verdict.WARN,
-                    "no wear rate yet (one reading and no design current)",
-                    a_source,
-                )
-            )
+            numbers = "no wear rate yet (one reading and no design current)"
+            results.append(CheckResult(name, Verdict.WARN, numbers, source))
             continue
         spare_kg = mass_end - p.threshold_kg
         numbers = (
             f"{mass_end * 1000:.0f} g projected at recovery, replace at "
-            f"{p.threshold_kg * 1000:.0f} g "
-            f"({p.replace_at_percent:.0f} % of {p.new_kg * 1000:.0f} g)"
+            f"{p.threshold_kg * 1000:.0f} g ({p.replace_at_percent:.0f} % of "
+            f"{p.new_kg * 1000:.0f} g)"
         )
-        if (
-            p.bond_resistance_ohm is not None
-            and p.bond_resistance_ohm > rules.bond_resistance_limit_ohm
-        ):
-            add(
-                CheckResult(
-                    f"Anode: {p.name}",
-                    Verdict.FAIL,
-                    numbers + f"; bond {p.bond_resistance_ohm:g} Ω over the limit",
-                    a_source,
-                )
-            )
+        if p.bond_fault(c.ev.rules):
+            numbers += f"; bond {p.bond_resistance_ohm:g} Ω over the limit"
+            results.append(CheckResult(name, Verdict.FAIL, numbers, source))
             anode_margin = min(anode_margin, -1.0)
             continue
         verdict = Verdict.FAIL if spare_kg < 0 else Verdict.PASS
         if verdict == Verdict.PASS and p.fit.fast_wear:
             verdict, numbers = Verdict.WARN, numbers + "; wearing faster than design"
-        add(CheckResult(f"Anode: {p.name}", verdict, numbers, a_source))
+        results.append(CheckResult(name, verdict, numbers, source))
         anode_margin = min(anode_margin, spare_kg / p.new_kg)
-    r.margins["anodes"] = anode_margin
+    margins["anodes"] = anode_margin
+    return results
 
-    # 6. Seals
-    s_source = f"intervals: {COMMON}; shelf life ISO 2230:2002"
-    seal_rows = {row.position_id: row for row in unit.seal_states.all()}
-    for seal in variant.seal_positions.all():
-        row = seal_rows.get(seal.pk)
-        if row is None or row.fitted_at is None:
-            add(
-                CheckResult(f"Seal: {seal.name}", Verdict.WARN, "no seal change recorded", s_source)
+
+def check_seals(c: Context) -> list[CheckResult]:
+    source = f"intervals: {COMMON}; shelf life ISO 2230:2002"
+    results = []
+    for seal in c.ev.unit.variant.seal_positions.all():
+        name = f"Seal: {seal.name}"
+        item = c.ev.item(f"seal:{seal.pk}")
+        if item is None or item.due_on is None:
+            results.append(CheckResult(name, Verdict.WARN, "no seal change recorded", source))
+            continue
+        result = _dated_item_check(
+            name, item, c.planned, source, missing=Verdict.WARN, lapses=Verdict.FAIL
+        )
+        if result.verdict == Verdict.FAIL and not item.failed:
+            result = CheckResult(name, result.verdict, f"{result.numbers}: {item.basis}", source)
+        results.append(result)
+    return results
+
+
+def check_release(c: Context) -> list[CheckResult]:
+    if not c.ev.unit.variant.release_fitted:
+        return []
+    source = f"validity and acceptance: {COMMON}"
+    item = c.ev.item("release_test")
+    if item is None or item.due_on is None:
+        return [CheckResult("Release test", Verdict.FAIL, "no release test recorded", source)]
+    return [
+        _dated_item_check(
+            "Release test", item, c.planned, source, missing=Verdict.FAIL, lapses=Verdict.FAIL
+        )
+    ]
+
+
+def check_sensors(c: Context) -> list[CheckResult]:
+    results = []
+    for sensor, flag, _attr in SENSOR_FLAGS:
+        if not getattr(c.ev.unit.variant, flag):
+            continue
+        source = f"interval and tolerance: {COMMON}"
+        if sensor == sensor.TEMPERATURE:
+            source += "; PT100 element: IEC 60751"
+        elif sensor == sensor.PRESSURE:
+            source += "; full scale at the rated depth: TEOS-10 (gsw)"
+        item = c.ev.item(sensor_key(sensor))
+        results.append(
+            _dated_item_check(
+                f"Sensor: {sensor.label}",
+                item,
+                c.planned,
+                source,
+                missing=Verdict.WARN,
+                lapses=Verdict.WARN,
             )
-            continue
-        row.position = seal
-        due_on, _, basis, _ = _seal_item(row, rules, on)
-        if due_on is None or due_on < end:
-            verdict = Verdict.FAIL
-            numbers = f"due {due_on}, before recovery {end}: {basis}"
-        else:
-            verdict, numbers = Verdict.PASS, f"due {due_on}, after recovery {end}"
-        add(CheckResult(f"Seal: {seal.name}", verdict, numbers, s_source))
+        )
+    return results
 
-    # 7. Release test and sensors
-    if variant.release_fitted:
-        test = state.last_release_test if state else None
-        rel_source = f"validity and acceptance: {COMMON}"
-        if test is None:
-            add(CheckResult("Release test", Verdict.FAIL, "no release test recorded", rel_source))
-        else:
-            failures = release_test_failures(test, rules)
-            valid_to = test.tested_on + dt.timedelta(days=rules.release_test_valid_days)
-            if failures:
-                add(CheckResult("Release test", Verdict.FAIL, "; ".join(failures), rel_source))
-            elif valid_to < end:
-                add(
-                    CheckResult(
-                        "Release test",
-                        Verdict.FAIL,
-                        f"tested {test.tested_on}, valid to {valid_to}, before recovery {end}",
-                        rel_source,
-                    )
-                )
-            else:
-                add(
-                    CheckResult(
-                        "Release test",
-                        Verdict.PASS,
-                        f"tested {test.tested_on}, valid to {valid_to}",
-                        rel_source,
-                    )
-                )
-    for sensor, flag, attr in SENSOR_FLAGS:
-        if not getattr(variant, flag):
-            continue
-        check = getattr(state, attr) if state else None
-        name = f"Sensor: {sensor.label}"
-        src = f"interval and tolerance: {COMMON}; PT100: IEC 60751"
-        if check is None:
-            add(CheckResult(name, Verdict.WARN, "no check recorded", src))
-            continue
-        failures = sensor_check_failures(check, unit, rules)
-        valid_to = calc_seals.add_months(check.checked_on, rules.sensor_check_interval_months)
-        if failures:
-            add(CheckResult(name, Verdict.FAIL, "; ".join(failures), src))
-        elif valid_to < end:
-            add(
-                CheckResult(
-                    name,
-                    Verdict.WARN,
-                    f"checked {check.checked_on}, due {valid_to}, before recovery",
-                    src,
-                )
-            )
-        else:
-            add(CheckResult(name, Verdict.PASS, f"checked {check.checked_on}, due {valid_to}", src))
 
-    # 8. Recovery buoyancy
-    buoy_src = f"Archimedes; density TEOS-10 (gsw); margins {COMMON}"
+def check_buoyancy(c: Context) -> list[CheckResult]:
+    variant, site, rules = c.ev.unit.variant, c.planned.site, c.ev.rules
+    source = f"Archimedes; density TEOS-10 (gsw); margins {COMMON}"
     if variant.mass_in_air_kg is None or variant.displaced_volume_m3 is None:
-        add(
-            CheckResult(
-                "Recovery buoyancy",
-                Verdict.WARN,
-                "variant has no mass and volume recorded",
-                buoy_src,
-            )
-        )
-    else:
-        rho = calc_seawater.density_kg_m3(
-            site.bottom_temperature_c,
-            site.practical_salinity,
-            site_p,
-            site.latitude_deg,
-            site.longitude_deg,
-        )
-        result = calc_buoyancy.recovery_margin(
-            [calc_buoyancy.BuoyancyPart(variant.mass_in_air_kg, variant.displaced_volume_m3)],
-            rho,
-            rules.recovery_min_margin_fraction,
-            rules.recovery_min_net_buoyancy_kg,
-        )
-        numbers = (
-            f"{result.net_buoyancy_kg:+.1f} kgf net at {rho:.1f} kg/m³ "
-            f"({variant.mass_in_air_kg:g} kg in air, {variant.displaced_volume_m3:g} m³)"
-        )
-        if not result.passed:
-            numbers += "; " + "; ".join(result.reasons)
-        add(
-            CheckResult(
-                "Recovery buoyancy",
-                Verdict.PASS if result.passed else Verdict.FAIL,
-                numbers,
-                buoy_src,
-            )
-        )
+        numbers = "variant has no mass and volume recorded"
+        return [CheckResult("Recovery buoyancy", Verdict.WARN, numbers, source)]
+    rho = calc_seawater.density_kg_m3(
+        site.bottom_temperature_c,
+        site.practical_salinity,
+        c.site_pressure_dbar,
+        site.latitude_deg,
+        site.longitude_deg,
+    )
+    result = calc_buoyancy.recovery_margin(
+        [calc_buoyancy.BuoyancyPart(variant.mass_in_air_kg, variant.displaced_volume_m3)],
+        rho,
+        rules.recovery_min_margin_fraction,
+        rules.recovery_min_net_buoyancy_kg,
+    )
+    numbers = (
+        f"{result.net_buoyancy_kg:+.1f} kgf net at {rho:.1f} kg/m³ "
+        f"({variant.mass_in_air_kg:g} kg in air, {variant.displaced_volume_m3:g} m³)"
+    )
+    if not result.passed:
+        numbers += "; " + "; ".join(result.reasons)
+    verdict = Verdict.PASS if result.passed else Verdict.FAIL
+    return [CheckResult("Recovery buoyancy", verdict, numbers, source)]
 
-    # 9. Acoustic address
-    clashes = address_clashes or []
+
+def check_address(c: Context, clashes: list[str]) -> list[CheckResult]:
+    unit, site = c.ev.unit, c.planned.site
     if clashes:
-        add(
-            CheckResult(
-                "Acoustic address",
-                Verdict.FAIL,
-                f"address {unit.acoustic_address} already used at {site.name} by "
-                f"{', '.join(clashes)}",
-                "—",
-            )
+        numbers = (
+            f"address {unit.acoustic_address} already used at {site.name} by {', '.join(clashes)}"
         )
-    else:
-        add(
-            CheckResult(
-                "Acoustic address",
-                Verdict.PASS,
-                f"address {unit.acoustic_address} free at {site.name}",
-                "—",
-            )
-        )
+        return [CheckResult("Acoustic address", Verdict.FAIL, numbers, "—")]
+    numbers = f"address {unit.acoustic_address} free at {site.name}"
+    return [CheckResult("Acoustic address", Verdict.PASS, numbers, "—")]
+
+
+def check_unit(
+    ev: UnitEvaluation,
+    planned: PlannedDeployment,
+    *,
+    address_clashes: list[str] | None = None,
+) -> Readiness:
+    """Every check of ``ev``'s unit for ``planned``, in the order of the module docstring."""
+    unit = ev.unit
+    rate = (
+        ev.duty.replies_per_day
+        if planned.interrogations_per_day is None
+        else planned.interrogations_per_day
+    )
+    step = unit.transmit_power_step if planned.power_step is None else planned.power_step
+    site = planned.site
+    site_p = calc_seawater.pressure_dbar(site.water_depth_m, site.latitude_deg)
+    c = Context(ev, planned, rate, step, site_p)
+    r = Readiness(unit, planned, round(rate), step)
+    checks: tuple[Callable[[], list[CheckResult]], ...] = (
+        lambda: check_status(c),
+        lambda: check_depth(c, r.margins),
+        lambda: check_pressure_test(c),
+        lambda: check_battery(c, r.margins),
+        lambda: check_anodes(c, r.margins),
+        lambda: check_seals(c),
+        lambda: check_release(c),
+        lambda: check_sensors(c),
+        lambda: check_buoyancy(c),
+        lambda: check_address(c, address_clashes or []),
+    )
+    for check in checks:
+        r.checks.extend(check())
     return r
 
 
-def _due_of(ev: UnitEvaluation, kind: ItemKind) -> tuple[dt.date | None, str]:
-    item = next((i for i in ev.items if i.kind == kind), None)
-    return (None, "") if item is None else (item.due_on, item.basis)
-
-
-def address_clashes_at(site: Site) -> dict[str, list[str]]:
-    """Address → serials of units in the water at ``site`` now (one query)."""
+def address_clashes_at(site_id: int) -> dict[str, list[str]]:
+    """Address → serials of units in the water at the site now (one query)."""
     clashes: dict[str, list[str]] = {}
     for serial, address in Deployment.objects.filter(
-        site=site, recovered_at__isnull=True
+        site_id=site_id, recovered_at__isnull=True
     ).values_list("unit__serial", "unit__acoustic_address"):
         clashes.setdefault(address, []).append(serial)
     return clashes
 
 
-def readiness_for(
-    unit: Transponder,
-    *,
-    site: Site,
-    start: dt.date,
-    days: int,
-    interrogations_per_day: int | None = None,
-    power_step: int | None = None,
-    on: dt.date,
-    at: dt.datetime,
-) -> Readiness:
+def readiness_for(unit: Transponder, planned: PlannedDeployment, *, on: dt.date) -> Readiness:
+    """``unit`` checked for ``planned``, evaluated as of ``on``."""
     loaded = fleet_queryset(Transponder.objects.filter(pk=unit.pk)).get()
-    ev = evaluate_unit(loaded, on=on, at=at)
+    ev = evaluate_unit(loaded, on=on)
     others = [
-        s for s in address_clashes_at(site).get(loaded.acoustic_address, []) if s != loaded.serial
+        s
+        for s in address_clashes_at(planned.site.pk).get(loaded.acoustic_address, [])
+        if s != loaded.serial
     ]
-    return check_unit(
-        ev,
-        site=site,
-        start=start,
-        days=days,
-        interrogations_per_day=interrogations_per_day,
-        power_step=power_step,
-        on=on,
-        at=at,
-        address_clashes=others,
-    )
+    return check_unit(ev, planned, address_clashes=others)
 
 
 @dataclass(frozen=True, slots=True)
 class Plan:
-    site: Site
-    start: dt.date
-    days: int
+    planned: PlannedDeployment
     wanted: int
     ready: list[Readiness]
     rejected: list[Readiness]
+
+    @property
+    def site(self):  # noqa: ANN201 - the planned site
+        return self.planned.site
+
+    @property
+    def start(self) -> dt.date:
+        return self.planned.start
+
+    @property
+    def days(self) -> int:
+        return self.planned.days
 
     @property
     def shortfall(self) -> int:
@@ -485,35 +476,13 @@ class Plan:
         return counts.most_common()
 
 
-def plan_campaign(
-    *,
-    site: Site,
-    start: dt.date,
-    days: int,
-    wanted: int,
-    interrogations_per_day: int | None = None,
-    on: dt.date,
-    at: dt.datetime,
-) -> Plan:
+def plan_campaign(planned: PlannedDeployment, *, wanted: int, on: dt.date) -> Plan:
     """Every active unit checked for the job; those that pass, most margin first."""
-    from .engine import evaluate_fleet
-
-    clashes = address_clashes_at(site)
+    clashes = address_clashes_at(planned.site.pk)
     results = []
-    for ev in evaluate_fleet(on=on, at=at):
+    for ev in evaluate_fleet(on=on):
         others = [s for s in clashes.get(ev.unit.acoustic_address, []) if s != ev.unit.serial]
-        results.append(
-            check_unit(
-                ev,
-                site=site,
-                start=start,
-                days=days,
-                interrogations_per_day=interrogations_per_day,
-                on=on,
-                at=at,
-                address_clashes=others,
-            )
-        )
+        results.append(check_unit(ev, planned, address_clashes=others))
     candidates = sorted(
         (r for r in results if r.verdict != Verdict.FAIL),
         key=lambda r: (-r.verdict.rank, -r.margin, r.unit.serial),
@@ -538,4 +507,4 @@ def plan_campaign(
         taken[address] = r.unit.serial
         ready.append(r)
     rejected.sort(key=lambda r: r.unit.serial)
-    return Plan(site, start, days, wanted, ready, rejected)
+    return Plan(planned, wanted, ready, rejected)

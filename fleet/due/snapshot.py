@@ -1,8 +1,10 @@
-"""A comparable picture of the derived state, for checking the running rows against a rebuild."""
+"""A comparable picture of everything derived (state rows and stored due rows), for checking
+the running rows against a rebuild."""
 
-from fleet.models import AnodeState, SealState, UnitState
+from fleet.models import AnodeState, DueRow, SealState, UnitState
 
 _UNIT_FIELDS = (
+    "as_of",
     "immersed_days_closed",
     "first_over_side_at",
     "open_deployment_id",
@@ -34,6 +36,7 @@ _ANODE_FIELDS = (
     "last_bond_resistance_ohm",
 )
 _SEAL_FIELDS = ("fitted_at", "cure_date", "material", "openings_since_fit")
+_DUE_FIELDS = ("kind", "item", "due_on", "basis", "flags", "failed", "position")
 
 
 def _norm(value: object) -> object:
@@ -50,4 +53,16 @@ def state_snapshot() -> dict[tuple, tuple]:
     for row in SealState.objects.values("unit_id", "position_id", *_SEAL_FIELDS):
         key = ("seal", row["unit_id"], row["position_id"])
         snapshot[key] = tuple(_norm(row[f]) for f in _SEAL_FIELDS)
+    for row in DueRow.objects.values("unit_id", "key", *_DUE_FIELDS):
+        snapshot[("due", row["unit_id"], row["key"])] = tuple(row[f] for f in _DUE_FIELDS)
     return snapshot
+
+
+def differences(before: dict[tuple, tuple], after: dict[tuple, tuple]) -> list[str]:
+    """One line per row that differs, missing or extra, in key order."""
+    lines = []
+    for key in sorted(set(before) | set(after), key=str):
+        old, new = before.get(key), after.get(key)
+        if old != new:
+            lines.append(f"{key}: stored {old} rebuilt {new}")
+    return lines

@@ -15,6 +15,8 @@ Algorithm for one unit, run inside the transaction of every write that touches t
    the count made on recovery where there is one, else the planned rate.
 5. Last pressure test, and whether any housing opening since voids it; last release test
    and sensor checks.
+6. The unit's last event (``as_of``): the latest moment a deployment went over the side or
+   came back, or a bench visit opened. Every projection runs from there (``duty.py``).
 
 Recomputing one unit reads only that unit's records (a handful of queries). A whole-fleet
 evaluation then reads one row per item.
@@ -23,7 +25,6 @@ evaluation then reads one row per item.
 import datetime as dt
 
 from django.db import transaction
-from django.utils import timezone
 
 from fleet.calc.anodes import WearSums
 from fleet.calc.battery import charge_used_ah
@@ -39,45 +40,13 @@ from fleet.models import (
     SealChange,
     SealState,
     SensorCheck,
+    ServiceRecord,
     Transponder,
     UnitState,
 )
 
-_FAR_FUTURE = dt.datetime(9000, 1, 1, tzinfo=dt.UTC)
-
-
-def start_of(day: dt.date) -> dt.datetime:
-    """Midnight at the start of ``day`` in the workshop's time zone (settings.TIME_ZONE)."""
-    return timezone.make_aware(dt.datetime.combine(day, dt.time.min))
-
-
-def charge_per_reply_as(steps: dict[int, float], step: int) -> float:
-    """Charge per reply at ``step``; a step the variant does not list takes the next one up
-    (the conservative side), else the highest listed; 0 when none is listed."""
-    if not steps:
-        return 0.0
-    if step in steps:
-        return steps[step]
-    higher = [s for s in steps if s > step]
-    return steps[min(higher)] if higher else steps[max(steps)]
-
-
-def replies_in(deployment: Deployment, days_in_window: float) -> int:
-    """Replies made during ``days_in_window`` days of a deployment."""
-    if deployment.recovered_at is not None and deployment.replies_counted is not None:
-        total_days = (deployment.recovered_at - deployment.over_side_at).total_seconds() / 86400
-        if total_days <= 0:
-            return 0
-        return round(deployment.replies_counted * min(1.0, days_in_window / total_days))
-    return round(deployment.planned_interrogations_per_day * days_in_window)
-
-
-def replies_per_day(deployment: Deployment) -> float:
-    if deployment.recovered_at is not None and deployment.replies_counted is not None:
-        days = (deployment.recovered_at - deployment.over_side_at).total_seconds() / 86400
-        if days > 0:
-            return deployment.replies_counted / days
-    return float(deployment.planned_interrogations_per_day)
+from .days import OPEN_END, local_day, start_of
+from .duty import charge_per_reply_as, replies_in, replies_per_day
 
 
 @transaction.atomic
@@ -123,6 +92,8 @@ def refresh_unit_state(unit: Transponder, *, at: dt.datetime) -> UnitState:
             row.fitted_at = reading.record.opened_at
             row.immersed_days_at_fit = x
             row.last_mass_kg = new_kg
+            # The bond measured at this visit was the old anode's; the new one has none yet.
+            row.last_bond_resistance_ohm = None
             sums[position.pk] = WearSums.empty().add(0.0, new_kg)
     for pk, row in anode_rows.items():
         s = sums[pk]
@@ -170,7 +141,7 @@ def refresh_unit_state(unit: Transponder, *, at: dt.datetime) -> UnitState:
         hours = 0.0
         replies_charge = 0.0
         for d in closed:
-            days = overlap_days(d.over_side_at, d.recovered_at, fitted_from, _FAR_FUTURE)
+            days = overlap_days(d.over_side_at, d.recovered_at, fitted_from, OPEN_END)
             if days <= 0:
                 continue
             hours += days * 24.0
@@ -200,7 +171,7 @@ def refresh_unit_state(unit: Transponder, *, at: dt.datetime) -> UnitState:
     voided = False
     if last_test is not None:
         voided = any(
-            timezone.localdate(o.opened_at) > last_test.tested_on
+            local_day(o.opened_at) > last_test.tested_on
             or o.record.opened_at > last_test.record.opened_at
             for o in openings
         )
@@ -211,13 +182,16 @@ def refresh_unit_state(unit: Transponder, *, at: dt.datetime) -> UnitState:
     for check in SensorCheck.objects.filter(record__unit=unit).order_by("checked_on", "pk"):
         latest_check[check.sensor] = check
 
+    events = [d.over_side_at for d in deployments] + [d.recovered_at for d in closed]
+    events += ServiceRecord.objects.filter(unit=unit).values_list("opened_at", flat=True)
     duty = open_deployment or (closed[-1] if closed else None)
     state, _ = UnitState.objects.update_or_create(
         unit=unit,
         defaults={
             "refreshed_at": at,
+            "as_of": max(events, default=None),
             "immersed_days_closed": immersed_days(
-                [(d.over_side_at, d.recovered_at) for d in closed], _FAR_FUTURE
+                [(d.over_side_at, d.recovered_at) for d in closed], OPEN_END
             ),
             "first_over_side_at": deployments[0].over_side_at if deployments else None,
             "open_deployment": open_deployment,
@@ -237,18 +211,3 @@ def refresh_unit_state(unit: Transponder, *, at: dt.datetime) -> UnitState:
         },
     )
     return state
-
-
-def rebuild_all(*, at: dt.datetime, batch: int = 500) -> int:
-    """Recompute every unit's state and stored due items from its records.
-
-    Returns the number of units.
-    """
-    from .store import refresh_unit  # the store builds on this module
-
-    count = 0
-    queryset = Transponder.objects.select_related("variant").order_by("pk")
-    for unit in queryset.iterator(chunk_size=batch):
-        refresh_unit(unit, at=at)
-        count += 1
-    return count

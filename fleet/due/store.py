@@ -1,12 +1,12 @@
-"""Stored due items: computed per unit at each write, read fleet-wide by the overview.
+"""Stored due items: derived per unit at each write, read by every page, feed and export.
 
-``refresh_unit`` is what every write service calls inside its transaction: it rewrites the
-unit's derived state (``state.py``) and then its due rows from the engine. Reading a fleet's
-due list is then one query over the stored rows, classified against today's date in SQL.
+``refresh_unit`` is what every write service calls inside its transaction, for every unit
+whose inputs it changed: it rewrites the unit's derived state (``state.py``) and then its
+due rows from the engine. Reading due items is then one query over the stored rows,
+classified against the day in SQL.
 
-A projection that depends on the passage of time (a unit sitting in store spreads its wear
-over a falling share of time in the water) drifts slowly between writes; ``rebuild_state``
-run daily keeps every row current, and the overview says when its rows were computed.
+A due date runs from the unit's last event (``duty.py``), so a stored row stays exact on
+every later day with no write; ``rebuild_state --check`` proves stored == rebuilt.
 """
 
 from __future__ import annotations
@@ -16,39 +16,82 @@ from collections.abc import Iterator
 from dataclasses import dataclass
 
 from django.db import transaction
-from django.db.models import Case, Count, IntegerField, Min, Q, QuerySet, Value, When
+from django.db.models import Case, Count, IntegerField, Q, QuerySet, Value, When
 from django.utils import timezone
 
 from fleet.models import DueRow, Transponder
 
-from .engine import INACTIVE, DueItem, DueState, ItemKind, classify, evaluate_unit, fleet_queryset
+from .engine import INACTIVE, evaluate_unit, fleet_queryset
+from .items import DueItem, DueState, ItemKind, classify
 from .state import refresh_unit_state
 
+_ROW_FIELDS = ("unit_id", "kind", "key", "item", "due_on", "basis", "flags", "failed", "position")
 
-def store_due_rows(unit: Transponder, *, at: dt.datetime) -> list[DueRow]:
-    loaded = fleet_queryset(Transponder.objects.filter(pk=unit.pk)).get()
-    on = timezone.localdate(at)
-    evaluation = evaluate_unit(loaded, on=on, at=at)
-    DueRow.objects.filter(unit_id=unit.pk).delete()
-    return DueRow.objects.bulk_create(
-        DueRow(
-            unit_id=unit.pk,
-            kind=item.kind.value,
-            item=item.item,
-            due_on=item.due_on,
-            basis=item.basis,
-            flags="\n".join(item.flags),
-            computed_on=on,
-        )
-        for item in evaluation.items
+
+def derived_rows(unit_ids: list[int] | None = None) -> Iterator[DueRow]:
+    """The due rows the engine derives now from the stored state, unsaved."""
+    units = (
+        Transponder.objects.all()
+        if unit_ids is None
+        else Transponder.objects.filter(pk__in=unit_ids)
     )
+    cache: dict = {}
+    today = timezone.localdate()
+    for unit in fleet_queryset(units.order_by("pk")).iterator(chunk_size=500):
+        evaluation = evaluate_unit(unit, on=today, rules_cache=cache)
+        for index, item in enumerate(evaluation.items):
+            yield DueRow(
+                unit_id=unit.pk,
+                kind=item.kind.value,
+                key=item.key,
+                item=item.item,
+                due_on=item.due_on,
+                basis=item.basis,
+                flags="\n".join(item.flags),
+                failed=item.failed,
+                position=index,
+            )
+
+
+def store_due_rows(unit: Transponder) -> None:
+    DueRow.objects.filter(unit_id=unit.pk).delete()
+    DueRow.objects.bulk_create(derived_rows([unit.pk]))
 
 
 @transaction.atomic
 def refresh_unit(unit: Transponder, *, at: dt.datetime) -> None:
-    """Rewrite the unit's derived state, then its stored due items."""
+    """Rewrite the unit's derived state, then its stored due items. The unit row is locked
+    first, so two writers refreshing one unit take turns instead of colliding."""
+    list(Transponder.objects.select_for_update().filter(pk=unit.pk).values_list("pk"))
     refresh_unit_state(unit, at=at)
-    store_due_rows(unit, at=at)
+    store_due_rows(unit)
+
+
+def refresh_units(units: QuerySet[Transponder], *, at: dt.datetime) -> int:
+    """``refresh_unit`` for each of ``units`` (a site, variant or rule changed under them)."""
+    count = 0
+    for unit in units.select_related("variant").order_by("pk"):
+        refresh_unit(unit, at=at)
+        count += 1
+    return count
+
+
+def rebuild_all(*, at: dt.datetime) -> int:
+    """Recompute every unit's state and stored due items from its records; the unit count."""
+    return refresh_units(Transponder.objects.all(), at=at)
+
+
+def due_rows_snapshot() -> dict[tuple[int, str], tuple[object, ...]]:
+    """The stored due rows, comparable with ``derived_snapshot``."""
+    return {(row[0], row[2]): row for row in DueRow.objects.values_list(*_ROW_FIELDS).iterator()}
+
+
+def derived_snapshot() -> dict[tuple[int, str], tuple[object, ...]]:
+    """What the stored due rows would be if rebuilt now from the stored state."""
+    return {
+        (row.unit_id, row.key): tuple(getattr(row, f) for f in _ROW_FIELDS)
+        for row in derived_rows()
+    }
 
 
 @dataclass(frozen=True, slots=True)
@@ -56,7 +99,6 @@ class DueTotals:
     overdue: int
     due_soon: int
     units_overdue: int
-    oldest_computed_on: dt.date | None
 
 
 def active_rows(units: QuerySet[Transponder] | None = None) -> QuerySet[DueRow]:
@@ -85,11 +127,8 @@ def due_totals(
         overdue=Count("pk", filter=Q(due_on__lte=on)),
         due_soon=Count("pk", filter=Q(due_on__gt=on, due_on__lte=soon)),
         units_overdue=Count("unit", filter=Q(due_on__lte=on), distinct=True),
-        oldest=Min("computed_on"),
     )
-    return DueTotals(
-        totals["overdue"], totals["due_soon"], totals["units_overdue"], totals["oldest"]
-    )
+    return DueTotals(totals["overdue"], totals["due_soon"], totals["units_overdue"])
 
 
 def due_queryset(
@@ -130,13 +169,37 @@ def due_items_stored(
             row.unit.variant.name,
             row.unit.place.name if row.unit.place else "",
             ItemKind(row.kind),
+            row.key,
             row.item,
             row.due_on,
             classify(row.due_on, on, soon_days),
             row.basis,
             tuple(row.flags.splitlines()),
+            row.failed,
         )
         for row in due_queryset(on=on, soon_days=soon_days, show=show, units=units)
+    ]
+
+
+def unit_due_items(unit: Transponder, *, on: dt.date, soon_days: int) -> list[DueItem]:
+    """One unit's stored due items in the unit page's order (one query)."""
+    place = unit.place.name if unit.place else ""
+    return [
+        DueItem(
+            unit.pk,
+            unit.serial,
+            unit.variant.name,
+            place,
+            ItemKind(row.kind),
+            row.key,
+            row.item,
+            row.due_on,
+            classify(row.due_on, on, soon_days),
+            row.basis,
+            tuple(row.flags.splitlines()),
+            row.failed,
+        )
+        for row in DueRow.objects.filter(unit=unit).order_by("position")
     ]
 
 
@@ -177,6 +240,11 @@ _KIND_LABEL = {kind.value: kind.label for kind in ItemKind}
 __all__ = [
     "export_rows",
     "DueTotals",
+    "derived_snapshot",
+    "due_rows_snapshot",
+    "rebuild_all",
+    "refresh_units",
+    "unit_due_items",
     "due_items_stored",
     "due_queryset",
     "due_totals",

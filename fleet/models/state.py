@@ -20,6 +20,9 @@ class UnitState(models.Model):
         Transponder, on_delete=models.CASCADE, primary_key=True, related_name="state"
     )
     refreshed_at = models.DateTimeField()
+    # The unit's last event (a deployment over the side or back, a bench visit opened): every
+    # projection runs from this moment, so stored due dates do not drift with the clock.
+    as_of = models.DateTimeField(null=True, blank=True)
 
     # Time in the water: closed deployments summed; an open one is added at evaluation time.
     immersed_days_closed = models.FloatField(default=0.0)
@@ -114,24 +117,27 @@ class SealState(models.Model):
 
 
 class DueRow(models.Model):
-    """One due item as computed at the unit's last write (or the last rebuild).
+    """One due item, as the engine derives it from the unit's records.
 
-    Fleet-wide lists (the overview, the calendar feed) read these rows and classify them
-    against today's date in SQL, instead of running the engine over every unit per request.
-    A unit page computes its own items live.
+    Rewritten for a unit by every write that touches one of its inputs; its due date runs
+    from the unit's last event, so it stays exact on later days with no write. Every page,
+    feed, export and PDF reads these rows and classifies them against the day in SQL.
     """
 
     unit = models.ForeignKey(Transponder, on_delete=models.CASCADE, related_name="due_rows")
     kind = models.CharField(max_length=16)
+    key = models.CharField(max_length=40)
     item = models.CharField(max_length=160)
     due_on = models.DateField(null=True, blank=True)
     basis = models.TextField()
     flags = models.TextField(blank=True, help_text="One flag per line.")
-    computed_on = models.DateField()
+    failed = models.BooleanField(default=False, help_text="Due because of a fault found.")
+    position = models.PositiveSmallIntegerField(default=0, help_text="Order on the unit page.")
 
     class Meta:
         ordering = ["due_on", "unit_id", "item"]
         indexes = [models.Index(fields=["due_on"], name="duerow_due_on")]
+        constraints = [models.UniqueConstraint(fields=["unit", "key"], name="uniq_due_row_key")]
 
     def __str__(self) -> str:
         return f"{self.item} due {self.due_on}"

@@ -6,7 +6,7 @@ from django.utils import timezone
 from django_tables2 import RequestConfig
 
 from fleet import roles
-from fleet.due.engine import ItemKind
+from fleet.due.items import ItemKind
 from fleet.due.store import due_queryset, due_totals, export_rows
 from fleet.exports import csv_rows_response
 from fleet.forms import DueFilterForm
@@ -55,7 +55,6 @@ def dashboard(request: HttpRequest) -> HttpResponse:
             "form": form,
             "table": table,
             "due": due,
-            "stale": due.oldest_computed_on is not None and due.oldest_computed_on < on,
             "status_rows": status_rows,
             "by_place": by_place,
             "unit_count": sum(by_status.values()),

@@ -10,6 +10,7 @@ from fleet import roles
 from fleet.exports import csv_response
 from fleet.forms import DeploymentForm, RecoveryForm, SiteForm
 from fleet.models import Deployment, Site, Transponder
+from fleet.services.reference import site_save
 from fleet.services.deployments import deployment_recover, deployment_start
 from fleet.tables import DeploymentTable, SiteTable
 
@@ -121,7 +122,7 @@ def _site_form(request: HttpRequest, site: Site) -> HttpResponse:
     form = SiteForm(request.POST or None, instance=site)
     if request.method == "POST":
         if form.is_valid():
-            form.save()
+            site_save(site=form.instance)
             messages.success(request, f"Saved site {site.name}.")
             return redirect(site)
         return render(request, "fleet/site_form.html", {"form": form, "site": site}, status=400)

@@ -1,8 +1,6 @@
 """PDF documents and certificate actions. Each view parses the request, guards, calls a
 ``fleet.documents`` prepare function or service, and serves the bytes."""
 
-import datetime as dt
-
 from django.contrib import messages
 from django.contrib.auth.decorators import login_not_required
 from django.core.exceptions import PermissionDenied, ValidationError
@@ -19,6 +17,7 @@ from fleet.documents.checklist import prepare_checklist, render_checklist
 from fleet.documents.labels import PAPERS, prepare_labels, render_labels
 from fleet.documents.report import RecordOpenError, prepare_report, render_report
 from fleet.documents.services import certificate_issue, certificate_withdraw
+from fleet.forms import PlannedDeploymentForm
 from fleet.models import ReleaseCertificate, ReleaseTest, Site, Transponder, Variant
 
 from .guards import get_record_for_user, get_unit_for_user, require
@@ -55,39 +54,16 @@ def checklist_pdf(request: HttpRequest, serial: str) -> HttpResponse:
     """``?site=<id>&start=YYYY-MM-DD&days=N[&rate=N&step=N]``; any bad parameter is a 400."""
     unit = get_unit_for_user(request, serial)
     now = timezone.now()
-    today = timezone.localdate(now)
-    try:
-        site_id = _int_param(request, "site", 1, 2**62, required=True)
-        raw_start = request.GET.get("start", "").strip()
-        if not raw_start:
-            raise ValueError("Give start as YYYY-MM-DD.")
-        try:
-            start = dt.date.fromisoformat(raw_start)
-        except ValueError:
-            raise ValueError(
-                f"start must be a date as YYYY-MM-DD, not {raw_start[:20]!r}."
-            ) from None
-        if start < today:
-            raise ValueError(f"start must be today ({today}) or later, not {start}.")
-        days = _int_param(request, "days", 1, 3650, required=True)
-        rate = _int_param(request, "rate", 0, 1_000_000, required=False)
-        step = _int_param(request, "step", 1, 9, required=False)
-        site = Site.objects.filter(pk=site_id).first()
-        if site is None:
-            raise ValueError(f"There is no site with id {site_id}.")
-        doc = prepare_checklist(
-            unit,
-            site=site,
-            start=start,
-            days=days,  # type: ignore[arg-type]
-            interrogations_per_day=rate,
-            power_step=step,
-            on=today,
-            at=now,
-            unit_url=request.build_absolute_uri(unit.get_absolute_url()),
-        )
-    except ValueError as exc:
-        return _bad(f"Cannot prepare the checklist: {exc}")
+    form = PlannedDeploymentForm(request.GET, today=timezone.localdate(now))
+    if not form.is_valid():
+        problems = "; ".join(f"{name}: {' '.join(errors)}" for name, errors in form.errors.items())
+        return _bad(f"Cannot prepare the checklist: {problems}")
+    doc = prepare_checklist(
+        unit,
+        form.planned(),
+        at=now,
+        unit_url=request.build_absolute_uri(unit.get_absolute_url()),
+    )
     return _pdf(render_checklist(doc), f"{doc.reference}.pdf")
 
 

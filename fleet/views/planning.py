@@ -14,30 +14,19 @@ from fleet.models import Transponder
 from .guards import get_unit_for_user, require
 
 
-def _now() -> tuple[dt.date, dt.datetime]:
-    at = timezone.now()
-    return timezone.localdate(at), at
+def _today() -> dt.date:
+    return timezone.localdate()
 
 
 def readiness(request: HttpRequest, serial: str) -> HttpResponse:
     unit = get_unit_for_user(request, serial)
-    on, at = _now()
+    on = _today()
     form = PlannedDeploymentForm(request.GET or None, today=on)
     result = None
     status = 200
     if form.is_bound:
         if form.is_valid():
-            data = form.cleaned_data
-            result = readiness_for(
-                unit,
-                site=data["site"],
-                start=data["start"],
-                days=data["days"],
-                interrogations_per_day=data["rate"],
-                power_step=data["step"],
-                on=on,
-                at=at,
-            )
+            result = readiness_for(unit, form.planned(), on=on)
         else:
             status = 400
     return render(
@@ -50,22 +39,13 @@ def readiness(request: HttpRequest, serial: str) -> HttpResponse:
 
 @require(roles.can_read)
 def plan(request: HttpRequest) -> HttpResponse:
-    on, at = _now()
+    on = _today()
     form = PlanForm(request.GET or None, today=on)
     result = None
     status = 200
     if form.is_bound:
         if form.is_valid():
-            data = form.cleaned_data
-            result = plan_campaign(
-                site=data["site"],
-                start=data["start"],
-                days=data["days"],
-                wanted=data["wanted"],
-                interrogations_per_day=data["rate"],
-                on=on,
-                at=at,
-            )
+            result = plan_campaign(form.planned(), wanted=form.cleaned_data["wanted"], on=on)
         else:
             status = 400
     return render(
@@ -78,9 +58,9 @@ def plan(request: HttpRequest) -> HttpResponse:
 
 def _evaluation(request: HttpRequest, serial: str):
     unit = get_unit_for_user(request, serial)
-    on, at = _now()
+    on = _today()
     loaded = fleet_queryset(Transponder.objects.filter(pk=unit.pk)).get()
-    return evaluate_unit(loaded, on=on, at=at), on
+    return evaluate_unit(loaded, on=on), on
 
 
 def _svg(body: str) -> HttpResponse:
@@ -91,7 +71,7 @@ def _svg(body: str) -> HttpResponse:
 
 def anode_chart(request: HttpRequest, serial: str, position_id: int) -> HttpResponse:
     ev, on = _evaluation(request, serial)
-    history = anode_history(ev, position_id, on)
+    history = anode_history(ev, position_id)
     if history is None:
         raise Http404("No such anode position on this unit.")
     chart = charts.Chart(
@@ -121,7 +101,7 @@ def anode_chart(request: HttpRequest, serial: str, position_id: int) -> HttpResp
 
 def battery_chart(request: HttpRequest, serial: str) -> HttpResponse:
     ev, on = _evaluation(request, serial)
-    history = battery_history(ev, on)
+    history = battery_history(ev)
     chart = charts.Chart(title=f"{ev.unit.serial}: battery charge", y_label="Ah left", today=on)
     if history is not None:
         chart.y_max = max(history.usable_ah * 1.05, 0.1)

@@ -1,3 +1,4 @@
+from django.conf import settings
 from django.contrib import messages
 from django.db.models import Max, Prefetch
 from django.http import HttpRequest, HttpResponse
@@ -7,7 +8,7 @@ from django.views.decorators.http import require_http_methods
 from django_tables2 import RequestConfig
 
 from fleet import roles
-from fleet.due.engine import evaluate_unit, fleet_queryset
+from fleet.due.store import unit_due_items
 from fleet.exports import csv_response
 from fleet.filters import UnitFilter
 from fleet.forms import PlannedDeploymentForm, UnitPhotoForm
@@ -106,17 +107,14 @@ def unit_detail(request: HttpRequest, serial: str) -> HttpResponse:
         key=lambda item: item[1],
         reverse=True,
     )
-    at = timezone.now()
-    on = timezone.localdate(at)
-    evaluation = evaluate_unit(
-        fleet_queryset(Transponder.objects.filter(pk=unit.pk)).get(), on=on, at=at
-    )
+    on = timezone.localdate()
+    soon_days = settings.HOLDFAST["DUE_SOON_DAYS"]
     return render(
         request,
         "fleet/unit_detail.html",
         {
             "unit": unit,
-            "due_items": evaluation.items,
+            "due_items": unit_due_items(unit, on=on, soon_days=soon_days),
             "readiness_form": PlannedDeploymentForm(initial={"start": on, "days": 90}, today=on),
             "variant": variant,
             "status_badge": status_badge(unit.status, unit.get_status_display()),

@@ -11,9 +11,10 @@ from fleet.documents.checklist import (
     prepare_checklist,
     render_checklist,
 )
+from fleet.due.planned import PlannedDeployment
 from fleet.models import Site
 from tests.builders import make_site
-from tests.documents.conftest import AT, HOSTILE, ON
+from tests.documents.conftest import AT, HOSTILE
 from tests.documents.helpers import pdf_pages, pdf_text, render_png
 
 pytestmark = pytest.mark.django_db
@@ -28,7 +29,7 @@ def prepare(history, **kwargs):
     kwargs.setdefault("days", 90)
     kwargs.setdefault("interrogations_per_day", 200)
     kwargs.setdefault("power_step", None)
-    return prepare_checklist(history.unit, on=ON, at=AT, unit_url=URL, **kwargs)
+    return prepare_checklist(history.unit, PlannedDeployment(**kwargs), at=AT, unit_url=URL)
 
 
 def test_it_prepares_every_field_for_the_hand_built_history(history):
@@ -64,7 +65,7 @@ def test_it_prepares_every_field_for_the_hand_built_history(history):
         "site 1350 m, rating 1500 m, 10% to spare (want 10%)",
         "margin: common practice, no published source",
     )
-    assert doc.checks[8].numbers == "tested 2026-03-02, valid to 2026-08-29"  # 180 days
+    assert doc.checks[8].numbers == "due 2026-08-29, after recovery 2026-07-09"  # 180 days
     assert doc.checks[12].numbers == "address 101 free at Test site A"
     assert "200 replies a day" in doc.checks[3].numbers
     assert doc.manual_items == (
@@ -172,21 +173,24 @@ def test_every_role_downloads_the_checklist(request, persona, history):
 @pytest.mark.parametrize(
     ("params", "message"),
     [
-        ({"start": "2099-01-01", "days": "30"}, b"Give site."),
-        ({"site": "abc", "start": "2099-01-01", "days": "30"}, b"site must be a whole number"),
-        ({"site": "999999", "start": "2099-01-01", "days": "30"}, b"no site with id 999999"),
-        ({"site": "SITE", "days": "30"}, b"Give start"),
+        ({"start": "FUTURE", "days": "30"}, b"Choose a site."),
+        ({"site": "abc", "start": "FUTURE", "days": "30"}, b"There is no such site."),
+        ({"site": "999999", "start": "FUTURE", "days": "30"}, b"There is no such site."),
+        ({"site": "SITE", "days": "30"}, b"Give the start date."),
         ({"site": "SITE", "start": "2099-13-01", "days": "30"}, b"YYYY-MM-DD"),
         ({"site": "SITE", "start": "2000-01-01", "days": "30"}, b"today"),
-        ({"site": "SITE", "start": "2099-01-01"}, b"Give days."),
-        ({"site": "SITE", "start": "2099-01-01", "days": "0"}, b"between 1 and 3650"),
-        ({"site": "SITE", "start": "2099-01-01", "days": "9999"}, b"between 1 and 3650"),
-        ({"site": "SITE", "start": "2099-01-01", "days": "30", "rate": "-1"}, b"rate"),
-        ({"site": "SITE", "start": "2099-01-01", "days": "30", "step": "12"}, b"step"),
+        ({"site": "SITE", "start": "9999-12-31", "days": "30"}, b"on or before"),
+        ({"site": "SITE", "start": "FUTURE"}, b"Give the planned days."),
+        ({"site": "SITE", "start": "FUTURE", "days": "0"}, b"between 1 and 3650"),
+        ({"site": "SITE", "start": "FUTURE", "days": "9999"}, b"between 1 and 3650"),
+        ({"site": "SITE", "start": "FUTURE", "days": "30", "rate": "-1"}, b"rate"),
+        ({"site": "SITE", "start": "FUTURE", "days": "30", "step": "12"}, b"step"),
     ],
 )
 def test_bad_parameters_are_a_400_with_a_message(as_viewer, history, params, message):
-    params = {k: (history.site.pk if v == "SITE" else v) for k, v in params.items()}
+    future = (timezone.localdate() + dt.timedelta(days=30)).isoformat()
+    swap = {"SITE": history.site.pk, "FUTURE": future}
+    params = {k: swap.get(v, v) for k, v in params.items()}
     response = as_viewer.get(url(**params))
     assert response.status_code == 400
     assert message in response.content

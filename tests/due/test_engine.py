@@ -56,7 +56,7 @@ def deploy(unit, site, by, start, end=None, *, per_day=500, replies=None):
 
 def evaluate(unit):
     fresh = fleet_queryset(Transponder.objects.filter(pk=unit.pk)).get()
-    return evaluate_unit(fresh, on=ON, at=AT)
+    return evaluate_unit(fresh, on=ON)
 
 
 def item(ev, label):
@@ -107,10 +107,12 @@ def test_two_readings_fit_the_wear_against_immersed_days(unit, site, technician)
     assert p.fit.rate_source == "fit"
     # Threshold 50 % of 400 g = 200 g; at 370 g on immersed day 200 -> 850 more immersed days.
     assert p.remaining_immersed_days == pytest.approx(850.0, rel=1e-6)
-    # Out of the water since August at 200 immersed of ~220 calendar days: spread accordingly.
+    # Projected from the last event, the visit of 10 August: 200 immersed days of the 221
+    # calendar days since the first deployment, so 850 immersed days are 850 × 221 / 200
+    # calendar days from then, whatever day it is computed on.
     anode = item(ev, "Anode: Anode 1")
-    fraction = ev.duty.fraction
-    assert anode.due_on == ON + dt.timedelta(days=int(850.0 / fraction))
+    assert ev.duty.fraction == pytest.approx(200 / 221, rel=1e-3)
+    assert anode.due_on == (t(2025, 8, 10) + dt.timedelta(days=850.0 * 221 / 200)).date()
     # design 0.06 g/day vs fitted 0.2 g/day: more than 1.5x -> flagged
     assert any("design rate" in f for f in anode.flags)
 
@@ -315,10 +317,10 @@ def test_the_engine_reads_a_fleet_in_a_constant_number_of_queries(
     # Expect 6 queries: units joined with variant, place and state rows; anode states;
     # seal states; the variants' anode positions, seal positions and reply charge steps.
     with django_assert_max_num_queries(6):
-        small = evaluate_fleet(on=ON, at=AT)
+        small = evaluate_fleet(on=ON)
     build(190, 10)
     with django_assert_max_num_queries(6):
-        large = evaluate_fleet(on=ON, at=AT)
+        large = evaluate_fleet(on=ON)
     assert len(small) == 10
     assert len(large) == 200
 

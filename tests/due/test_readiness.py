@@ -4,6 +4,7 @@ import datetime as dt
 
 import pytest
 
+from fleet.due.planned import PlannedDeployment
 from fleet.due.readiness import Verdict, plan_campaign, readiness_for
 from fleet.models import (
     AnodeReading,
@@ -15,7 +16,7 @@ from fleet.models import (
     UnitStatus,
 )
 from tests.builders import make_site, make_unit
-from tests.due.test_engine import AT, ON, deploy, t, visit
+from tests.due.test_engine import ON, deploy, t, visit
 
 pytestmark = pytest.mark.django_db
 
@@ -86,7 +87,7 @@ def verdicts(result):
 def test_a_freshly_serviced_unit_passes_every_check(unit, site, technician):
     serviced(unit, technician)
     result = readiness_for(
-        unit, site=site, start=START, days=60, interrogations_per_day=2000, on=ON, at=AT
+        unit, PlannedDeployment(site, START, 60, interrogations_per_day=2000), on=ON
     )
     failing = {
         n: c.numbers for n, c in ((c.name, c) for c in result.checks) if c.verdict != Verdict.PASS
@@ -99,7 +100,7 @@ def test_a_freshly_serviced_unit_passes_every_check(unit, site, technician):
 
 def test_every_check_states_its_numbers_and_source(unit, site, technician):
     serviced(unit, technician)
-    result = readiness_for(unit, site=site, start=START, days=60, on=ON, at=AT)
+    result = readiness_for(unit, PlannedDeployment(site, START, 60), on=ON)
     names = [c.name for c in result.checks]
     for expected in (
         "Depth rating",
@@ -125,7 +126,7 @@ def test_every_check_states_its_numbers_and_source(unit, site, technician):
 def test_a_site_deeper_than_the_rating_fails(unit, technician):
     serviced(unit, technician)
     deep = make_site(name="Deep hole", water_depth_m=2500.0)
-    result = readiness_for(unit, site=deep, start=START, days=30, on=ON, at=AT)
+    result = readiness_for(unit, PlannedDeployment(deep, START, 30), on=ON)
     assert verdicts(result)["Depth rating"] == Verdict.FAIL
     # The test at 1900 dbar does not cover 2500 m x 1.25 either.
     assert verdicts(result)["Pressure test"] == Verdict.FAIL
@@ -134,7 +135,7 @@ def test_a_site_deeper_than_the_rating_fails(unit, technician):
 def test_a_long_job_at_a_high_reply_rate_runs_the_battery_flat(unit, site, technician):
     serviced(unit, technician)
     result = readiness_for(
-        unit, site=site, start=START, days=365, interrogations_per_day=100_000, on=ON, at=AT
+        unit, PlannedDeployment(site, START, 365, interrogations_per_day=100_000), on=ON
     )
     battery = next(c for c in result.checks if c.name == "Battery")
     assert battery.verdict == Verdict.FAIL
@@ -144,7 +145,7 @@ def test_a_long_job_at_a_high_reply_rate_runs_the_battery_flat(unit, site, techn
 
 def test_seals_that_fall_due_during_the_job_fail(unit, site, technician):
     serviced(unit, technician, when=t(2026, 1, 10))  # 12-month seals lapse 2027-01-10
-    result = readiness_for(unit, site=site, start=START, days=90, on=ON, at=AT)
+    result = readiness_for(unit, PlannedDeployment(site, START, 90), on=ON)
     assert verdicts(result)["Seal: Seal 1"] == Verdict.FAIL
 
 
@@ -154,15 +155,20 @@ def test_an_address_already_in_use_at_the_site_fails(unit, site, technician, var
         serial="TX-0002", acoustic_address=unit.acoustic_address, variant=variant, place=workshop
     )
     deploy(other, site, technician, t(2026, 11, 1))
-    result = readiness_for(unit, site=site, start=START, days=30, on=ON, at=AT)
+    result = readiness_for(unit, PlannedDeployment(site, START, 30), on=ON)
     address = next(c for c in result.checks if c.name == "Acoustic address")
     assert address.verdict == Verdict.FAIL
     assert "TX-0002" in address.numbers
 
 
+def test_a_start_beyond_the_planning_horizon_is_refused_not_overflowed(site):
+    with pytest.raises(ValueError, match="on or before"):
+        PlannedDeployment(site, dt.date(9999, 12, 31), 3650).check_start(ON)
+
+
 def test_a_start_in_the_past_is_refused(unit, site):
     with pytest.raises(ValueError, match="start must be today"):
-        readiness_for(unit, site=site, start=ON - dt.timedelta(days=1), days=30, on=ON, at=AT)
+        PlannedDeployment(site, ON - dt.timedelta(days=1), 30).check_start(ON)
 
 
 def test_the_planner_ranks_by_margin_and_explains_rejects(variant, workshop, site, technician):
@@ -184,7 +190,7 @@ def test_the_planner_ranks_by_margin_and_explains_rejects(variant, workshop, sit
     c = make_unit(
         serial="TX-C", acoustic_address="3", variant=variant, place=workshop
     )  # nothing recorded
-    plan = plan_campaign(site=site, start=START, days=60, wanted=3, on=ON, at=AT)
+    plan = plan_campaign(PlannedDeployment(site, START, 60), wanted=3, on=ON)
     assert [r.unit.serial for r in plan.ready] == [a.serial, b.serial]
     assert [r.unit.serial for r in plan.rejected] == [c.serial]
     assert plan.rejected[0].first_failure.name == "Pressure test"
@@ -198,7 +204,7 @@ def test_the_planner_never_sends_two_units_with_one_address(variant, workshop, s
     second = serviced(
         make_unit(serial="TX-B", acoustic_address="7", variant=variant, place=workshop), technician
     )
-    plan = plan_campaign(site=site, start=START, days=30, wanted=2, on=ON, at=AT)
+    plan = plan_campaign(PlannedDeployment(site, START, 30), wanted=2, on=ON)
     assert [r.unit.serial for r in plan.ready] == [first.serial]
     assert [r.unit.serial for r in plan.rejected] == [second.serial]
     reason = plan.rejected[0].first_failure
@@ -209,7 +215,7 @@ def test_the_planner_never_sends_two_units_with_one_address(variant, workshop, s
 def test_the_plan_counts_what_keeps_units_back(variant, workshop, site, technician):
     make_unit(serial="TX-X", acoustic_address="11", variant=variant, place=workshop)
     make_unit(serial="TX-Y", acoustic_address="12", variant=variant, place=workshop)
-    plan = plan_campaign(site=site, start=START, days=30, wanted=1, on=ON, at=AT)
+    plan = plan_campaign(PlannedDeployment(site, START, 30), wanted=1, on=ON)
     blockers = dict(plan.blockers)
     # Nothing recorded on either: no pressure test, no pack, no release test, for both.
     assert blockers["Pressure test"] == 2

@@ -36,7 +36,7 @@ def test_the_readiness_form_rejects_a_past_start(as_viewer, unit, site):
     )
     assert response.status_code == 400
     body = response.content.decode()
-    assert "The deployment must start today or later." in body
+    assert "The start must be today" in body
     assert "Enter a whole number." in body
 
 
@@ -84,7 +84,7 @@ def test_the_overview_lists_overdue_items_and_exports_them(as_viewer, unit, tech
     )
     body = as_viewer.get("/").content.decode()
     assert "Anode: Anode 1" in body
-    assert "at or below the replace-at mass now" in body
+    assert "at or below the replace-at mass when read on 2026-01-05" in body
     csv_body = as_viewer.get("/", {"export": "csv"}).content.decode("utf-8-sig")
     assert "Anode: Anode 1" in csv_body
     assert "Overdue" in csv_body

@@ -28,7 +28,7 @@ from django.utils import timezone
 
 from fleet import roles
 from fleet.due.engine import due_items, evaluate_fleet
-from fleet.due.state import rebuild_all
+from fleet.due.store import rebuild_all
 from fleet.models import (
     AnodePosition,
     AnodeReading,
@@ -100,7 +100,7 @@ class Command(BaseCommand):
         on = timezone.localdate(now)
 
         def engine():
-            due_items(evaluate_fleet(on=on, at=now))
+            due_items(evaluate_fleet(on=on))
 
         client = Client(HTTP_HOST="localhost")
         client.force_login(get_user_model().objects.get(username="bench-viewer"))

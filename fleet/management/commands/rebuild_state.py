@@ -1,12 +1,13 @@
 """Recompute every unit's derived state (anode wear sums, seal openings, battery tally, last
-tests) from the records. The write services keep it current; run this after a bulk import
-or a restore, or to check nothing has drifted (``--check``)."""
+tests) and its stored due items from the records. The write services keep both current;
+run this after a bulk import, a restore or a change of the settings' rules, or to prove
+nothing differs (``--check``: exits non-zero on any difference)."""
 
 from django.core.management.base import BaseCommand, CommandError
 from django.utils import timezone
 
-from fleet.due.snapshot import state_snapshot
-from fleet.due.state import rebuild_all
+from fleet.due.snapshot import differences, state_snapshot
+from fleet.due.store import rebuild_all
 
 
 class Command(BaseCommand):
@@ -32,7 +33,11 @@ class Command(BaseCommand):
             rebuild_all(at=at)
             after = state_snapshot()
             transaction.set_rollback(True)
-        differences = sorted(set(before.items()) ^ set(after.items()))
-        if differences:
-            raise CommandError(f"derived state differs from the records in {len(differences)} rows")
-        self.stdout.write(f"derived state matches the records ({len(after)} rows)")
+        lines = differences(before, after)
+        if lines:
+            for line in lines[:20]:
+                self.stderr.write(line)
+            raise CommandError(
+                f"stored state and due items differ from a rebuild in {len(lines)} rows"
+            )
+        self.stdout.write(f"stored state and due items match a rebuild ({len(after)} rows)")

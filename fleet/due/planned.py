@@ -1,0 +1,52 @@
+"""A planned deployment: where a unit would go, from when, for how long, at what duty.
+
+Built once (by ``forms.PlannedDeploymentForm.planned()`` or a service) and passed down whole
+to readiness, the planner and the checklist, so its limits are stated in one place.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from dataclasses import dataclass
+
+from fleet.models import Site
+
+MAX_DAYS = 3650  # ten years: longer than any pack lasts in the water
+MAX_INTERROGATIONS_PER_DAY = 1_000_000
+POWER_STEPS = (1, 9)
+# How far ahead a deployment can be planned; further out nothing the records say still holds.
+PLANNING_HORIZON_DAYS = 5 * 366
+
+
+@dataclass(frozen=True, slots=True)
+class PlannedDeployment:
+    site: Site
+    start: dt.date
+    days: int
+    interrogations_per_day: int | None = None  # None: the unit's own recent duty
+    power_step: int | None = None  # None: the unit's own setting
+
+    def __post_init__(self) -> None:
+        if not 1 <= self.days <= MAX_DAYS:
+            raise ValueError(f"days must be between 1 and {MAX_DAYS}, not {self.days}")
+        rate = self.interrogations_per_day
+        if rate is not None and not 0 <= rate <= MAX_INTERROGATIONS_PER_DAY:
+            raise ValueError(
+                f"interrogations a day must be between 0 and {MAX_INTERROGATIONS_PER_DAY}, "
+                f"not {rate}"
+            )
+        lo, hi = POWER_STEPS
+        if self.power_step is not None and not lo <= self.power_step <= hi:
+            raise ValueError(f"power step must be between {lo} and {hi}, not {self.power_step}")
+
+    @property
+    def end(self) -> dt.date:
+        return self.start + dt.timedelta(days=self.days)
+
+    def check_start(self, today: dt.date) -> None:
+        """Refuse a start in the past or beyond the planning horizon."""
+        if self.start < today:
+            raise ValueError(f"the start must be today ({today}) or later, not {self.start}")
+        latest = today + dt.timedelta(days=PLANNING_HORIZON_DAYS)
+        if self.start > latest:
+            raise ValueError(f"the start must be on or before {latest}, not {self.start}")

@@ -10,8 +10,8 @@ from fleet import roles
 from fleet.exports import csv_response
 from fleet.forms import DeploymentForm, RecoveryForm, SiteForm
 from fleet.models import Deployment, Site, Transponder
-from fleet.services.reference import site_save
 from fleet.services.deployments import deployment_recover, deployment_start
+from fleet.services.reference import site_save
 from fleet.tables import DeploymentTable, SiteTable
 
 from .guards import get_deployment_for_user, get_site_for_user, require

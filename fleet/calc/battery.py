@@ -9,9 +9,36 @@ Depletion estimate (physics, reference notes 5.5):
 
 - Ah per year = I_listen x 8760 h + replies/yr x I_tx x t_tx / 3600 + releases/yr x
   I_m x t_m / 3600 + self-discharge Ah/yr.
-- Usable capacity = C_nominal x f_T(T) x f_rate x (1 - age_years x k_sd), with
+- Usable capacity = C_nominal x f_T(T) x f_rate x (1 - age_years x k_sd(T_storage)), with
   C_nominal = parallel strings x cell capacity.
 - Life = usable capacity / (Ah per year).
+
+Self-discharge has its own temperature law, separate from the capacity derating f_T:
+
+1. k_sd(T) = k_sd(20 degC) x exp(-Ea/R x (1/T - 1/T_20)), T in kelvin.  This is the
+   Arrhenius equation (IUPAC Gold Book, "Arrhenius equation": k = A exp(-Ea/RT)) written
+   as a ratio to the rate at 20 degC, so the pre-exponential factor cancels.
+2. R = N_A k = 8.314462618... J/(mol K), the molar gas constant (CODATA 2018; exact
+   since the 2019 SI redefinition).
+3. Ea: per-chemistry activation energies for self-discharge were not confirmed, so every
+   chemistry uses one common value, ``SELF_DISCHARGE_ACTIVATION_ENERGY_J_MOL``, chosen so
+   the rate exactly doubles from 20 to 30 degC: Ea = R ln 2 / (1/293.15 - 1/303.15) =
+   51.2 kJ/mol.  That is the rule of thumb "chemical rates roughly double per +10 K"
+   (common practice, from memory; reference notes 5.5).  A chemistry can carry its own
+   value in ``Chemistry.self_discharge_activation_energy_j_mol`` once one is sourced.
+4. Worked number: Li/SOCl2 bobbin, 1 %/yr at 20 degC -> 2 %/yr at 30 degC and
+   0.297 %/yr at 4 degC.  Multiplying the 20 degC rate by the *capacity* derating f_T
+   instead (as a pack's self-discharge was once estimated) is wrong: f_T is 1.0 at room
+   temperature and above, so it never raises self-discharge in warm storage, and in cold
+   water it lowers it by a few percent where the Arrhenius law gives a factor of ~3.
+
+High drain: the capacity a cell delivers falls with current.  For a chemistry with a
+D-cell capacity-vs-current curve (Li/SOCl2, Linden Fig. 14.17), ``rate_factor_at_current``
+= C(I_string) / C(``D_CELL_REFERENCE_CURRENT_A``), with I_string = pack current / parallel
+strings, and 1.0 at or below the reference current.  The reference is the curve's peak
+(4 mA, 19.0 Ah); below it the handbook capacity falls only because the slow test spans
+years of self-discharge, which the age term already counts.  The curve is for a D-size
+cell at 25 degC; applied to another cell size it is an approximation.
 
 Open-circuit voltage is **not** a reliable gauge of state of charge: it recovers after a
 load and depends on history; Li/SOCl2 stays on a flat plateau until nearly exhausted.
@@ -41,6 +68,25 @@ from fleet.calc._checks import (
 
 HOURS_PER_YEAR: Final = 8760.0
 DAYS_PER_YEAR: Final = 365.0
+# Mean calendar year for rates per day (Julian year, IAU): the rules layer counts ages
+# in days / 365.25, and a daily self-discharge uses the same year.
+DAYS_PER_MEAN_YEAR: Final = 365.25
+
+# Molar gas constant R = N_A x k, exact in the 2019 SI (CODATA 2018 prints 8.314462618...).
+GAS_CONSTANT_J_MOL_K: Final = 6.02214076e23 * 1.380649e-23
+ZERO_CELSIUS_K: Final = 273.15
+SELF_DISCHARGE_REFERENCE_C: Final = 20.0
+# One activation energy for all chemistries: the rate doubles from 20 to 30 degC (rule of
+# thumb "x2 per +10 K", common practice, from memory).  = 51216 J/mol.
+SELF_DISCHARGE_ACTIVATION_ENERGY_J_MOL: Final = (
+    GAS_CONSTANT_J_MOL_K * math.log(2.0) / (1.0 / 293.15 - 1.0 / 303.15)
+)
+# Li/SOCl2 D cell: the handbook curve's peak (560 ohm, ~4 mA, 19.0 Ah), the low-drain
+# current against which a high-drain duty is compared (Linden Fig. 14.17).
+D_CELL_REFERENCE_CURRENT_A: Final = 0.004
+# Domains forms can import (lo, hi).  Each chemistry's own temperature range is
+# ``temperature_range_c(key)``; this is the union over the chemistries held here.
+AGE_RANGE_YEARS: Final = (0.0, 50.0)
 
 
 @dataclass(frozen=True, slots=True)
@@ -65,6 +111,8 @@ class Chemistry:
     # D-size cell capacity vs steady current at 25 degC (current A, capacity Ah).
     d_cell_rate_curve: tuple[tuple[float, float], ...] = ()
     source: str = ""
+    # Arrhenius activation energy of self-discharge; the common value unless sourced.
+    self_discharge_activation_energy_j_mol: float = SELF_DISCHARGE_ACTIVATION_ENERGY_J_MOL
 
 
 CHEMISTRIES: Final[dict[str, Chemistry]] = {
@@ -138,9 +186,25 @@ CHEMISTRIES: Final[dict[str, Chemistry]] = {
 }  # fmt: skip
 
 
+BATTERY_TEMPERATURE_RANGE_C: Final = (
+    min(c.temperature_curve[0][0] for c in CHEMISTRIES.values()),
+    max(c.temperature_curve[-1][0] for c in CHEMISTRIES.values()),
+)
+
+
 def chemistry(key: str) -> Chemistry:
     """Look up a chemistry by key: "alkaline_zn_mno2", "li_socl2_bobbin", "li_mno2"."""
     return CHEMISTRIES[require_choice("chemistry", key, CHEMISTRIES)]
+
+
+def temperature_range_c(chemistry_key: str) -> tuple[float, float]:
+    """The (lo, hi) degC a chemistry's figures cover: the ends of its derating curve.
+
+    Every temperature argument of this module is refused outside it, so a form can offer
+    the same limits.  Example: "li_socl2_bobbin" -> (-40.0, 85.0).
+    """
+    curve = chemistry(chemistry_key).temperature_curve
+    return curve[0][0], curve[-1][0]
 
 
 def _interp(points: tuple[tuple[float, float], ...], x: float) -> float:
@@ -211,18 +275,103 @@ class PackSpec:
         return self.parallel_strings * self.cell_capacity_ah
 
 
-def usable_capacity_ah(
-    pack: PackSpec, temperature_c: float, age_years: float, rate_factor: float = 1.0
-) -> float:
-    """Usable capacity = C_nominal x f_T(T) x f_rate x (1 - age x k_sd), floored at 0.
+def self_discharge_factor(chemistry_key: str, temperature_c: float) -> float:
+    """Self-discharge rate at ``temperature_c`` relative to 20 degC (Arrhenius).
 
-    ``age_years`` is the pack's age since manufacture at the start of the deployment.
-    Example: one Li/SOCl2 D cell, 19 Ah, 20 degC, 2 years -> 19 x 1.0 x 0.98 = 18.62 Ah.
+    exp(-Ea/R x (1/T - 1/293.15 K)); IUPAC Gold Book "Arrhenius equation", Ea from the
+    doubling-per-10-K rule (module docstring).  1.0 at 20 degC, rising with temperature.
+    Example: 30 degC -> 2.0; 4 degC -> 0.297.
+    """
+    chem = chemistry(chemistry_key)
+    lo, hi = temperature_range_c(chemistry_key)
+    t = require_range("temperature_c", temperature_c, lo, hi, unit="degC")
+    t_k = t + ZERO_CELSIUS_K
+    t_ref_k = SELF_DISCHARGE_REFERENCE_C + ZERO_CELSIUS_K
+    ea_over_r = chem.self_discharge_activation_energy_j_mol / GAS_CONSTANT_J_MOL_K
+    return math.exp(-ea_over_r * (1.0 / t_k - 1.0 / t_ref_k))
+
+
+def self_discharge_fraction_per_year(chemistry_key: str, temperature_c: float) -> float:
+    """Fraction of nominal capacity lost per year in storage at ``temperature_c``:
+    k_sd(20 degC) x ``self_discharge_factor``.
+
+    Example: Li/SOCl2 bobbin (1 %/yr at 20 degC, from memory of Linden ch. 14) at 30 degC
+    -> 0.02 per year; at 4 degC -> 0.00297 per year.
+    """
+    rate_20 = chemistry(chemistry_key).self_discharge_per_year
+    return rate_20 * self_discharge_factor(chemistry_key, temperature_c)
+
+
+def self_discharge_ah_per_day(pack: PackSpec, temperature_c: float) -> float:
+    """Charge a pack loses to self-discharge per day at ``temperature_c``:
+    C_nominal x k_sd(T) / 365.25.
+
+    Example: 2 strings of 19 Ah Li/SOCl2 at 30 degC -> 38 x 0.02 / 365.25 = 2.081 mAh/day.
+    """
+    fraction = self_discharge_fraction_per_year(pack.chemistry, temperature_c)
+    return pack.nominal_capacity_ah * fraction / DAYS_PER_MEAN_YEAR
+
+
+def rate_factor_at_current(pack: PackSpec, mean_load_current_a: float) -> float:
+    """Capacity fraction left by a steady pack current, from the D-cell rate curve:
+    C(I / strings) / C(``D_CELL_REFERENCE_CURRENT_A``), 1.0 at or below the reference.
+
+    Linden's Handbook 4th ed. Fig. 14.17.  Only chemistries with a rate curve (Li/SOCl2
+    bobbin) accept it.  Example: 2 strings drawing 40 mA (20 mA each) -> 13.5 / 19.0 =
+    0.711.
+    """
+    curve = pack.chem.d_cell_rate_curve
+    if not curve:
+        with_curve = ", ".join(k for k, c in CHEMISTRIES.items() if c.d_cell_rate_curve)
+        raise ValueError(
+            f"mean_load_current_a must be left out for a chemistry without a D-cell rate "
+            f"curve (only {with_curve} has one), got {pack.chemistry!r}"
+        )
+    hi = curve[-1][0] * pack.parallel_strings
+    current = require_range("mean_load_current_a", mean_load_current_a, 0.0, hi, unit="A")
+    per_string = current / pack.parallel_strings
+    if per_string <= D_CELL_REFERENCE_CURRENT_A:
+        return 1.0
+    reference = d_cell_capacity_ah(pack.chemistry, D_CELL_REFERENCE_CURRENT_A)
+    return min(1.0, d_cell_capacity_ah(pack.chemistry, per_string) / reference)
+
+
+def usable_capacity_ah(
+    pack: PackSpec,
+    temperature_c: float,
+    age_years: float,
+    rate_factor: float = 1.0,
+    *,
+    storage_temperature_c: float | None = None,
+    mean_load_current_a: float | None = None,
+) -> float:
+    """Usable capacity = C_nominal x f_T(T) x f_rate x (1 - age x k_sd(T_storage)),
+    floored at 0.
+
+    ``age_years`` is the pack's age since manufacture at the start of the deployment;
+    ``storage_temperature_c`` is where it sat meanwhile (default 20 degC, the rate's
+    reference, which keeps the old result).  ``mean_load_current_a`` (pack total) sets
+    f_rate from the D-cell curve (``rate_factor_at_current``) in place of ``rate_factor``;
+    give one or the other.
+    Example: one Li/SOCl2 D cell, 19 Ah, 20 degC, 2 years -> 19 x 1.0 x 0.98 = 18.62 Ah;
+    stored those 2 years at 30 degC -> 19 x (1 - 2 x 0.02) = 18.24 Ah.
     """
     f_t = temperature_factor(pack.chemistry, temperature_c)
-    age = require_range("age_years", age_years, 0.0, 50.0, unit="years")
+    age = require_range("age_years", age_years, *AGE_RANGE_YEARS, unit="years")
     f_rate = require_range("rate_factor", rate_factor, 0.0, 1.0, lo_open=True)
-    shelf = max(0.0, 1.0 - age * pack.chem.self_discharge_per_year)
+    if mean_load_current_a is not None:
+        if rate_factor != 1.0:
+            raise ValueError(
+                f"rate_factor must be left at 1 when mean_load_current_a is given, "
+                f"got {rate_factor!r}"
+            )
+        f_rate = rate_factor_at_current(pack, mean_load_current_a)
+    k_sd = pack.chem.self_discharge_per_year  # at 20 degC
+    if storage_temperature_c is not None:
+        lo, hi = temperature_range_c(pack.chemistry)
+        stored = require_range("storage_temperature_c", storage_temperature_c, lo, hi, unit="degC")
+        k_sd = self_discharge_fraction_per_year(pack.chemistry, stored)
+    shelf = max(0.0, 1.0 - age * k_sd)
     return pack.nominal_capacity_ah * f_t * f_rate * shelf
 
 

@@ -2,7 +2,23 @@
 
 Slant range: r = c (t_two_way - t_turnaround) / 2, where t_turnaround is the fixed delay
 the transponder waits before replying, and c the harmonic-mean sound speed along the path.
-Horizontal range from a known depth difference: sqrt(r^2 - dz^2).
+Horizontal range from a known depth difference: sqrt(r^2 - dz^2); the other way round,
+a planned geometry gives the slant range sqrt(dz^2 + x^2) (``slant_range_from_offset_m``).
+
+Reply timing (``reply_timing``) for a planned interrogation geometry, straight-ray, one
+sound speed (the harmonic mean along the path where known), times from the start of the
+interrogation:
+
+1. the reply arrives at t_a = 2 r / c + t_turnaround;
+2. the interrogator hears nothing during its receive blanking after transmit, so the
+   reply must arrive no earlier than ``blanking_s``: r >= c (blanking - t_turnaround) / 2;
+3. the whole reply (``reply_pulse_s`` long) must end no later than the next
+   interrogation, ``ping_interval_s`` after this one:
+   r <= c (ping_interval - t_turnaround - reply_pulse) / 2;
+4. the verdict lists each failed condition with the slant range limit it implies.
+Example: c 1500 m/s, 3000 m slant, 12.5 ms turnaround -> arrival 4.0125 s; with a 10 ms
+reply, 0.1 s blanking and a 5 s ping interval the reply ends at 4.0225 s and fits; the
+ranges that fit run from 65.625 m to 3733.125 m.
 
 Absorption: Francois & Garrison (1982) JASA 72(3) 896-907 and 72(6) 1879-1890, and the
 simpler Ainslie & McColm (1998) JASA 103(3) 1671-1672, which stays within about 10 % of
@@ -19,18 +35,32 @@ SL - TL - (NL - DI) - DT; positive means the reply should be detected.
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
+from typing import Final
 
 from fleet.calc._checks import require_non_negative, require_range
 
 _MAX_RANGE_M = 100_000.0
+# Times are compared to 1 ns, so a range computed from a limit itself still fits despite
+# rounding (1 ns is 0.75 um of slant range at 1500 m/s).
+_TIME_EPS_S = 1e-9
+
+# Domains forms can import (lo, hi).
+SOUND_SPEED_RANGE_M_S: Final = (1300.0, 1800.0)
+TURNAROUND_RANGE_S: Final = (0.0, 10.0)
+RANGE_RANGE_M: Final = (0.0, _MAX_RANGE_M)
+DEPTH_DIFFERENCE_RANGE_M: Final = (-11000.0, 11000.0)
+PING_INTERVAL_RANGE_S: Final = (0.0, 600.0)  # open at 0
+BLANKING_RANGE_S: Final = (0.0, 600.0)
+REPLY_PULSE_RANGE_S: Final = (0.0, 10.0)
 
 
 def _c(value: float) -> float:
-    return require_range("sound_speed_m_s", value, 1300.0, 1800.0, unit="m/s")
+    return require_range("sound_speed_m_s", value, *SOUND_SPEED_RANGE_M_S, unit="m/s")
 
 
 def _turnaround(value: float) -> float:
-    return require_range("turnaround_s", value, 0.0, 10.0, unit="s")
+    return require_range("turnaround_s", value, *TURNAROUND_RANGE_S, unit="s")
 
 
 def slant_range_m(two_way_time_s: float, turnaround_s: float, sound_speed_m_s: float) -> float:
@@ -52,7 +82,7 @@ def two_way_time_s(range_m: float, turnaround_s: float, sound_speed_m_s: float) 
 
     Example: 1000 m, turnaround 12.5 ms, c 1500 m/s -> 1.345833 s.
     """
-    r = require_range("range_m", range_m, 0.0, _MAX_RANGE_M, unit="m")
+    r = require_range("range_m", range_m, *RANGE_RANGE_M, unit="m")
     return 2.0 * r / _c(sound_speed_m_s) + _turnaround(turnaround_s)
 
 
@@ -80,6 +110,83 @@ def horizontal_range_m(slant_m: float, depth_difference_m: float) -> float:
     r = require_non_negative("slant_m", slant_m, unit="m")
     dz = abs(require_range("depth_difference_m", depth_difference_m, -r, r, unit="m"))
     return math.sqrt(r * r - dz * dz)
+
+
+def slant_range_from_offset_m(depth_difference_m: float, horizontal_offset_m: float) -> float:
+    """Slant range sqrt(dz^2 + x^2) for a planned geometry (Pythagoras, straight ray):
+    ``depth_difference_m`` between the transceiver and the unit, ``horizontal_offset_m``
+    of the transceiver from the point above the unit.
+
+    Example: 2400 m below the transceiver, 1800 m off -> 3000 m.
+    """
+    dz = require_range(
+        "depth_difference_m", depth_difference_m, *DEPTH_DIFFERENCE_RANGE_M, unit="m"
+    )
+    x = require_range("horizontal_offset_m", horizontal_offset_m, *RANGE_RANGE_M, unit="m")
+    return math.hypot(dz, x)
+
+
+@dataclass(frozen=True, slots=True)
+class ReplyTiming:
+    fits: bool
+    slant_range_m: float
+    arrival_s: float  # 2 r / c + turnaround, from the start of the interrogation
+    reply_end_s: float  # arrival + reply pulse
+    window_opens_s: float  # end of the receive blanking
+    window_closes_s: float  # the next interrogation
+    min_slant_range_m: float  # nearest slant range whose reply clears the blanking
+    max_slant_range_m: float  # farthest whose reply ends before the next interrogation; < 0: none
+    reasons: tuple[str, ...]
+
+
+def reply_timing(
+    slant_range_m: float,
+    sound_speed_m_s: float,
+    turnaround_s: float,
+    ping_interval_s: float,
+    blanking_s: float,
+    reply_pulse_s: float,
+) -> ReplyTiming:
+    """Is the reply distinguishable for this geometry and interrogation cycle?  Rules in
+    the module docstring (travel-time physics; the blanking and interval are settings of
+    the interrogator).
+
+    Example: 3000 m, 1500 m/s, 12.5 ms turnaround, 5 s interval, 0.1 s blanking, 10 ms
+    reply -> arrival 4.0125 s, ends 4.0225 s: fits; limits 65.625-3733.125 m.
+    """
+    r = require_range("slant_range_m", slant_range_m, *RANGE_RANGE_M, unit="m")
+    c = _c(sound_speed_m_s)
+    tat = _turnaround(turnaround_s)
+    interval = require_range(
+        "ping_interval_s", ping_interval_s, *PING_INTERVAL_RANGE_S, lo_open=True, unit="s"
+    )
+    blank = require_range("blanking_s", blanking_s, *BLANKING_RANGE_S, unit="s")
+    pulse = require_range("reply_pulse_s", reply_pulse_s, *REPLY_PULSE_RANGE_S, unit="s")
+    if blank >= interval:
+        raise ValueError(
+            f"blanking_s must be shorter than ping_interval_s ({interval:g} s), got {blanking_s!r}"
+        )
+
+    arrival = 2.0 * r / c + tat
+    end = arrival + pulse
+    min_r = c * max(0.0, blank - tat) / 2.0
+    max_r = c * (interval - tat - pulse) / 2.0
+    reasons: list[str] = []
+    if arrival < blank - _TIME_EPS_S:
+        reasons.append(
+            f"reply arrives {arrival:.4f} s after the interrogation, inside the receive "
+            f"blanking of {blank:g} s: at this turnaround a slant range under {min_r:.1f} m "
+            "is not heard; lengthen the turnaround or shorten the blanking"
+        )
+    if end > interval + _TIME_EPS_S:
+        limit = (
+            f"only slant ranges up to {max_r:.1f} m fit" if max_r >= 0.0 else "no slant range fits"
+        )
+        reasons.append(
+            f"reply ends {end:.4f} s after the interrogation, after the next one at "
+            f"{interval:g} s: {limit}; lengthen the ping interval"
+        )
+    return ReplyTiming(not reasons, r, arrival, end, blank, interval, min_r, max_r, tuple(reasons))
 
 
 def _absorption_args(

@@ -22,6 +22,7 @@ B: Final = -5.775e-7
 C: Final = -4.183e-12
 T_MIN_C: Final = -200.0
 T_MAX_C: Final = 850.0
+PT100_R0_OHM: Final = 100.0
 
 ToleranceClass = Literal["AA", "A", "B", "C"]
 ElementType = Literal["wire_wound", "film"]
@@ -56,17 +57,32 @@ def _cvd(t: float) -> float:
     return ratio
 
 
-def resistance_ohm(temperature_c: float, r0_ohm: float = 100.0) -> float:
+# Domains forms can import (lo, hi): the CVD equation's range and a Pt100's resistance
+# over it, 18.5201-390.4811 ohm (IEC 60751 Table 1 prints 18.52 and 390.48).
+TEMPERATURE_RANGE_C: Final = (T_MIN_C, T_MAX_C)
+PT100_RESISTANCE_RANGE_OHM: Final = (PT100_R0_OHM * _cvd(T_MIN_C), PT100_R0_OHM * _cvd(T_MAX_C))
+
+
+def resistance_range_ohm(r0_ohm: float = PT100_R0_OHM) -> tuple[float, float]:
+    """(lo, hi) resistance an element of nominal ``r0_ohm`` spans over -200..850 degC.
+
+    Example: Pt1000 -> (185.201, 3904.811) ohm.
+    """
+    r0 = require_positive("r0_ohm", r0_ohm, unit="ohm")
+    return r0 * _cvd(T_MIN_C), r0 * _cvd(T_MAX_C)
+
+
+def resistance_ohm(temperature_c: float, r0_ohm: float = PT100_R0_OHM) -> float:
     """Resistance of an IEC 60751 platinum element at ``temperature_c``.
 
     Example: Pt100 at 100 degC -> 100 (1 + 0.39083 - 0.005775) = 138.5055 ohm.
     """
-    t = require_range("temperature_c", temperature_c, T_MIN_C, T_MAX_C, unit="degC")
+    t = require_range("temperature_c", temperature_c, *TEMPERATURE_RANGE_C, unit="degC")
     r0 = require_positive("r0_ohm", r0_ohm, unit="ohm")
     return r0 * _cvd(t)
 
 
-def temperature_c(resistance_ohm: float, r0_ohm: float = 100.0) -> float:
+def temperature_c(resistance_ohm: float, r0_ohm: float = PT100_R0_OHM) -> float:
     """Temperature from resistance, inverse CVD (IEC 60751).
 
     At or above R0: t = (-A + sqrt(A^2 - 4B(1 - R/R0))) / (2B).  Below R0, Newton's method
@@ -74,7 +90,7 @@ def temperature_c(resistance_ohm: float, r0_ohm: float = 100.0) -> float:
     Example: 108.5 ohm on a Pt100 -> 21.8189 degC.
     """
     r0 = require_positive("r0_ohm", r0_ohm, unit="ohm")
-    lo, hi = r0 * _cvd(T_MIN_C), r0 * _cvd(T_MAX_C)
+    lo, hi = resistance_range_ohm(r0)
     r = require_range("resistance_ohm", resistance_ohm, lo, hi, unit="ohm")
     ratio = r / r0
     t = (-A + math.sqrt(A * A - 4.0 * B * (1.0 - ratio))) / (2.0 * B)

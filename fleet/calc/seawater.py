@@ -27,6 +27,14 @@ MIN_TEMPERATURE_C = -2.5
 MAX_TEMPERATURE_C = 40.0
 MAX_PRACTICAL_SALINITY = 42.0
 
+# The same guard ranges as (lo, hi) tuples, so forms can offer the limits calc enforces.
+DEPTH_RANGE_M = (0.0, MAX_DEPTH_M)
+PRESSURE_RANGE_DBAR = (0.0, MAX_PRESSURE_DBAR)
+TEMPERATURE_RANGE_C = (MIN_TEMPERATURE_C, MAX_TEMPERATURE_C)
+PRACTICAL_SALINITY_RANGE = (0.0, MAX_PRACTICAL_SALINITY)
+LATITUDE_RANGE_DEG = (-90.0, 90.0)
+LONGITUDE_RANGE_DEG = (-180.0, 360.0)
+
 # Exact unit definitions, NIST SP 811 (2008) Appendix B / BIPM SI brochure.
 PA_PER_DBAR = 1.0e4
 PA_PER_BAR = 1.0e5
@@ -36,27 +44,27 @@ STANDARD_GRAVITY_M_S2 = 9.80665  # CGPM 1901, exact
 
 
 def _depth(name: str, value: float) -> float:
-    return require_range(name, value, 0.0, MAX_DEPTH_M, unit="m")
+    return require_range(name, value, *DEPTH_RANGE_M, unit="m")
 
 
 def _pressure(name: str, value: float) -> float:
-    return require_range(name, value, 0.0, MAX_PRESSURE_DBAR, unit="dbar")
+    return require_range(name, value, *PRESSURE_RANGE_DBAR, unit="dbar")
 
 
 def _latitude(value: float) -> float:
-    return require_range("latitude_deg", value, -90.0, 90.0, unit="deg")
+    return require_range("latitude_deg", value, *LATITUDE_RANGE_DEG, unit="deg")
 
 
 def _longitude(value: float) -> float:
-    return require_range("longitude_deg", value, -180.0, 360.0, unit="deg")
+    return require_range("longitude_deg", value, *LONGITUDE_RANGE_DEG, unit="deg")
 
 
 def _temperature(value: float) -> float:
-    return require_range("temperature_c", value, MIN_TEMPERATURE_C, MAX_TEMPERATURE_C, unit="degC")
+    return require_range("temperature_c", value, *TEMPERATURE_RANGE_C, unit="degC")
 
 
 def _salinity(value: float) -> float:
-    return require_range("practical_salinity", value, 0.0, MAX_PRACTICAL_SALINITY)
+    return require_range("practical_salinity", value, *PRACTICAL_SALINITY_RANGE)
 
 
 def pressure_dbar(depth_m: float, latitude_deg: float) -> float:

@@ -9,6 +9,7 @@ from collections.abc import Callable
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
+from scipy import constants
 
 from fleet.calc import battery
 
@@ -139,6 +140,155 @@ def test_usable_capacity_never_exceeds_nominal(t: float, age: float) -> None:
     assert battery.usable_capacity_ah(pack, t + 1.0, age) >= usable
 
 
+# --- self-discharge: its own Arrhenius temperature law ---------------------------------------
+R_CODATA = constants.R  # molar gas constant, CODATA via scipy.constants (8.314462618 J/(mol K))
+# Ea chosen so the rate doubles from 20 to 30 degC (rule of thumb "x2 per +10 K", common
+# practice, from memory), computed here independently of the module
+EA_DOUBLING = R_CODATA * math.log(2.0) / (1.0 / 293.15 - 1.0 / 303.15)
+
+
+def _arrhenius_ratio(t_c: float) -> float:
+    # IUPAC Gold Book "Arrhenius equation", k = A exp(-Ea/RT), as a ratio to 20 degC
+    return math.exp(-EA_DOUBLING / R_CODATA * (1.0 / (t_c + 273.15) - 1.0 / 293.15))
+
+
+def test_the_gas_constant_is_codata() -> None:
+    # CODATA 2018 / 2019 SI: R = N_A k exactly = 8.314462618... J/(mol K)
+    assert battery.GAS_CONSTANT_J_MOL_K == pytest.approx(R_CODATA, rel=1e-15)
+    assert battery.GAS_CONSTANT_J_MOL_K == pytest.approx(8.314462618, abs=1e-9)
+
+
+def test_the_activation_energy_doubles_the_rate_from_20_to_30_degc() -> None:
+    # rule of thumb, common practice (from memory): ~51.2 kJ/mol gives x2 per 10 K at 20 degC
+    assert battery.SELF_DISCHARGE_ACTIVATION_ENERGY_J_MOL == pytest.approx(51216.17, abs=0.01)
+    assert battery.self_discharge_factor("li_socl2_bobbin", 30.0) == pytest.approx(2.0)
+
+
+@pytest.mark.parametrize(
+    ("key", "t_c", "expected_per_year"),
+    [
+        ("li_socl2_bobbin", 20.0, 0.01),  # reference temperature: the handbook rate (memory)
+        ("li_socl2_bobbin", 30.0, 0.02),  # doubling per +10 K (rule of thumb)
+        ("li_socl2_bobbin", 4.0, 0.01 * 0.2972813),  # Arrhenius, R CODATA (scipy)
+        ("li_socl2_bobbin", 60.0, 0.01 * 12.46492),  # Arrhenius: warm store ~x12.5
+        ("li_socl2_bobbin", -40.0, 0.01 * 0.0044827),  # Arrhenius at the curve's cold end
+        ("alkaline_zn_mno2", 0.0, 0.03 * 0.2146920),  # Arrhenius, 3 %/yr at 20 degC (memory)
+        ("li_mno2", 45.0, 0.015 * 5.213062),  # Arrhenius, 1.5 %/yr at 20 degC (memory)
+    ],
+)
+def test_self_discharge_follows_the_arrhenius_law(
+    key: str, t_c: float, expected_per_year: float
+) -> None:
+    result = battery.self_discharge_fraction_per_year(key, t_c)
+    # independent computation with scipy's gas constant
+    independent = battery.chemistry(key).self_discharge_per_year * _arrhenius_ratio(t_c)
+    assert result == pytest.approx(independent, rel=1e-12)
+    assert result == pytest.approx(expected_per_year, rel=1e-4)  # the row, worked separately
+
+
+@pytest.mark.parametrize("key", sorted(battery.CHEMISTRIES))
+def test_the_self_discharge_factor_is_one_at_20_degc(key: str) -> None:
+    # invariant of the ratio form: the reference rate is the handbook's 20 degC figure
+    assert battery.self_discharge_factor(key, 20.0) == 1.0
+
+
+@pytest.mark.parametrize(("t_lo", "t_hi"), [(0.0, 10.0), (10.0, 20.0), (20.0, 30.0), (30.0, 40.0)])
+def test_self_discharge_roughly_doubles_per_10_k_near_room_temperature(
+    t_lo: float, t_hi: float
+) -> None:
+    # rule of thumb "x2 per +10 K" (common practice, from memory): 2.22 / 2.10 / 2.00 / 1.91
+    ratio = battery.self_discharge_factor("li_mno2", t_hi) / battery.self_discharge_factor(
+        "li_mno2", t_lo
+    )
+    assert 1.9 <= ratio <= 2.25
+
+
+@SETTINGS
+@given(t=st.floats(-40.0, 84.0), dt=st.floats(0.01, 1.0))
+def test_self_discharge_rises_with_temperature(t: float, dt: float) -> None:
+    low = battery.self_discharge_fraction_per_year("li_socl2_bobbin", t)
+    assert battery.self_discharge_fraction_per_year("li_socl2_bobbin", t + dt) > low > 0.0
+
+
+def test_warm_self_discharge_is_not_the_capacity_derating() -> None:
+    # The capacity derating f_T is 1.0 from 20 degC up (Linden, from memory), so the old
+    # estimate nominal x f_T x k_20 stayed at 1 %/yr at 30 degC; Arrhenius gives 2 %/yr.
+    pack = battery.PackSpec("li_socl2_bobbin", 3, 2, 19.0)
+    old = pack.nominal_capacity_ah * battery.temperature_factor("li_socl2_bobbin", 30.0) * 0.01
+    new = battery.self_discharge_ah_per_day(pack, 30.0) * 365.25
+    assert old == pytest.approx(0.38)
+    assert new == pytest.approx(0.76)
+
+
+@pytest.mark.parametrize(
+    ("strings", "cell_ah", "t_c", "expected_ah_per_day"),
+    [
+        (2, 19.0, 30.0, 38.0 * 0.02 / 365.25),  # 2.0808 mAh/day; doubling rule, Julian year
+        (1, 19.0, 20.0, 19.0 * 0.01 / 365.25),  # 0.5202 mAh/day at the reference temperature
+        (1, 19.0, 4.0, 19.0 * 0.01 * 0.2972813 / 365.25),  # Arrhenius, R CODATA
+    ],
+)
+def test_it_gives_the_self_discharge_per_day(
+    strings: int, cell_ah: float, t_c: float, expected_ah_per_day: float
+) -> None:
+    pack = battery.PackSpec("li_socl2_bobbin", 1, strings, cell_ah)
+    result = battery.self_discharge_ah_per_day(pack, t_c)
+    assert result == pytest.approx(expected_ah_per_day, rel=1e-6)
+
+
+@pytest.mark.parametrize(
+    ("storage_c", "expected_ah"),
+    [
+        (None, 19.0 * (1 - 2 * 0.01)),  # default 20 degC: the old result, 18.62 Ah
+        (20.0, 19.0 * (1 - 2 * 0.01)),  # the same, named
+        (30.0, 19.0 * (1 - 2 * 0.02)),  # 18.24 Ah: doubling per +10 K
+        (4.0, 19.0 * (1 - 2 * 0.01 * 0.2972813)),  # 18.887 Ah: Arrhenius, R CODATA
+    ],
+)
+def test_shelf_loss_uses_the_storage_temperature(
+    storage_c: float | None, expected_ah: float
+) -> None:
+    pack = battery.PackSpec("li_socl2_bobbin", 1, 1, 19.0)
+    result = battery.usable_capacity_ah(pack, 20.0, 2.0, storage_temperature_c=storage_c)
+    assert result == pytest.approx(expected_ah, rel=1e-6)
+
+
+@SETTINGS
+@given(t=st.floats(-40.0, 85.0), age=st.floats(0.0, 20.0))
+def test_the_default_storage_temperature_keeps_the_old_result(t: float, age: float) -> None:
+    # reference 5.5 as before: C_nom x f_T x (1 - age x k_20)
+    pack = battery.PackSpec("li_socl2_bobbin", 3, 2, 19.0)
+    old = 38.0 * battery.temperature_factor("li_socl2_bobbin", t) * max(0.0, 1 - age * 0.01)
+    assert battery.usable_capacity_ah(pack, t, age) == pytest.approx(old, rel=1e-12)
+
+
+@pytest.mark.parametrize(
+    ("strings", "current_a", "expected"),
+    [
+        (1, 0.020, 13.5 / 19.0),  # Linden Fig. 14.17: 180 ohm 13.5 Ah vs 560 ohm 19.0 Ah
+        (2, 0.040, 13.5 / 19.0),  # the same per string: 40 mA over 2 strings
+        (1, 0.035, 7.0 / 19.0),  # Linden Fig. 14.17: 94 ohm 7 Ah
+        (1, 0.004, 1.0),  # the reference current itself
+        (1, 0.0002, 1.0),  # below it: no extra loss (the curve's fall there is self-discharge)
+        (3, 0.0, 1.0),  # no load
+    ],
+)
+def test_it_derates_for_a_high_drain_duty(strings: int, current_a: float, expected: float) -> None:
+    pack = battery.PackSpec("li_socl2_bobbin", 1, strings, 19.0)
+    assert battery.rate_factor_at_current(pack, current_a) == pytest.approx(expected, rel=1e-9)
+    usable = battery.usable_capacity_ah(pack, 20.0, 0.0, mean_load_current_a=current_a)
+    assert usable == pytest.approx(strings * 19.0 * expected, rel=1e-9)
+
+
+@SETTINGS
+@given(current=st.floats(0.0, 0.035))
+def test_the_rate_factor_never_exceeds_one_and_falls_with_current(current: float) -> None:
+    pack = battery.PackSpec("li_socl2_bobbin", 1, 1, 19.0)
+    factor = battery.rate_factor_at_current(pack, current)
+    assert 0.0 < factor <= 1.0
+    assert battery.rate_factor_at_current(pack, min(0.035, current + 0.001)) <= factor
+
+
 # --- consumption and life ---------------------------------------------------------------------
 def test_it_gives_the_annual_consumption_of_the_worked_example() -> None:
     # check case 31: 200 uA listening + 100 replies/h of 0.5 A x 10 ms -> 2.9687 Ah/yr
@@ -237,6 +387,7 @@ def test_every_band_is_indicative_only(key: str) -> None:
 
 # --- guards -----------------------------------------------------------------------------------
 PACK = battery.PackSpec("alkaline_zn_mno2", 21, 1, 15.0)
+SOCL2 = battery.PackSpec("li_socl2_bobbin", 1, 2, 19.0)
 DAY = dt.date(2025, 1, 1)
 
 
@@ -259,6 +410,21 @@ DAY = dt.date(2025, 1, 1)
         (lambda: battery.usable_capacity_ah(PACK, 10.0, -1.0), "age_years"),
         (lambda: battery.usable_capacity_ah(PACK, 10.0, 1.0, 0.0), "rate_factor"),
         (lambda: battery.usable_capacity_ah(PACK, 10.0, 1.0, 1.5), "rate_factor"),
+        (lambda: battery.usable_capacity_ah(PACK, 10.0, 1.0, storage_temperature_c=60.0),
+         "storage_temperature_c"),
+        (lambda: battery.usable_capacity_ah(PACK, 10.0, 1.0, storage_temperature_c=math.nan),
+         "storage_temperature_c"),
+        (lambda: battery.usable_capacity_ah(PACK, 10.0, 1.0, mean_load_current_a=0.01),
+         "mean_load_current_a"),  # alkaline has no rate curve here
+        (lambda: battery.usable_capacity_ah(SOCL2, 10.0, 1.0, 0.9, mean_load_current_a=0.01),
+         "rate_factor"),  # one or the other
+        (lambda: battery.rate_factor_at_current(SOCL2, 0.071), "mean_load_current_a"),
+        (lambda: battery.rate_factor_at_current(SOCL2, -0.001), "mean_load_current_a"),
+        (lambda: battery.self_discharge_factor("li_mno2", 61.0), "temperature_c"),
+        (lambda: battery.self_discharge_fraction_per_year("li_socl2_bobbin", -41.0),
+         "temperature_c"),
+        (lambda: battery.self_discharge_ah_per_day(SOCL2, math.inf), "temperature_c"),
+        (lambda: battery.temperature_range_c("nicd"), "chemistry"),
         (lambda: battery.charge_used_ah(-1.0, 1e-4, 0, 0.0), "listen_hours"),
         (lambda: battery.charge_used_ah(1.0, -1e-4, 0, 0.0), "listen_current_a"),
         (lambda: battery.charge_used_ah(1.0, 1e-4, -1, 0.0), "replies"),
@@ -302,3 +468,25 @@ def test_it_wants_calendar_dates_not_datetimes() -> None:
         battery.remaining_ah_on(DAY, moment, 10.0, 0.01)
     with pytest.raises(TypeError, match="^on"):
         battery.empty_on(moment, 10.0, 0.01)
+
+
+@pytest.mark.parametrize(
+    ("key", "expected"),
+    [
+        ("alkaline_zn_mno2", (-20.0, 55.0)),  # ends of the derating curve (Linden, from memory)
+        ("li_socl2_bobbin", (-40.0, 85.0)),
+        ("li_mno2", (-20.0, 60.0)),
+    ],
+)
+def test_it_exposes_each_chemistrys_temperature_domain(
+    key: str, expected: tuple[float, float]
+) -> None:
+    lo, hi = battery.temperature_range_c(key)
+    assert (lo, hi) == expected
+    battery.self_discharge_factor(key, lo)  # the ends are accepted
+    battery.self_discharge_factor(key, hi)
+    with pytest.raises(ValueError, match="^temperature_c must"):
+        battery.self_discharge_factor(key, hi + 0.1)
+    assert (
+        battery.BATTERY_TEMPERATURE_RANGE_C[0] <= lo < hi <= battery.BATTERY_TEMPERATURE_RANGE_C[1]
+    )

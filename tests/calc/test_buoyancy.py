@@ -6,6 +6,7 @@ import math
 from collections.abc import Callable
 
 import gsw
+import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
@@ -103,6 +104,147 @@ def test_buoyancy_is_larger_in_denser_deep_water() -> None:
     )
 
 
+# --- recovery buoyancy of one unit: reserve on the mass in air, least favourable density ----
+THRESHOLDS = {"min_net_buoyancy_kg": 5.0, "reserve_fraction_of_mass": 0.10}  # common practice
+
+
+@pytest.mark.parametrize(
+    ("mass", "volume", "required", "net", "passed"),
+    [
+        # Archimedes at 1025 kg/m^3, worked by hand; thresholds common practice, no source
+        (45.0, 0.060, 5.0, 16.50, True),  # 61.5 - 45; R = max(5, 4.5)
+        (20.0, 0.022, 5.0, 2.55, False),  # 22.55 - 20: below the absolute minimum
+        (200.0, 0.250, 20.0, 56.25, True),  # 256.25 - 200; R = max(5, 20)
+        (200.0, 0.210, 20.0, 15.25, False),  # 215.25 - 200: below 10 % of the mass
+        (50.0, 0.010, 5.0, -39.75, False),  # 10.25 - 50: sinks
+        (50.0, 0.0537, 5.0, 5.0425, True),  # 55.0425 - 50: just above the minimum
+    ],
+)
+def test_it_requires_the_larger_of_the_minimum_and_a_fraction_of_the_mass(
+    mass: float, volume: float, required: float, net: float, passed: bool
+) -> None:
+    result = buoyancy.recovery_buoyancy_at_density(mass, volume, 1025.0, **THRESHOLDS)
+    assert result.required_kg == pytest.approx(required)
+    assert result.net_buoyancy_kg == pytest.approx(net, abs=1e-6)
+    assert result.margin_kg == pytest.approx(net - required, abs=1e-6)
+    assert result.passed is passed and (result.reasons == ()) is passed
+    assert (result.met_at, result.met_at_pressure_dbar) == ("as given", None)
+
+
+def test_a_floating_unit_is_held_to_the_reserve() -> None:
+    # The in-water-weight rule cannot test a unit that floats on its own: 200 kg, 0.210 m^3
+    # at 1025 (Archimedes +15.25 kgf) passes recovery_margin but is below 10 % of 200 kg.
+    old = buoyancy.recovery_margin([buoyancy.BuoyancyPart(200.0, 0.210)], 1025.0, 0.10, 5.0)
+    assert old.passed and old.margin_fraction is None
+    new = buoyancy.recovery_buoyancy_at_density(200.0, 0.210, 1025.0, **THRESHOLDS)
+    assert not new.passed
+    assert new.reasons[0].startswith("net buoyancy +15.25 kgf at the density given")
+    assert "10% of the 200 kg mass in air" in new.reasons[0]
+
+
+def test_a_sinking_unit_says_so() -> None:
+    result = buoyancy.recovery_buoyancy_at_density(50.0, 0.010, 1025.0, **THRESHOLDS)
+    assert result.reasons[0].startswith("unit sinks at the density given")
+    assert len(result.reasons) == 2
+
+
+def _gsw_rho(t: float, sp: float, p: float, lat: float, lon: float) -> float:
+    # TEOS-10 via gsw: SP -> SA, t -> CT, then rho
+    sa = gsw.SA_from_SP(sp, p, lon, lat)
+    return float(gsw.rho(sa, gsw.CT_from_t(sa, t, p), p))
+
+
+@pytest.mark.parametrize(
+    ("column", "met_at"),
+    [
+        # TEOS-10 via gsw: warm surface over cold deep water, open ocean -> the surface
+        ({"seabed_temperature_c": 2.0, "seabed_practical_salinity": 34.7,
+          "seabed_pressure_dbar": 4000.0, "surface_temperature_c": 15.0,
+          "surface_practical_salinity": 35.0, "latitude_deg": 0.0}, "surface"),
+        # TEOS-10 via gsw: a tropical shelf, 28 degC surface, 60 m
+        ({"seabed_temperature_c": 24.0, "seabed_practical_salinity": 35.5,
+          "seabed_pressure_dbar": 60.0, "surface_temperature_c": 28.0,
+          "surface_practical_salinity": 34.0, "latitude_deg": 10.0, "longitude_deg": 120.0},
+         "surface"),
+        # TEOS-10 via gsw: cold salty surface over warm fresh water (contrived) -> the seabed
+        ({"seabed_temperature_c": 30.0, "seabed_practical_salinity": 5.0,
+          "seabed_pressure_dbar": 50.0, "surface_temperature_c": -1.5,
+          "surface_practical_salinity": 40.0, "latitude_deg": 0.0}, "seabed"),
+        # no water column: the seabed is the surface
+        ({"seabed_temperature_c": 10.0, "seabed_practical_salinity": 35.0,
+          "seabed_pressure_dbar": 0.0, "surface_temperature_c": 10.0,
+          "surface_practical_salinity": 35.0, "latitude_deg": 45.0}, "surface"),
+    ],
+)  # fmt: skip
+def test_it_judges_at_the_least_favourable_density(column: dict[str, float], met_at: str) -> None:
+    lat, lon = column["latitude_deg"], column.get("longitude_deg", 0.0)
+    top = _gsw_rho(column["surface_temperature_c"], column["surface_practical_salinity"],
+                   0.0, lat, lon)  # fmt: skip
+    bed = _gsw_rho(column["seabed_temperature_c"], column["seabed_practical_salinity"],
+                   column["seabed_pressure_dbar"], lat, lon)  # fmt: skip
+    result = buoyancy.recovery_buoyancy(45.0, 0.060, **column, **THRESHOLDS)  # type: ignore[arg-type]
+    expected_rho = top if met_at == "surface" else bed
+    assert result.met_at == met_at
+    assert result.density_kg_m3 == pytest.approx(min(top, bed), rel=1e-12)
+    assert result.density_kg_m3 == pytest.approx(expected_rho, rel=1e-12)
+    bed_pressure = column["seabed_pressure_dbar"]
+    assert result.met_at_pressure_dbar == (0.0 if met_at == "surface" else bed_pressure)
+    # Archimedes with the gsw density, by hand: V rho - m
+    assert result.net_buoyancy_kg == pytest.approx(0.060 * expected_rho - 45.0, rel=1e-12)
+    assert result.required_kg == 5.0  # max(5 kgf, 10 % of 45 kg)
+
+
+def test_the_worked_example_of_the_module() -> None:
+    # TEOS-10 via gsw 3.6.23 at 15 degC, SP 35, 0 dbar, 0 N 0 E: 1025.976 kg/m^3
+    result = buoyancy.recovery_buoyancy(
+        45.0, 0.060, seabed_temperature_c=2.0, seabed_practical_salinity=34.7,
+        seabed_pressure_dbar=4000.0, surface_temperature_c=15.0,
+        surface_practical_salinity=35.0, latitude_deg=0.0, **THRESHOLDS,
+    )  # fmt: skip
+    assert result.density_kg_m3 == pytest.approx(1025.976, abs=1e-3)
+    assert result.net_buoyancy_kg == pytest.approx(16.56, abs=0.01)
+    assert result.margin_kg == pytest.approx(11.56, abs=0.01)
+    assert result.passed
+
+
+@SETTINGS
+@given(
+    t_bed=st.floats(-2.5, 40.0),
+    t_top=st.floats(-2.5, 40.0),
+    sp_bed=st.floats(0.0, 42.0),
+    sp_top=st.floats(0.0, 42.0),
+    p_bed=st.floats(0.0, 12000.0),
+    lat=st.floats(-80.0, 80.0),
+)
+def test_the_lowest_density_of_a_linear_profile_is_at_one_end(
+    t_bed: float, t_top: float, sp_bed: float, sp_top: float, p_bed: float, lat: float
+) -> None:
+    # TEOS-10 via gsw: an independent 101-point profile, T, SP and p linear between the ends
+    w = np.linspace(0.0, 1.0, 101)
+    p, t, sp = w * p_bed, t_top + w * (t_bed - t_top), sp_top + w * (sp_bed - sp_top)
+    sa = gsw.SA_from_SP(sp, p, 0.0, lat)
+    profile_min = float(np.min(gsw.rho(sa, gsw.CT_from_t(sa, t, p), p)))
+    rho, _ = buoyancy.least_favourable_density(
+        seabed_temperature_c=t_bed, seabed_practical_salinity=sp_bed, seabed_pressure_dbar=p_bed,
+        surface_temperature_c=t_top, surface_practical_salinity=sp_top, latitude_deg=lat,
+    )  # fmt: skip
+    assert rho == pytest.approx(profile_min, rel=1e-12)
+
+
+def _column(mass: float = 45.0, **changes: float) -> buoyancy.RecoveryBuoyancy:
+    args = {
+        "seabed_temperature_c": 2.0,
+        "seabed_practical_salinity": 34.7,
+        "seabed_pressure_dbar": 4000.0,
+        "surface_temperature_c": 15.0,
+        "surface_practical_salinity": 35.0,
+        "latitude_deg": 0.0,
+        **THRESHOLDS,
+        **changes,
+    }
+    return buoyancy.recovery_buoyancy(mass, 0.060, **args)  # type: ignore[arg-type]
+
+
 @pytest.mark.parametrize(
     ("call", "name"),
     [
@@ -127,6 +269,26 @@ def test_buoyancy_is_larger_in_denser_deep_water() -> None:
         (lambda: buoyancy.ascent_speed_m_s(10.0, 0.0, 1.0, 0.05), "seawater_density_kg_m3"),
         (lambda: buoyancy.ascent_speed_m_s(10.0, 1025.0, 0.0, 0.05), "drag_coefficient"),
         (lambda: buoyancy.ascent_speed_m_s(10.0, 1025.0, 1.0, 0.0), "frontal_area_m2"),
+        (lambda: buoyancy.required_net_buoyancy_kg(-1.0, **THRESHOLDS), "mass_in_air_kg"),
+        (lambda: buoyancy.required_net_buoyancy_kg(
+            10.0, min_net_buoyancy_kg=-1.0, reserve_fraction_of_mass=0.1),
+         "min_net_buoyancy_kg"),
+        (lambda: buoyancy.required_net_buoyancy_kg(
+            10.0, min_net_buoyancy_kg=5.0, reserve_fraction_of_mass=2.5),
+         "reserve_fraction_of_mass"),
+        (lambda: buoyancy.recovery_buoyancy_at_density(45.0, 0.06, 980.0, **THRESHOLDS),
+         "seawater_density_kg_m3"),
+        (lambda: buoyancy.recovery_buoyancy_at_density(45.0, -0.06, 1025.0, **THRESHOLDS),
+         "displaced_volume_m3"),
+        (lambda: _column(seabed_temperature_c=41.0), "seabed_temperature_c"),
+        (lambda: _column(surface_temperature_c=-3.0), "surface_temperature_c"),
+        (lambda: _column(seabed_practical_salinity=43.0), "seabed_practical_salinity"),
+        (lambda: _column(surface_practical_salinity=math.nan), "surface_practical_salinity"),
+        (lambda: _column(seabed_pressure_dbar=12001.0), "seabed_pressure_dbar"),
+        (lambda: _column(latitude_deg=91.0), "latitude_deg"),
+        (lambda: _column(longitude_deg=400.0), "longitude_deg"),
+        (lambda: _column(mass=-1.0), "mass_in_air_kg"),
+        (lambda: _column(reserve_fraction_of_mass=-0.1), "reserve_fraction_of_mass"),
     ],
 )  # fmt: skip
 def test_it_rejects_out_of_range_arguments_by_name(call: Callable[[], object], name: str) -> None:

@@ -5,11 +5,12 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 
+import gsw
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from fleet.calc import ranging
+from fleet.calc import ranging, seawater
 
 SETTINGS = settings(max_examples=150, deadline=None)
 
@@ -120,6 +121,108 @@ def test_it_gives_the_reply_margin() -> None:
     assert margin == pytest.approx(190.0 - 63.4229 - 50.0 - 10.0)
 
 
+# --- reply timing for a planned geometry ------------------------------------------------------
+@pytest.mark.parametrize(
+    ("dz", "x", "expected"),
+    [
+        (2400.0, 1800.0, 3000.0),  # Pythagoras, 3-4-5 triangle x 600
+        (-2400.0, 1800.0, 3000.0),  # the sign of the depth difference does not matter
+        (4000.0, 0.0, 4000.0),  # straight down
+        (0.0, 0.0, 0.0),  # alongside
+    ],
+)
+def test_it_gives_the_slant_range_of_a_planned_geometry(
+    dz: float, x: float, expected: float
+) -> None:
+    assert ranging.slant_range_from_offset_m(dz, x) == pytest.approx(expected, abs=1e-9)
+
+
+TIMING = {  # hand-worked row below; the interrogator settings are invented, not a product's
+    "slant_range_m": 3000.0,
+    "sound_speed_m_s": 1500.0,
+    "turnaround_s": 0.0125,
+    "ping_interval_s": 5.0,
+    "blanking_s": 0.1,
+    "reply_pulse_s": 0.010,
+}
+
+
+def test_it_times_the_reply_of_the_worked_example() -> None:
+    # physics, by hand: 2 x 3000 / 1500 + 0.0125 = 4.0125 s; + 10 ms = 4.0225 s;
+    # limits 1500 (0.1 - 0.0125) / 2 = 65.625 m and 1500 (5 - 0.0125 - 0.010) / 2 = 3733.125 m
+    timing = ranging.reply_timing(**TIMING)
+    assert timing.fits and timing.reasons == ()
+    assert timing.arrival_s == pytest.approx(4.0125, abs=1e-12)
+    assert timing.reply_end_s == pytest.approx(4.0225, abs=1e-12)
+    assert (timing.window_opens_s, timing.window_closes_s) == (0.1, 5.0)
+    assert timing.min_slant_range_m == pytest.approx(65.625, abs=1e-9)
+    assert timing.max_slant_range_m == pytest.approx(3733.125, abs=1e-9)
+    # the same arrival as the two-way time of check case 27's formula
+    assert timing.arrival_s == pytest.approx(ranging.two_way_time_s(3000.0, 0.0125, 1500.0))
+
+
+@pytest.mark.parametrize(
+    ("changes", "fragments"),
+    [
+        # physics, by hand
+        ({"ping_interval_s": 4.0}, ("reply ends 4.0225 s after the interrogation, after the "
+                                     "next one at 4 s: only slant ranges up to 2983.1 m fit",)),
+        ({"slant_range_m": 3733.125}, ()),  # ends exactly at the next interrogation
+        ({"slant_range_m": 3734.0}, ("reply ends 5.0012 s",)),
+        ({"slant_range_m": 50.0}, ("reply arrives 0.0792 s after the interrogation, inside "
+                                   "the receive blanking of 0.1 s: at this turnaround a slant "
+                                   "range under 65.6 m is not heard",)),
+        ({"slant_range_m": 65.625}, ()),  # arrives exactly as the blanking ends
+        ({"slant_range_m": 0.0, "turnaround_s": 0.2}, ()),  # the turnaround clears the blanking
+        ({"ping_interval_s": 0.02, "blanking_s": 0.01, "slant_range_m": 0.0},
+         ("reply ends 0.0225 s after the interrogation, after the next one at 0.02 s: no "
+          "slant range fits",)),
+    ],
+)  # fmt: skip
+def test_it_says_why_a_reply_is_not_distinguishable(
+    changes: dict[str, float], fragments: tuple[str, ...]
+) -> None:
+    timing = ranging.reply_timing(**{**TIMING, **changes})
+    assert timing.fits is (fragments == ())
+    assert len(timing.reasons) == len(fragments)
+    for reason, fragment in zip(timing.reasons, fragments, strict=True):
+        assert reason.startswith(fragment)
+
+
+def test_it_times_a_reply_with_the_sound_speed_of_real_water() -> None:
+    # TEOS-10 via gsw: SP 34.7, 2 degC, 2000 dbar, 45 N (in-situ t -> CT, then sound speed)
+    sa = gsw.SA_from_SP(34.7, 2000.0, 0.0, 45.0)
+    c = float(gsw.sound_speed(sa, gsw.CT_from_t(sa, 2.0, 2000.0), 2000.0))
+    assert seawater.sound_speed_m_s(2.0, 34.7, 2000.0, 45.0) == pytest.approx(c, rel=1e-12)
+    slant = ranging.slant_range_from_offset_m(2000.0, 1500.0)  # 2500 m, Pythagoras
+    timing = ranging.reply_timing(slant, c, 0.0125, 4.0, 0.1, 0.010)
+    assert timing.arrival_s == pytest.approx(2.0 * 2500.0 / c + 0.0125, rel=1e-12)
+    assert 1490.0 < c < 1500.0  # about 1492 m/s at 2 degC, 2000 dbar (gsw table, reference 3.2)
+    assert timing.fits
+    assert timing.max_slant_range_m == pytest.approx(c * (4.0 - 0.0125 - 0.010) / 2.0)
+
+
+@SETTINGS
+@given(
+    r=st.floats(0.0, 20000.0),
+    c=st.floats(1400.0, 1600.0),
+    tat=st.floats(0.0, 0.5),
+    interval=st.floats(0.5, 60.0),
+    pulse=st.floats(0.0, 0.05),
+)
+def test_a_reply_fits_exactly_between_the_range_limits(
+    r: float, c: float, tat: float, interval: float, pulse: float
+) -> None:
+    timing = ranging.reply_timing(r, c, tat, interval, 0.2, pulse)
+    inside = timing.min_slant_range_m <= r <= timing.max_slant_range_m
+    near_edge = min(abs(r - timing.min_slant_range_m), abs(r - timing.max_slant_range_m)) < 1e-6
+    assert timing.fits is inside or near_edge
+
+
+def _timing(**changes: float) -> ranging.ReplyTiming:
+    return ranging.reply_timing(**{**TIMING, **changes})
+
+
 @pytest.mark.parametrize(
     ("call", "name"),
     [
@@ -137,6 +240,17 @@ def test_it_gives_the_reply_margin() -> None:
         (lambda: ranging.turnaround_s(0.1, 1.0, math.inf), "sound_speed_m_s"),
         (lambda: ranging.horizontal_range_m(-1.0, 0.0), "slant_m"),
         (lambda: ranging.horizontal_range_m(100.0, 101.0), "depth_difference_m"),
+        (lambda: ranging.slant_range_from_offset_m(11001.0, 0.0), "depth_difference_m"),
+        (lambda: ranging.slant_range_from_offset_m(100.0, -1.0), "horizontal_offset_m"),
+        (lambda: ranging.slant_range_from_offset_m(100.0, math.nan), "horizontal_offset_m"),
+        (lambda: _timing(slant_range_m=-1.0), "slant_range_m"),
+        (lambda: _timing(sound_speed_m_s=1000.0), "sound_speed_m_s"),
+        (lambda: _timing(turnaround_s=-0.001), "turnaround_s"),
+        (lambda: _timing(ping_interval_s=0.0), "ping_interval_s"),
+        (lambda: _timing(ping_interval_s=601.0), "ping_interval_s"),
+        (lambda: _timing(blanking_s=-0.1), "blanking_s"),
+        (lambda: _timing(blanking_s=5.0), "blanking_s"),  # not shorter than the interval
+        (lambda: _timing(reply_pulse_s=math.inf), "reply_pulse_s"),
         (lambda: ranging.absorption_db_per_km_fg(0.05, 4.0, 35.0, 0.0), "frequency_khz"),
         (lambda: ranging.absorption_db_per_km_fg(20.0, 41.0, 35.0, 0.0), "temperature_c"),
         (lambda: ranging.absorption_db_per_km_fg(20.0, 4.0, -1.0, 0.0), "salinity"),

@@ -342,6 +342,7 @@ class SiteForm(forms.ModelForm):
             "water_depth_m",
             "bottom_temperature_c",
             "practical_salinity",
+            "surface_temperature_c",
             "notes",
         ]
         widgets = {"notes": forms.Textarea(attrs={"rows": 3})}

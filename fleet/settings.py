@@ -173,6 +173,7 @@ HOLDFAST = {
     "DUE_SOON_DAYS": env_int("HOLDFAST_DUE_SOON_DAYS", 30, minimum=0),
     "PRESSURE_TEST_VALID_MONTHS": 12,
     "PROOF_FACTOR": 1.25,
+    # The one minimum hold for a pressure test: fleet.calc.pressure has no default of its own.
     "PRESSURE_HOLD_MIN_MINUTES": 30.0,
     "PRESSURE_ALLOWABLE_DROP_PERCENT": 1.0,
     # A test set to "1.25 × rating" on the workshop gauge is accepted within the gauge's
@@ -187,11 +188,26 @@ HOLDFAST = {
     "BOND_RESISTANCE_LIMIT_OHM": 0.1,
     "WEAR_FLAG_FACTOR": 1.5,
     "BATTERY_RESERVE_FRACTION": 0.2,
-    "BATTERY_DEFAULT_TEMPERATURE_C": 4.0,
+    # Where a pack waits between deployments (and works until a unit has a site): the store.
+    "BATTERY_DEFAULT_TEMPERATURE_C": 20.0,
     "SEAL_SHELF_STANDARD": "ISO2230",
     "DEPTH_MARGIN_FRACTION": 0.10,
-    "RECOVERY_MIN_MARGIN_FRACTION": 0.10,
+    # A recovered unit must float with at least the larger of these: an absolute minimum and
+    # a share of its mass in air (fouling, entrained water); judged at the least favourable
+    # density on the way up (fleet.calc.buoyancy.recovery_buoyancy).
+    "RECOVERY_RESERVE_FRACTION_OF_MASS": 0.10,
     "RECOVERY_MIN_NET_BUOYANCY_KG": 2.0,
+    # Surface water where a site does not give its own: warm, so the density is low.
+    "SURFACE_TEMPERATURE_C": 30.0,
+    # The interrogation geometry and cycle a plan assumes unless it gives its own: the
+    # transceiver up to this far off the unit horizontally, interrogating every so often,
+    # deaf for the blanking time after its own transmission; replies last the pulse time.
+    "RANGING": {
+        "HORIZONTAL_OFFSET_M": 1000.0,
+        "PING_INTERVAL_S": 8.0,
+        "BLANKING_S": 0.1,
+        "REPLY_PULSE_S": 0.01,
+    },
     "DEFAULT_LATITUDE_DEG": 45.0,
 }
 

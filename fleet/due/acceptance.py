@@ -65,6 +65,7 @@ def pressure_test_acceptance(
         accepted_from,
         min_hold_minutes=rules.hold_min_minutes,
         allowable_drop_percent=rules.allowable_drop_percent,
+        gauge_tolerance_percent=rules.gauge_tolerance_percent,
     )
     return PressureAcceptance(required, accepted_from, hold)
 

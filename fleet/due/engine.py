@@ -248,14 +248,15 @@ def _pack_spec(unit: Transponder, state: UnitState) -> tuple[str, calc_battery.P
     )
 
 
-def _self_discharge_daily_ah(key: str, spec: calc_battery.PackSpec, temperature_c: float) -> float:
-    chem = calc_battery.chemistry(key)
-    return (
-        spec.nominal_capacity_ah
-        * calc_battery.temperature_factor(key, temperature_c)
-        * chem.self_discharge_per_year
-        / 365.25
-    )
+def _mean_current_a(
+    chem: calc_battery.Chemistry, spec: calc_battery.PackSpec, daily_ah: float
+) -> float | None:
+    """The duty's mean pack current for the rate curve, held to the curve's top (a heavier
+    drain than the handbook curve shows is judged as its heaviest point)."""
+    if not chem.d_cell_rate_curve:
+        return None
+    top = chem.d_cell_rate_curve[-1][0] * spec.parallel_strings
+    return min(daily_ah / 24.0, top)
 
 
 def battery_projection(
@@ -286,9 +287,18 @@ def battery_projection(
     step = duty.power_step if power_step is None else power_step
     day = local_day(duty.as_of) if on is None else on
     age = max(0.0, (day - pack.made_on).days / 365.25)
-    usable = calc_battery.usable_capacity_ah(spec, temperature, min(age, 50.0))
-    used = state.pack_charge_used_ah
     q_reply = charge_per_reply_as(steps, step)
+    daily = calc_battery.charge_used_ah(24.0, variant.listen_current_a, round(rate), q_reply)
+    # Capacity at the working temperature and at the mean current of the duty (the rate
+    # curve matters for high-drain duty); shelf loss since manufacture at the store's.
+    usable = calc_battery.usable_capacity_ah(
+        spec,
+        temperature,
+        min(age, 50.0),
+        storage_temperature_c=store_t,
+        mean_load_current_a=_mean_current_a(chem, spec, daily),
+    )
+    used = state.pack_charge_used_ah
     open_d = state.open_deployment
     if open_d is not None:
         fitted_from = start_of(pack.installed_on)
@@ -299,7 +309,6 @@ def battery_projection(
             round(open_d.planned_interrogations_per_day * days_open),
             charge_per_reply_as(steps, open_d.transmit_power_step),
         )
-    daily = calc_battery.charge_used_ah(24.0, variant.listen_current_a, round(rate), q_reply)
     return BatteryProjection(
         pack_serial=pack.pack_serial,
         chemistry=chem.name,
@@ -309,8 +318,8 @@ def battery_projection(
         remaining_ah=usable - used,
         reserve_ah=usable * rules.battery_reserve_fraction,
         daily_in_water_ah=daily,
-        self_discharge_daily_ah=_self_discharge_daily_ah(key, spec, temperature),
-        store_self_discharge_daily_ah=_self_discharge_daily_ah(key, spec, store_t),
+        self_discharge_daily_ah=calc_battery.self_discharge_ah_per_day(spec, temperature),
+        store_self_discharge_daily_ah=calc_battery.self_discharge_ah_per_day(spec, store_t),
         temperature_c=temperature,
         age_years=age,
         replies_per_day=rate,

@@ -14,6 +14,9 @@ from fleet.models import Site
 MAX_DAYS = 3650  # ten years: longer than any pack lasts in the water
 MAX_INTERROGATIONS_PER_DAY = 1_000_000
 POWER_STEPS = (1, 9)
+# Inside fleet.calc.ranging's domains (RANGE_RANGE_M, PING_INTERVAL_RANGE_S).
+MAX_HORIZONTAL_OFFSET_M = 20_000.0
+PING_INTERVAL_S = (0.5, 60.0)
 # How far ahead a deployment can be planned; further out nothing the records say still holds.
 PLANNING_HORIZON_DAYS = 5 * 366
 
@@ -25,6 +28,8 @@ class PlannedDeployment:
     days: int
     interrogations_per_day: int | None = None  # None: the unit's own recent duty
     power_step: int | None = None  # None: the unit's own setting
+    horizontal_offset_m: float | None = None  # farthest transceiver offset; None: default
+    ping_interval_s: float | None = None  # interrogation cycle; None: the default
 
     def __post_init__(self) -> None:
         if not 1 <= self.days <= MAX_DAYS:
@@ -38,6 +43,18 @@ class PlannedDeployment:
         lo, hi = POWER_STEPS
         if self.power_step is not None and not lo <= self.power_step <= hi:
             raise ValueError(f"power step must be between {lo} and {hi}, not {self.power_step}")
+        offset = self.horizontal_offset_m
+        if offset is not None and not 0.0 <= offset <= MAX_HORIZONTAL_OFFSET_M:
+            raise ValueError(
+                f"horizontal offset must be between 0 and {MAX_HORIZONTAL_OFFSET_M:g} m, "
+                f"not {offset}"
+            )
+        interval = self.ping_interval_s
+        if interval is not None and not PING_INTERVAL_S[0] <= interval <= PING_INTERVAL_S[1]:
+            raise ValueError(
+                f"interrogation interval must be between {PING_INTERVAL_S[0]:g} and "
+                f"{PING_INTERVAL_S[1]:g} s, not {interval}"
+            )
 
     @property
     def end(self) -> dt.date:

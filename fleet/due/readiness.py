@@ -16,8 +16,13 @@ due items (``engine.evaluate_unit``), the same derivation the stored rows hold:
    its immersed time; a bond fault fails.
 6. Seals: each stays within its interval (and shelf life) to recovery; openings left.
 7. Release test and sensor checks: valid through recovery; a failed test fails.
-8. Recovery buoyancy: positive with a margin at the seabed's seawater density.
-9. Acoustic address: no unit now in the water at the site answers to the same address.
+8. Recovery buoyancy: the net buoyancy at the least favourable seawater density on the way
+   up (the lower of the seabed's and the surface's, TEOS-10) must be at least the larger of
+   an absolute minimum and a reserve share of the unit's mass in air.
+9. Reply timing: with the unit's turnaround delay and the sound speed at the site, a reply
+   from straight below and from the planned horizontal offset must arrive after the
+   interrogator's blanking and end before its next interrogation (``calc.ranging``).
+10. Acoustic address: no unit now in the water at the site answers to the same address.
 
 A fault found fails its check whatever the start date, today included. The unit's margin
 (for ranking in the planner) is the smallest of the normalised margins: battery charge to
@@ -33,6 +38,7 @@ from dataclasses import dataclass, field
 from enum import StrEnum
 
 from fleet.calc import buoyancy as calc_buoyancy
+from fleet.calc import ranging as calc_ranging
 from fleet.calc import seawater as calc_seawater
 from fleet.models import Deployment, Transponder, UnitStatus
 
@@ -346,31 +352,93 @@ def check_sensors(c: Context) -> list[CheckResult]:
 
 def check_buoyancy(c: Context) -> list[CheckResult]:
     variant, site, rules = c.ev.unit.variant, c.planned.site, c.ev.rules
-    source = f"Archimedes; density TEOS-10 (gsw); margins {COMMON}"
+    source = (
+        "Archimedes; density TEOS-10 (gsw) at the seabed and the surface, the lower taken; "
+        f"reserve {rules.recovery_reserve_fraction_of_mass:.0%} of the mass in air, at least "
+        f"{rules.recovery_min_net_buoyancy_kg:g} kgf: {COMMON}"
+    )
+    name = "Recovery buoyancy"
     if variant.mass_in_air_kg is None or variant.displaced_volume_m3 is None:
-        numbers = "variant has no mass and volume recorded"
-        return [CheckResult("Recovery buoyancy", Verdict.WARN, numbers, source)]
-    rho = calc_seawater.density_kg_m3(
+        return [CheckResult(name, Verdict.WARN, "variant has no mass and volume recorded", source)]
+    surface_t = (
+        rules.surface_temperature_c
+        if site.surface_temperature_c is None
+        else site.surface_temperature_c
+    )
+    result = calc_buoyancy.recovery_buoyancy(
+        variant.mass_in_air_kg,
+        variant.displaced_volume_m3,
+        seabed_temperature_c=site.bottom_temperature_c,
+        seabed_practical_salinity=site.practical_salinity,
+        seabed_pressure_dbar=c.site_pressure_dbar,
+        surface_temperature_c=surface_t,
+        surface_practical_salinity=site.practical_salinity,
+        latitude_deg=site.latitude_deg,
+        longitude_deg=site.longitude_deg,
+        min_net_buoyancy_kg=rules.recovery_min_net_buoyancy_kg,
+        reserve_fraction_of_mass=rules.recovery_reserve_fraction_of_mass,
+    )
+    numbers = (
+        f"{result.net_buoyancy_kg:+.1f} kgf net at the {result.met_at} "
+        f"({result.density_kg_m3:.1f} kg/m³), needs {result.required_kg:.1f} kgf "
+        f"({variant.mass_in_air_kg:g} kg in air, {variant.displaced_volume_m3:g} m³)"
+    )
+    if not result.passed:
+        numbers += "; " + "; ".join(result.reasons)
+    verdict = Verdict.PASS if result.passed else Verdict.FAIL
+    return [CheckResult(name, verdict, numbers, source)]
+
+
+def check_ranging(c: Context) -> list[CheckResult]:
+    """The reply must arrive after the interrogator's blanking and end before its next
+    interrogation, at the farthest planned geometry (and the nearest: straight overhead)."""
+    unit, site, rules = c.ev.unit, c.planned.site, c.ev.rules
+    offset = (
+        rules.ranging_horizontal_offset_m
+        if c.planned.horizontal_offset_m is None
+        else c.planned.horizontal_offset_m
+    )
+    interval = (
+        rules.ranging_ping_interval_s
+        if c.planned.ping_interval_s is None
+        else c.planned.ping_interval_s
+    )
+    speed = calc_seawater.sound_speed_m_s(
         site.bottom_temperature_c,
         site.practical_salinity,
         c.site_pressure_dbar,
         site.latitude_deg,
         site.longitude_deg,
     )
-    result = calc_buoyancy.recovery_margin(
-        [calc_buoyancy.BuoyancyPart(variant.mass_in_air_kg, variant.displaced_volume_m3)],
-        rho,
-        rules.recovery_min_margin_fraction,
-        rules.recovery_min_net_buoyancy_kg,
+    source = (
+        "two-way travel time 2r/c + turnaround; sound speed TEOS-10 (gsw) at the seabed; "
+        f"blanking {rules.ranging_blanking_s:g} s and reply {rules.ranging_reply_pulse_s:g} s: "
+        f"{COMMON}"
     )
+    depth = max(site.water_depth_m, 1.0)
+    far = calc_ranging.slant_range_from_offset_m(depth, offset)
+    timings = [
+        calc_ranging.reply_timing(
+            slant,
+            speed,
+            unit.turnaround_delay_ms / 1000.0,
+            interval,
+            rules.ranging_blanking_s,
+            rules.ranging_reply_pulse_s,
+        )
+        for slant in (depth, far)
+    ]
+    near_t, far_t = timings
     numbers = (
-        f"{result.net_buoyancy_kg:+.1f} kgf net at {rho:.1f} kg/m³ "
-        f"({variant.mass_in_air_kg:g} kg in air, {variant.displaced_volume_m3:g} m³)"
+        f"{unit.turnaround_delay_ms:g} ms turnaround, {speed:.0f} m/s; overhead {depth:.0f} m: "
+        f"reply at {near_t.arrival_s:.3f} s; {offset:.0f} m off ({far:.0f} m slant): reply at "
+        f"{far_t.arrival_s:.3f} s; listening {near_t.window_opens_s:g} s to {interval:g} s"
     )
-    if not result.passed:
-        numbers += "; " + "; ".join(result.reasons)
-    verdict = Verdict.PASS if result.passed else Verdict.FAIL
-    return [CheckResult("Recovery buoyancy", verdict, numbers, source)]
+    reasons = [r for t in timings for r in t.reasons]
+    if reasons:
+        numbers += "; " + "; ".join(dict.fromkeys(reasons))
+    verdict = Verdict.PASS if all(t.fits for t in timings) else Verdict.FAIL
+    return [CheckResult("Reply timing", verdict, numbers, source)]
 
 
 def check_address(c: Context, clashes: list[str]) -> list[CheckResult]:
@@ -412,6 +480,7 @@ def check_unit(
         lambda: check_release(c),
         lambda: check_sensors(c),
         lambda: check_buoyancy(c),
+        lambda: check_ranging(c),
         lambda: check_address(c, address_clashes or []),
     )
     for check in checks:

@@ -34,8 +34,13 @@ class Rules:
     battery_default_temperature_c: float
     seal_shelf_standard: str
     depth_margin_fraction: float
-    recovery_min_margin_fraction: float
+    recovery_reserve_fraction_of_mass: float
     recovery_min_net_buoyancy_kg: float
+    surface_temperature_c: float
+    ranging_horizontal_offset_m: float
+    ranging_ping_interval_s: float
+    ranging_blanking_s: float
+    ranging_reply_pulse_s: float
     default_latitude_deg: float
 
 
@@ -79,7 +84,12 @@ def rules_for(variant: Variant) -> Rules:
         battery_default_temperature_c=d["BATTERY_DEFAULT_TEMPERATURE_C"],
         seal_shelf_standard=d["SEAL_SHELF_STANDARD"],
         depth_margin_fraction=d["DEPTH_MARGIN_FRACTION"],
-        recovery_min_margin_fraction=d["RECOVERY_MIN_MARGIN_FRACTION"],
+        recovery_reserve_fraction_of_mass=d["RECOVERY_RESERVE_FRACTION_OF_MASS"],
         recovery_min_net_buoyancy_kg=d["RECOVERY_MIN_NET_BUOYANCY_KG"],
+        surface_temperature_c=d["SURFACE_TEMPERATURE_C"],
+        ranging_horizontal_offset_m=d["RANGING"]["HORIZONTAL_OFFSET_M"],
+        ranging_ping_interval_s=d["RANGING"]["PING_INTERVAL_S"],
+        ranging_blanking_s=d["RANGING"]["BLANKING_S"],
+        ranging_reply_pulse_s=d["RANGING"]["REPLY_PULSE_S"],
         default_latitude_deg=d["DEFAULT_LATITUDE_DEG"],
     )

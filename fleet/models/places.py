@@ -45,6 +45,14 @@ class Site(models.Model):
         validators=[MinValueValidator(0.0), MaxValueValidator(42.0)],
         help_text="PSS-78, 0 to 42.",
     )
+    surface_temperature_c = models.FloatField(
+        "surface water temperature (°C)",
+        null=True,
+        blank=True,
+        validators=[MinValueValidator(-2.0), MaxValueValidator(40.0)],
+        help_text="The warmest surface water expected; empty: the workshop's default. "
+        "Recovery buoyancy is judged where the water is least dense.",
+    )
     notes = models.TextField(blank=True)
 
     class Meta:

@@ -2,6 +2,7 @@
 
 import datetime as dt
 
+import gsw
 import pytest
 
 from fleet.due.planned import PlannedDeployment
@@ -118,9 +119,16 @@ def test_every_check_states_its_numbers_and_source(unit, site, technician):
     assert "site 1366 dbar × 1.25 = 1707 dbar" in pressure.numbers
     assert "TEOS-10" in pressure.source
     buoyancy = next(c for c in result.checks if c.name == "Recovery buoyancy")
-    # 0.060 m3 x rho - 45 kg; rho from gsw at 4 degC, SP 35, 1365.5 dbar ~ 1034 kg/m3
+    # Least favourable: the surface at the default 30 degC, SP 35, 0 dbar (TEOS-10 via gsw),
+    # lighter than the seabed at 4 degC and 1365.5 dbar. Archimedes: 0.060 m3 x rho - 45 kg.
+    sa = gsw.SA_from_SP(35.0, 0.0, site.longitude_deg, site.latitude_deg)
+    rho = float(gsw.rho(sa, gsw.CT_from_t(sa, 30.0, 0.0), 0.0))
     assert buoyancy.verdict == Verdict.PASS
-    assert "kgf net at 103" in buoyancy.numbers
+    assert f"{0.060 * rho - 45.0:+.1f} kgf net at the surface ({rho:.1f} kg/m³)" in (
+        buoyancy.numbers
+    )
+    # Reserve 10 % of 45 kg in air = 4.5 kgf, above the 2 kgf minimum (common practice).
+    assert "needs 4.5 kgf" in buoyancy.numbers
 
 
 def test_a_site_deeper_than_the_rating_fails(unit, technician):

@@ -24,6 +24,19 @@ class AnodeAlloy(models.TextChoices):
     ZINC = "zn", "Zinc"
     MAGNESIUM = "mg", "Magnesium"
 
+    @property
+    def calc_name(self) -> str:
+        """The alloy's name in ``fleet.calc.anodes`` (its ``alloy()`` lookup), e.g. "Al-Zn-In"."""
+        return _CALC_ALLOY_NAMES[self.value]
+
+
+# The one mapping from a stored alloy code to the calc core's alloy name.
+_CALC_ALLOY_NAMES: dict[str, str] = {
+    AnodeAlloy.AL_ZN_IN: "Al-Zn-In",
+    AnodeAlloy.ZINC: "Zn",
+    AnodeAlloy.MAGNESIUM: "Mg",
+}
+
 
 class Elastomer(models.TextChoices):
     NBR = "NBR", "NBR (nitrile)"
@@ -219,6 +232,11 @@ class AnodePosition(models.Model):
 
     def __str__(self) -> str:
         return f"{self.name} ({self.get_alloy_display()})"
+
+    @property
+    def calc_alloy_name(self) -> str:
+        """This position's alloy as ``fleet.calc.anodes.alloy()`` names it, e.g. "Al-Zn-In"."""
+        return AnodeAlloy(self.alloy).calc_name
 
 
 class SealPosition(models.Model):

@@ -2,7 +2,7 @@
 
 Idempotent: a second run finds the demo variants, says so and only makes sure the demo
 logins exist with the demo password. ``--reset`` deletes the demo fleet and loads it again.
-The scenario itself lives in ``fleet/demo.py``.
+The scenario itself lives in the ``fleet/demo`` package.
 """
 
 import time

@@ -1,0 +1,304 @@
+"""Loading the demo fleet: logins and groups, reference rows, the fleet, and taking it away.
+
+``seed_demo`` asks ``demo_loaded()`` first (a second run only refreshes the logins) and calls
+``delete_demo()`` for ``--reset``. ``load_demo`` creates the logins, places, sites and
+variants, plans the fleet (``simulation.plan_fleet``) and writes each unit's history
+(``simulation.write_unit``) inside one transaction.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from collections import Counter
+from dataclasses import dataclass
+from typing import Any
+
+from django.contrib.auth import get_user_model
+from django.contrib.auth.models import AbstractUser, Group
+from django.db import transaction
+from django.db.models import ProtectedError
+
+from fleet import roles
+from fleet.demo.scenario import (
+    BOND_RESISTANCE_LIMIT_OHM,
+    DEMO_PASSWORD,
+    DEMO_USERNAMES,
+    DEMO_VARIANT_NAMES,
+    EXTRA_TECHNICIANS,
+    LOGINS,
+    PLACES,
+    PRESSURE_TEST_VALID_MONTHS,
+    PROOF_FACTOR,
+    RELEASE_TEST_VALID_DAYS,
+    SENSOR_CHECK_INTERVAL_MONTHS,
+    SITES,
+    VARIANTS,
+    VariantSpec,
+)
+from fleet.demo.simulation import FleetRows, plan_fleet, write_unit
+from fleet.models import (
+    Amendment,
+    AnodePosition,
+    AnodeReading,
+    Deployment,
+    Place,
+    ReleaseCertificate,
+    ReplyChargeStep,
+    SealPosition,
+    ServiceRecord,
+    Site,
+    Transponder,
+    Variant,
+)
+
+# --- Idempotency and logins -------------------------------------------------------------------
+
+
+def demo_loaded() -> bool:
+    return Variant.objects.filter(name__in=DEMO_VARIANT_NAMES).exists()
+
+
+def ensure_logins() -> dict[str, AbstractUser]:
+    """The demo users, in their groups, with the demo password (set only when it differs)."""
+    roles.ensure_groups()
+    user_model = get_user_model()
+    groups = {g.name: g for g in Group.objects.filter(name__in=roles.ROLES)}
+    users: dict[str, AbstractUser] = {}
+    wanted = [*LOGINS, *((name, roles.TECHNICIAN, False) for name in EXTRA_TECHNICIANS)]
+    for username, group, staff in wanted:
+        user, created = user_model.objects.get_or_create(username=username)
+        _sync_login(user, staff=staff, created=created)
+        if list(user.groups.values_list("name", flat=True)) != [group]:
+            user.groups.set([groups[group]])
+        users[username] = user
+    return users
+
+
+def _sync_login(user: AbstractUser, *, staff: bool, created: bool) -> None:
+    """Flags and password as the demo wants them; saves only when something differs."""
+    changed = user.is_staff != staff or user.is_superuser or not user.is_active
+    user.is_staff, user.is_superuser, user.is_active = staff, False, True
+    if user.username in EXTRA_TECHNICIANS:
+        if user.has_usable_password():
+            user.set_unusable_password()
+            changed = True
+    # Hashing is slow on purpose: check an existing password only, set a new one once.
+    elif created or not user.check_password(DEMO_PASSWORD):
+        user.set_password(DEMO_PASSWORD)
+        changed = True
+    if changed:
+        user.save()
+
+
+# --- Reference rows: places, sites, variants ------------------------------------------------
+
+
+def _create_places() -> dict[str, Place]:
+    # A place kept by an earlier reset (other data used it) is reused as it is.
+    existing = {p.name: p for p in Place.objects.filter(name__in=[n for n, _ in PLACES])}
+    places = {}
+    for name, kind in PLACES:
+        place = existing.get(name) or Place(name=name, kind=kind)
+        if place.pk is None:
+            place.full_clean()
+            place.save()
+        places[name] = place
+    return places
+
+
+def _create_sites() -> dict[str, Site]:
+    # A site kept by an earlier reset (other data used it) is reused as it is.
+    existing = {s.name: s for s in Site.objects.filter(name__in=[s.name for s in SITES])}
+    sites = {}
+    for spec in SITES:
+        if spec.name in existing:
+            sites[spec.name] = existing[spec.name]
+            continue
+        site = Site(
+            name=spec.name,
+            latitude_deg=spec.latitude_deg,
+            longitude_deg=spec.longitude_deg,
+            water_depth_m=spec.water_depth_m,
+            bottom_temperature_c=spec.bottom_temperature_c,
+            practical_salinity=spec.practical_salinity,
+            notes=spec.notes,
+        )
+        site.full_clean()
+        site.save()
+        sites[spec.name] = site
+    return sites
+
+
+def _create_variant(spec: VariantSpec) -> Variant:
+    variant = Variant(
+        name=spec.name,
+        description=spec.description,
+        depth_rating_m=spec.depth_rating_m,
+        housing_alloy=spec.housing_alloy,
+        release_fitted=spec.release_fitted,
+        has_temperature_sensor=True,
+        has_pressure_sensor=True,
+        has_tilt_sensor=spec.has_tilt_sensor,
+        allowed_chemistries=list(spec.allowed_chemistries),
+        cells_in_series=spec.cells_in_series,
+        parallel_strings=spec.parallel_strings,
+        listen_current_a=spec.listen_current_a,
+        release_charge_as=spec.release_charge_as,
+        mass_in_air_kg=spec.mass_in_air_kg,
+        displaced_volume_m3=spec.displaced_volume_m3,
+        pressure_test_valid_months=PRESSURE_TEST_VALID_MONTHS,
+        proof_factor=PROOF_FACTOR,
+        release_test_valid_days=RELEASE_TEST_VALID_DAYS if spec.release_fitted else None,
+        sensor_check_interval_months=SENSOR_CHECK_INTERVAL_MONTHS,
+        bond_resistance_limit_ohm=BOND_RESISTANCE_LIMIT_OHM,
+    )
+    variant.full_clean()
+    variant.save()
+    for child in _variant_children(variant, spec):
+        child.full_clean()
+        child.save()
+    return variant
+
+
+def _variant_children(variant: Variant, spec: VariantSpec) -> list[Any]:
+    """Reply charge steps, anode positions and seal positions, in that order."""
+    children: list[Any] = [
+        ReplyChargeStep(variant=variant, step=s, charge_per_reply_as=c, source_level_db=sl)
+        for s, c, sl in spec.reply_steps
+    ]
+    children += [
+        AnodePosition(
+            variant=variant,
+            name=a.name,
+            alloy=a.alloy,
+            new_net_mass_g=a.new_net_mass_g,
+            utilisation_factor=0.80,  # DNV-RP-B401 (2010) Table 10-8, bracelet/flush anodes
+            replace_at_remaining_percent=a.replace_at_percent,
+            design_current_a=a.design_current_a,
+        )
+        for a in spec.anodes
+    ]
+    children += [
+        SealPosition(
+            variant=variant,
+            name=s.name,
+            as568_dash=s.as568_dash,
+            material=s.material,
+            count=s.count,
+            interval_months=s.interval_months,
+            max_openings=s.max_openings,
+        )
+        for s in spec.seals
+    ]
+    return children
+
+
+def _fleet_rows(users: dict[str, AbstractUser]) -> FleetRows:
+    places = _create_places()
+    sites = _create_sites()
+    variants = {spec.key: _create_variant(spec) for spec in VARIANTS}
+    anodes = AnodePosition.objects.filter(variant__in=variants.values())
+    seals = SealPosition.objects.filter(variant__in=variants.values())
+    return FleetRows(
+        users=users,
+        places=places,
+        sites=sites,
+        variants=variants,
+        anode_positions={(p.variant_id, p.name): p for p in anodes},
+        seal_positions={(p.variant_id, p.name): p for p in seals},
+    )
+
+
+# --- Loading and deleting the fleet ---------------------------------------------------------
+
+
+@dataclass(frozen=True, slots=True)
+class LoadSummary:
+    units: int
+    variants: int
+    sites: int
+    places: int
+    deployments: int
+    open_deployments: int
+    records: int
+    open_records: int
+    entries: int
+    statuses: dict[str, int]
+
+
+@transaction.atomic
+def load_demo(*, today: dt.date) -> LoadSummary:
+    """Create the demo fleet. The caller checks ``demo_loaded()`` first."""
+    rows = _fleet_rows(ensure_logins())
+    entries = 0
+    statuses: Counter[str] = Counter()
+    for plan in plan_fleet(today):
+        entries += write_unit(plan, rows)
+        statuses[plan.status] += 1
+    units = Transponder.objects.filter(variant__in=rows.variants.values())
+    deployments = Deployment.objects.filter(unit__in=units)
+    records = ServiceRecord.objects.filter(unit__in=units)
+    return LoadSummary(
+        units=units.count(),
+        variants=len(rows.variants),
+        sites=len(rows.sites),
+        places=len(rows.places),
+        deployments=deployments.count(),
+        open_deployments=deployments.filter(recovered_at__isnull=True).count(),
+        records=records.count(),
+        open_records=records.filter(closed_at__isnull=True).count(),
+        entries=entries,
+        statuses=dict(sorted(statuses.items())),
+    )
+
+
+@transaction.atomic
+def delete_demo() -> list[str]:
+    """Delete the demo fleet in the order the PROTECT keys allow; returns what was kept."""
+    kept: list[str] = []
+    units = Transponder.objects.filter(variant__name__in=DEMO_VARIANT_NAMES)
+    # Certificates issued on demo release tests go first, oldest first: a superseded one
+    # points (PROTECT) at the certificate that replaced it.
+    for certificate in ReleaseCertificate.objects.filter(
+        release_test__record__unit__in=units
+    ).order_by("issued_at", "pk"):
+        certificate.delete()
+    Amendment.objects.filter(record__unit__in=units).delete()
+    ServiceRecord.objects.filter(unit__in=units).delete()  # entries cascade with their record
+    Deployment.objects.filter(unit__in=units).delete()
+    units.delete()
+    Variant.objects.filter(name__in=DEMO_VARIANT_NAMES).delete()
+    # Shared rows may be in use by data someone added by hand; keep those and say so.
+    leftovers: list[Any] = [
+        *Site.objects.filter(name__in=[s.name for s in SITES]),
+        *Place.objects.filter(name__in=[name for name, _ in PLACES]),
+        *get_user_model().objects.filter(username__in=DEMO_USERNAMES),
+    ]
+    for obj in leftovers:
+        try:
+            with transaction.atomic():
+                obj.delete()
+        except ProtectedError:
+            kept.append(str(obj))
+    return kept
+
+
+def fleet_fingerprint() -> dict[str, tuple[int, tuple[float | None, ...]]]:
+    """serial -> (record count, anode reading masses in visit order): a cheap identity check."""
+    out: dict[str, tuple[int, tuple[float | None, ...]]] = {}
+    counts = Counter(
+        ServiceRecord.objects.filter(unit__variant__name__in=DEMO_VARIANT_NAMES).values_list(
+            "unit__serial", flat=True
+        )
+    )
+    masses: dict[str, list[float | None]] = {serial: [] for serial in counts}
+    readings = (
+        AnodeReading.objects.filter(record__unit__variant__name__in=DEMO_VARIANT_NAMES)
+        .order_by("record__unit__serial", "record__opened_at", "position__name")
+        .values_list("record__unit__serial", "mass_g")
+    )
+    for serial, mass in readings:
+        masses[serial].append(mass)
+    for serial in sorted(counts):
+        out[serial] = (counts[serial], tuple(masses[serial]))
+    return out

@@ -108,16 +108,19 @@ class VariantSpec:
     address_band: str
 
 
-# Buoyancy check for the collar units, seawater 1025 kg/m³: Release 1500 displaces
-# 0.0440 m³ -> 45.1 kg against 38.0 kg in air, +19 %; Deep 3000 displaces 0.0570 m³ ->
-# 58.4 kg against 52.0 kg, +12 %. The mid-water unit rides in a frame and is heavy in water.
+# Buoyancy of the invented designs at 1021.7 kg/m³ (30 °C surface water, the least dense a
+# rising unit meets): Release 1500 displaces 0.0440 m³ -> 45.0 kg against 38.0 kg in air;
+# Deep 3000 0.0570 m³ -> 58.2 kg against 52.0 kg; the mid-water unit's foam collar brings
+# it to 0.0215 m³ -> 22.0 kg against 16.5 kg, so it floats free if its mooring parts. Each
+# keeps more than the 10 % of its mass in air the recovery rule asks for.
 VARIANTS: tuple[VariantSpec, ...] = (
     VariantSpec(
         key="mw",
         name="Mid-water 500 m",
         description=(
-            "Shallow mid-water unit in a clamp frame, hard-anodised aluminium housing, no "
-            "release; recovered with its mooring. Alkaline pack of 21 D cells in one string."
+            "Shallow mid-water unit in a clamp frame with a foam collar, hard-anodised "
+            "aluminium housing, no release; recovered with its mooring. Alkaline pack of 21 D "
+            "cells in one string."
         ),
         depth_rating_m=500.0,
         housing_alloy="al6061",
@@ -129,7 +132,7 @@ VARIANTS: tuple[VariantSpec, ...] = (
         listen_current_a=0.00018,
         release_charge_as=0.0,
         mass_in_air_kg=16.5,
-        displaced_volume_m3=0.0095,
+        displaced_volume_m3=0.0215,
         reply_steps=((1, 0.003, 183.0), (2, 0.006, 187.0), (3, 0.011, 190.0)),
         anodes=(
             AnodeSpec("Upper end cap", "zn", 180.0, 0.0035, 45.0),

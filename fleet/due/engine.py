@@ -49,7 +49,6 @@ from .duty import Duty, charge_per_reply_as, duty_of
 from .items import DueItem, DueState, ItemKind, classify
 from .rules import Rules, rules_for
 
-ANODE_METAL = {"al_zn_in": "Al-Zn-In", "zn": "Zn", "mg": "Mg"}
 CHEMISTRY_KEY = {
     "alkaline": "alkaline_zn_mno2",
     "li_socl2": "li_socl2_bobbin",
@@ -120,7 +119,7 @@ def anode_projection(row: AnodeState, rules: Rules, duty: Duty) -> AnodeProjecti
     threshold = new_kg * position.replace_at_remaining_percent / 100.0
     design_rate = None
     if position.design_current_a:
-        capacity = calc_anodes.alloy(ANODE_METAL[position.alloy]).capacity_ah_per_kg
+        capacity = calc_anodes.alloy(position.calc_alloy_name).capacity_ah_per_kg
         design_rate = calc_anodes.design_wear_rate_kg_per_day(position.design_current_a, capacity)
     since_fit = max(0.0, duty.immersed_days - row.immersed_days_at_fit)
     fit = None

@@ -1,10 +1,13 @@
 """Forms for the workshop pages. Validation of a value lives on the model; forms add the
 context a model cannot see on its own (which unit a record is for, who may be technician)."""
 
+import datetime as dt
+
 from django import forms
 from django.contrib.auth import get_user_model
 from django.db.models import Q, QuerySet
 from django.forms import BaseInlineFormSet, inlineformset_factory
+from django.utils import timezone
 
 from . import roles
 from .models import (
@@ -23,7 +26,9 @@ from .models import (
     UnitPhoto,
     Variant,
 )
+from .models.validators import PLANNING_HORIZON_DAYS
 from .photos import clean_photo
+from .selectors import previous_anode_mass
 
 
 class DateInput(forms.DateInput):
@@ -126,12 +131,45 @@ class AnodeReadingForm(EntryForm):
         ]
         widgets = {"photo": forms.ClearableFileInput(attrs={"accept": "image/*"})}
 
+    # Shown (as a checkbox) only when the mass is heavier than the anode's last reading.
+    confirm_heavier = forms.BooleanField(
+        required=False,
+        widget=forms.HiddenInput,
+        label="Heavier than the last reading: weighed again, keep it",
+    )
+
     def __init__(
         self, *args: object, record: ServiceRecord | None = None, **kwargs: object
     ) -> None:
         super().__init__(*args, record=record, **kwargs)
+        self.record = record
         if record is not None:
             self.fields["position"].queryset = record.unit.variant.anode_positions.all()
+
+    def clean(self) -> dict[str, object]:
+        data = super().clean()
+        mass, position = data.get("mass_g"), data.get("position")
+        record = self.record
+        if mass is None or position is None or record is None or not record.unit_id:
+            return data
+        previous = previous_anode_mass(
+            unit_id=record.unit_id,
+            position_id=position.pk,
+            before=record.opened_at or timezone.now(),
+            exclude_record_id=record.pk,
+        )
+        if previous is None or mass <= previous.mass_g:
+            return data
+        # An anode only loses mass: ask for a second look instead of refusing or saving blind.
+        self.fields["confirm_heavier"].widget = forms.CheckboxInput()
+        if not data.get("confirm_heavier"):
+            self.add_error(
+                "confirm_heavier",
+                f"{mass:g} g is heavier than this anode's last reading ({previous.mass_g:g} g "
+                f"on {previous.on}), and an anode only loses mass. Weigh it again and check it "
+                "is the same anode; if the reading is right, tick this box to save it.",
+            )
+        return data
 
     def clean_photo(self) -> object:
         photo = self.cleaned_data.get("photo")
@@ -396,6 +434,11 @@ class PlannedDeploymentForm(forms.Form):
         start = self.cleaned_data["start"]
         if start < self.today:
             raise forms.ValidationError("The deployment must start today or later.")
+        horizon = self.today + dt.timedelta(days=PLANNING_HORIZON_DAYS)
+        if start > horizon:
+            raise forms.ValidationError(
+                f"Plan at most {PLANNING_HORIZON_DAYS // 366} years ahead (until {horizon})."
+            )
         return start
 
 

@@ -7,6 +7,7 @@ from django import forms
 from django.contrib.auth import get_user_model
 from django.db.models import Q, QuerySet
 from django.forms import BaseInlineFormSet, inlineformset_factory
+from django.utils import timezone
 
 from . import roles
 from .due import planned as planned_limits
@@ -27,6 +28,7 @@ from .models import (
     Variant,
 )
 from .photos import clean_photo
+from .selectors import previous_anode_mass
 
 
 class DateInput(forms.DateInput):
@@ -129,12 +131,45 @@ class AnodeReadingForm(EntryForm):
         ]
         widgets = {"photo": forms.ClearableFileInput(attrs={"accept": "image/*"})}
 
+    # Shown (as a checkbox) only when the mass is heavier than the anode's last reading.
+    confirm_heavier = forms.BooleanField(
+        required=False,
+        widget=forms.HiddenInput,
+        label="Heavier than the last reading: weighed again, keep it",
+    )
+
     def __init__(
         self, *args: object, record: ServiceRecord | None = None, **kwargs: object
     ) -> None:
         super().__init__(*args, record=record, **kwargs)
+        self.record = record
         if record is not None:
             self.fields["position"].queryset = record.unit.variant.anode_positions.all()
+
+    def clean(self) -> dict[str, object]:
+        data = super().clean()
+        mass, position = data.get("mass_g"), data.get("position")
+        record = self.record
+        if mass is None or position is None or record is None or not record.unit_id:
+            return data
+        previous = previous_anode_mass(
+            unit_id=record.unit_id,
+            position_id=position.pk,
+            before=record.opened_at or timezone.now(),
+            exclude_record_id=record.pk,
+        )
+        if previous is None or mass <= previous.mass_g:
+            return data
+        # An anode only loses mass: ask for a second look instead of refusing or saving blind.
+        self.fields["confirm_heavier"].widget = forms.CheckboxInput()
+        if not data.get("confirm_heavier"):
+            self.add_error(
+                "confirm_heavier",
+                f"{mass:g} g is heavier than this anode's last reading ({previous.mass_g:g} g "
+                f"on {previous.on}), and an anode only loses mass. Weigh it again and check it "
+                "is the same anode; if the reading is right, tick this box to save it.",
+            )
+        return data
 
     def clean_photo(self) -> object:
         photo = self.cleaned_data.get("photo")

@@ -179,6 +179,10 @@ HOLDFAST = {
     # A test set to "1.25 × rating" on the workshop gauge is accepted within the gauge's
     # own uncertainty of the computed proof pressure.
     "PRESSURE_GAUGE_TOLERANCE_PERCENT": 0.5,
+    # A test pressure entered above this multiple of the pressure at the variant's rated depth
+    # is refused as a typing error: no housing is proof-tested that far over its rating
+    # (common practice, no published source; proof factors run 1.1 to 1.5).
+    "PRESSURE_TEST_MAX_OVER_RATING": 1.5,
     "RELEASE_TEST_VALID_DAYS": 180,
     "RELEASE_MAX_SECONDS": 60.0,
     "RELEASE_MAX_MOTOR_CURRENT_A": 3.0,

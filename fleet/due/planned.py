@@ -10,6 +10,7 @@ import datetime as dt
 from dataclasses import dataclass
 
 from fleet.models import Site
+from fleet.models.validators import PLANNING_HORIZON_DAYS
 
 MAX_DAYS = 3650  # ten years: longer than any pack lasts in the water
 MAX_INTERROGATIONS_PER_DAY = 1_000_000
@@ -17,8 +18,6 @@ POWER_STEPS = (1, 9)
 # Inside fleet.calc.ranging's domains (RANGE_RANGE_M, PING_INTERVAL_RANGE_S).
 MAX_HORIZONTAL_OFFSET_M = 20_000.0
 PING_INTERVAL_S = (0.5, 60.0)
-# How far ahead a deployment can be planned; further out nothing the records say still holds.
-PLANNING_HORIZON_DAYS = 5 * 366
 
 
 @dataclass(frozen=True, slots=True)

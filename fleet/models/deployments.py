@@ -9,13 +9,18 @@ from django.utils import timezone
 
 from .places import Site
 from .units import Transponder, check_power_step
+from .validators import not_before_1980
 
 
 class Deployment(models.Model):
     unit = models.ForeignKey(Transponder, on_delete=models.PROTECT, related_name="deployments")
     site = models.ForeignKey(Site, on_delete=models.PROTECT, related_name="deployments")
-    over_side_at = models.DateTimeField("over the side")
-    recovered_at = models.DateTimeField("recovered", null=True, blank=True)
+    over_side_at = models.DateTimeField("over the side", validators=[not_before_1980])
+    recovered_at = models.DateTimeField(
+        "recovered", null=True, blank=True, validators=[not_before_1980]
+    )
+    # Days, interrogations a day and power step feed calc.battery.charge_used_ah (listen
+    # hours and replies from 0 up) through the due engine and readiness.
     planned_days = models.PositiveIntegerField(
         validators=[MinValueValidator(1), MaxValueValidator(3650)]
     )

@@ -7,6 +7,7 @@ engine reads them from here.
 """
 
 import datetime as dt
+import math
 
 from django.conf import settings
 from django.core.exceptions import ValidationError
@@ -16,8 +17,11 @@ from django.db.models import Q
 from django.urls import reverse
 from django.utils import timezone
 
+from fleet.calc.seawater import pressure_dbar
+
 from .places import Place
 from .units import Transponder
+from .validators import finite, not_before_1980
 from .variants import AnodePosition, Chemistry, Elastomer, SealPosition
 
 
@@ -32,7 +36,7 @@ def _not_future_date(value: dt.date | None, field: str, errors: dict[str, str]) 
 
 class ServiceRecord(models.Model):
     unit = models.ForeignKey(Transponder, on_delete=models.PROTECT, related_name="service_records")
-    opened_at = models.DateTimeField("opened")
+    opened_at = models.DateTimeField("opened", validators=[not_before_1980])
     closed_at = models.DateTimeField("closed", null=True, blank=True)
     technician = models.ForeignKey(
         settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="records_worked"
@@ -113,20 +117,22 @@ class AnodeReading(Entry):
         ServiceRecord, on_delete=models.CASCADE, related_name="anode_readings"
     )
     position = models.ForeignKey(AnodePosition, on_delete=models.PROTECT, related_name="readings")
+    # Mass and remaining percent feed calc.anodes.WearSums.add (mass_kg >= 0); the upper
+    # bound of the mass is the position's new net mass, checked in clean().
     mass_g = models.FloatField(
-        "net mass (g)", null=True, blank=True, validators=[MinValueValidator(0.0)]
+        "net mass (g)", null=True, blank=True, validators=[finite, MinValueValidator(0.0)]
     )
     remaining_percent = models.FloatField(
         "estimated remaining (%)",
         null=True,
         blank=True,
-        validators=[MinValueValidator(0.0), MaxValueValidator(100.0)],
+        validators=[finite, MinValueValidator(0.0), MaxValueValidator(100.0)],
     )
     bond_resistance_ohm = models.FloatField(
         "bond resistance (Ω)",
         null=True,
         blank=True,
-        validators=[MinValueValidator(0.0), MaxValueValidator(1000.0)],
+        validators=[finite, MinValueValidator(0.0), MaxValueValidator(1000.0)],
     )
     replaced = models.BooleanField(
         "replaced", default=False, help_text="A new anode was fitted after this reading."
@@ -191,7 +197,9 @@ class SealChange(Entry):
     position = models.ForeignKey(SealPosition, on_delete=models.PROTECT, related_name="changes")
     material = models.CharField(max_length=8, choices=Elastomer.choices)
     cure_date = models.DateField(
-        "cure date", help_text="From the packet; the first day of the cure quarter if only that."
+        "cure date",
+        validators=[not_before_1980],
+        help_text="From the packet; the first day of the cure quarter if only that.",
     )
     lot = models.CharField(max_length=40, blank=True)
     reason = models.CharField(max_length=16, choices=Reason.choices)
@@ -224,23 +232,27 @@ class BatteryInstall(Entry):
     pack_serial = models.CharField(max_length=40)
     chemistry = models.CharField(max_length=12, choices=Chemistry.choices)
     nominal_voltage_v = models.FloatField(
-        "nominal voltage (V)", validators=[MinValueValidator(0.5), MaxValueValidator(200.0)]
+        "nominal voltage (V)",
+        validators=[finite, MinValueValidator(0.5), MaxValueValidator(200.0)],
     )
+    # Inside calc.battery.PackSpec's cell_capacity_ah (0, 1000] Ah: the due engine divides
+    # the pack's capacity by the variant's parallel strings (at least 1).
     capacity_ah = models.FloatField(
-        "rated capacity (Ah)", validators=[MinValueValidator(0.01), MaxValueValidator(10000.0)]
+        "rated capacity (Ah)",
+        validators=[finite, MinValueValidator(0.01), MaxValueValidator(1000.0)],
     )
-    made_on = models.DateField("pack made on")
-    installed_on = models.DateField("installed on")
-    removed_on = models.DateField("removed on", null=True, blank=True)
+    made_on = models.DateField("pack made on", validators=[not_before_1980])
+    installed_on = models.DateField("installed on", validators=[not_before_1980])
+    removed_on = models.DateField("removed on", null=True, blank=True, validators=[not_before_1980])
     ocv_install_v = models.FloatField(
         "open-circuit volts at install",
-        validators=[MinValueValidator(0.0), MaxValueValidator(300.0)],
+        validators=[finite, MinValueValidator(0.0), MaxValueValidator(300.0)],
     )
     ocv_removal_v = models.FloatField(
         "open-circuit volts at removal",
         null=True,
         blank=True,
-        validators=[MinValueValidator(0.0), MaxValueValidator(300.0)],
+        validators=[finite, MinValueValidator(0.0), MaxValueValidator(300.0)],
     )
 
     kind_label = "battery install"
@@ -296,24 +308,32 @@ class PressureTest(Entry):
     record = models.ForeignKey(
         ServiceRecord, on_delete=models.CASCADE, related_name="pressure_tests"
     )
-    tested_on = models.DateField()
+    tested_on = models.DateField(validators=[not_before_1980])
+    # Every number here lies inside calc.pressure.evaluate_hold's domain: pressures 0 to
+    # 12000 dbar (calc.seawater.MAX_PRESSURE_DBAR), a hold above 0 min, water -2.5 to 40 °C.
+    # The test pressure is compared with calc.pressure.required_test_pressure_dbar, which is
+    # above 0 dbar. A 0 dbar test or a 0 min hold is no test: both start at 1.
     test_pressure_dbar = models.FloatField(
-        "test pressure (dbar)", validators=[MinValueValidator(0.0), MaxValueValidator(20000.0)]
+        "test pressure (dbar)",
+        validators=[finite, MinValueValidator(1.0), MaxValueValidator(12000.0)],
     )
     hold_minutes = models.FloatField(
-        "hold (min)", validators=[MinValueValidator(0.0), MaxValueValidator(10000.0)]
+        "hold (min)", validators=[finite, MinValueValidator(1.0), MaxValueValidator(10080.0)]
     )
     start_pressure_dbar = models.FloatField(
-        "start of hold (dbar)", validators=[MinValueValidator(0.0), MaxValueValidator(20000.0)]
+        "start of hold (dbar)",
+        validators=[finite, MinValueValidator(0.0), MaxValueValidator(12000.0)],
     )
     end_pressure_dbar = models.FloatField(
-        "end of hold (dbar)", validators=[MinValueValidator(0.0), MaxValueValidator(20000.0)]
+        "end of hold (dbar)",
+        validators=[finite, MinValueValidator(0.0), MaxValueValidator(12000.0)],
     )
     water_temperature_start_c = models.FloatField(
-        "water at start (°C)", validators=[MinValueValidator(-2.0), MaxValueValidator(50.0)]
+        "water at start (°C)",
+        validators=[finite, MinValueValidator(-2.0), MaxValueValidator(40.0)],
     )
     water_temperature_end_c = models.FloatField(
-        "water at end (°C)", validators=[MinValueValidator(-2.0), MaxValueValidator(50.0)]
+        "water at end (°C)", validators=[finite, MinValueValidator(-2.0), MaxValueValidator(40.0)]
     )
     ingress_found = models.BooleanField("ingress found", default=False)
     facility = models.CharField(max_length=80)
@@ -330,6 +350,41 @@ class PressureTest(Entry):
         super().clean()
         errors: dict[str, str] = {}
         _not_future_date(self.tested_on, "tested_on", errors)
+        test, start, end = self.test_pressure_dbar, self.start_pressure_dbar, self.end_pressure_dbar
+        # Only compare numbers the field validators accept; they report the rest.
+        if not all(isinstance(v, int | float) and math.isfinite(v) for v in (test, start, end)):
+            if errors:
+                raise ValidationError(errors)
+            return
+        tolerance_pct = settings.HOLDFAST["PRESSURE_GAUGE_TOLERANCE_PERCENT"]
+        tolerance = tolerance_pct / 100.0
+        lo, hi = test * (1.0 - tolerance), test * (1.0 + tolerance)
+        if not lo <= start <= hi:
+            errors["start_pressure_dbar"] = (
+                f"The hold must start at the test pressure {test:g} dbar within the gauge "
+                f"tolerance of ±{tolerance_pct:g} % ({lo:.1f} to {hi:.1f} dbar); "
+                f"{start:g} dbar is outside it. Check the gauge reading and the test pressure."
+            )
+        if end > start * (1.0 + tolerance):
+            errors["end_pressure_dbar"] = (
+                f"The pressure rose from {start:g} to {end:g} dbar during the hold, more than "
+                f"the gauge tolerance of ±{tolerance_pct:g} %. A rise means a gauge or "
+                "temperature effect or a leak in the rig: repeat the test."
+            )
+        record = self.owning_record()
+        if record is not None and record.unit_id:
+            rating_m = record.unit.variant.depth_rating_m
+            factor = settings.HOLDFAST["PRESSURE_TEST_MAX_OVER_RATING"]
+            try:
+                rated = pressure_dbar(rating_m, settings.HOLDFAST["DEFAULT_LATITUDE_DEG"])
+            except ValueError:
+                rated = None  # a rating outside the ocean: the variant's own check says so
+            if rated is not None and test > factor * rated:
+                errors["test_pressure_dbar"] = (
+                    f"{test:g} dbar is more than {factor:g} × the {rated:.0f} dbar of this "
+                    f"variant's {rating_m:g} m rating (at most {factor * rated:.0f} dbar): the "
+                    "housing is not rated for it. Check the value and the unit."
+                )
         if errors:
             raise ValidationError(errors)
 
@@ -343,19 +398,25 @@ class ReleaseTest(Entry):
     record = models.ForeignKey(
         ServiceRecord, on_delete=models.CASCADE, related_name="release_tests"
     )
-    tested_on = models.DateField()
+    tested_on = models.DateField(validators=[not_before_1980])
     kind = models.CharField(max_length=8, choices=Kind.choices)
+    # Physical ranges for a transponder's release (common practice, no published source):
+    # a load test hangs at most a few tonnes on the hook (5000 kg); a motorised release opens
+    # in seconds, so 0.1 s is the stopwatch's floor and 10 min means it never ran; a small
+    # DC gear motor draws tens of mA to a few A, so 20 A can only be a meter error.
     load_kg = models.FloatField(
         "load (kg)",
         null=True,
         blank=True,
-        validators=[MinValueValidator(0.0), MaxValueValidator(20000.0)],
+        validators=[finite, MinValueValidator(0.0), MaxValueValidator(5000.0)],
     )
     seconds_to_release = models.FloatField(
-        "time to release (s)", validators=[MinValueValidator(0.0), MaxValueValidator(3600.0)]
+        "time to release (s)",
+        validators=[finite, MinValueValidator(0.1), MaxValueValidator(600.0)],
     )
     motor_current_a = models.FloatField(
-        "peak motor current (A)", validators=[MinValueValidator(0.0), MaxValueValidator(50.0)]
+        "peak motor current (A)",
+        validators=[finite, MinValueValidator(0.01), MaxValueValidator(20.0)],
     )
     limit_switch_ok = models.BooleanField("limit switch ok", default=False)
     acoustic_command_ok = models.BooleanField("acoustic command ok", default=False)
@@ -387,17 +448,24 @@ class SensorCheck(Entry):
     record = models.ForeignKey(
         ServiceRecord, on_delete=models.CASCADE, related_name="sensor_checks"
     )
-    checked_on = models.DateField()
+    checked_on = models.DateField(validators=[not_before_1980])
     sensor = models.CharField(max_length=12, choices=Sensor.choices)
+    # Ranges per sensor in clean(); a temperature reference feeds calc.rtd.tolerance_c, whose
+    # narrowest wire-wound class (AA) covers -50 to 250 °C.
     reference_value = models.FloatField(
-        help_text="Reference instrument's value in the sensor's unit (°C, dbar or degrees)."
+        validators=[finite],
+        help_text="Reference instrument's value in the sensor's unit (°C, dbar or degrees).",
     )
-    unit_reading = models.FloatField(help_text="What the unit reported, same unit.")
+    unit_reading = models.FloatField(
+        validators=[finite], help_text="What the unit reported, same unit."
+    )
+    # Inside calc.rtd.temperature_c's domain for a Pt100: R0 x CVD(-200 °C) = 18.52 ohm to
+    # R0 x CVD(850 °C) = 390.48 ohm (IEC 60751).
     raw_resistance_ohm = models.FloatField(
         "raw resistance (Ω)",
         null=True,
         blank=True,
-        validators=[MinValueValidator(10.0), MaxValueValidator(500.0)],
+        validators=[finite, MinValueValidator(20.0), MaxValueValidator(390.0)],
         help_text="Temperature only: the PT100 element's resistance, read at the connector.",
     )
 
@@ -438,8 +506,8 @@ class HousingOpening(Entry):
     record = models.ForeignKey(
         ServiceRecord, on_delete=models.CASCADE, related_name="housing_openings"
     )
-    opened_at = models.DateTimeField("opened")
-    closed_at = models.DateTimeField("closed", null=True, blank=True)
+    opened_at = models.DateTimeField("opened", validators=[not_before_1980])
+    closed_at = models.DateTimeField("closed", null=True, blank=True, validators=[not_before_1980])
     vented_before_opening = models.BooleanField("vented before opening", default=False)
     internal_pressure_found = models.BooleanField("internal pressure or gas found", default=False)
     reason = models.CharField(max_length=200)

@@ -7,6 +7,7 @@ from django.db import models
 from django.urls import reverse
 
 from .places import Place
+from .validators import finite
 from .variants import Variant
 
 serial_validator = RegexValidator(
@@ -39,8 +40,10 @@ class Transponder(models.Model):
         validators=[RegexValidator(r"^[A-Z0-9-]{1,12}$", "Capital letters, digits and hyphens.")],
         help_text="Address or channel the unit answers to.",
     )
+    # Inside calc.ranging's turnaround_s guard (0 to 10 s) once divided by 1000.
     turnaround_delay_ms = models.FloatField(
-        "turnaround delay (ms)", validators=[MinValueValidator(0.0), MaxValueValidator(1000.0)]
+        "turnaround delay (ms)",
+        validators=[finite, MinValueValidator(0.0), MaxValueValidator(1000.0)],
     )
     transmit_power_step = models.PositiveSmallIntegerField(
         default=1, validators=[MinValueValidator(1), MaxValueValidator(9)]

@@ -5,9 +5,14 @@ depth rating, battery arrangement, duty currents, and the maintenance intervals 
 sets. Intervals left empty fall back to the defaults in ``settings.HOLDFAST``.
 """
 
+from django.conf import settings
 from django.core.exceptions import ValidationError
 from django.core.validators import MaxValueValidator, MinValueValidator
 from django.db import models
+
+from fleet.calc.seawater import MAX_PRESSURE_DBAR, pressure_dbar
+
+from .validators import finite
 
 
 class HousingAlloy(models.TextChoices):
@@ -69,8 +74,11 @@ def _validate_chemistry_list(value: object) -> None:
 class Variant(models.Model):
     name = models.CharField(max_length=80, unique=True)
     description = models.TextField(blank=True)
+    # Inside calc.seawater.pressure_dbar (0..11000 m) as fed to
+    # calc.pressure.required_test_pressure_dbar; clean() keeps the proof pressure inside
+    # calc.pressure.evaluate_hold's 12000 dbar.
     depth_rating_m = models.FloatField(
-        "depth rating (m)", validators=[MinValueValidator(1.0), MaxValueValidator(11000.0)]
+        "depth rating (m)", validators=[finite, MinValueValidator(1.0), MaxValueValidator(11000.0)]
     )
     housing_alloy = models.CharField(max_length=16, choices=HousingAlloy.choices)
     release_fitted = models.BooleanField(default=False)
@@ -91,40 +99,43 @@ class Variant(models.Model):
         default=1, validators=[MinValueValidator(1), MaxValueValidator(20)]
     )
 
-    # Duty
+    # Duty: calc.battery.charge_used_ah takes listen_current_a in 0..10 A and
+    # charge_per_release_as from 0 up.
     listen_current_a = models.FloatField(
         "listen-mode current (A)",
-        validators=[MinValueValidator(0.0), MaxValueValidator(1.0)],
+        validators=[finite, MinValueValidator(0.0), MaxValueValidator(1.0)],
         help_text="Quiescent current while listening, in amperes (0.0002 = 200 µA).",
     )
     release_charge_as = models.FloatField(
         "charge per release operation (A·s)",
         default=0.0,
-        validators=[MinValueValidator(0.0), MaxValueValidator(100000.0)],
+        validators=[finite, MinValueValidator(0.0), MaxValueValidator(100000.0)],
     )
 
-    # Recovery buoyancy (in air mass and displaced volume with flotation collar fitted)
+    # Recovery buoyancy (in air mass and displaced volume with flotation collar fitted);
+    # calc.buoyancy.BuoyancyPart takes both from 0 up.
     mass_in_air_kg = models.FloatField(
         "mass in air (kg)",
         null=True,
         blank=True,
-        validators=[MinValueValidator(0.0), MaxValueValidator(5000.0)],
+        validators=[finite, MinValueValidator(0.0), MaxValueValidator(5000.0)],
     )
     displaced_volume_m3 = models.FloatField(
         "displaced volume (m³)",
         null=True,
         blank=True,
-        validators=[MinValueValidator(0.0), MaxValueValidator(10.0)],
+        validators=[finite, MinValueValidator(0.0), MaxValueValidator(10.0)],
     )
 
     # Maintenance intervals and limits (empty: settings default)
     pressure_test_valid_months = models.PositiveSmallIntegerField(
         null=True, blank=True, validators=[MinValueValidator(1), MaxValueValidator(120)]
     )
+    # calc.pressure.required_test_pressure_dbar takes a proof factor in 1..3.
     proof_factor = models.FloatField(
         null=True,
         blank=True,
-        validators=[MinValueValidator(1.0), MaxValueValidator(3.0)],
+        validators=[finite, MinValueValidator(1.0), MaxValueValidator(3.0)],
         help_text="Test pressure as a multiple of the site pressure (workshop practice).",
     )
     release_test_valid_days = models.PositiveSmallIntegerField(
@@ -137,25 +148,26 @@ class Variant(models.Model):
         "bond resistance limit (Ω)",
         null=True,
         blank=True,
-        validators=[MinValueValidator(0.0), MaxValueValidator(100.0)],
+        validators=[finite, MinValueValidator(0.0), MaxValueValidator(100.0)],
     )
+    # Acceptance limits within the ranges a release test can be entered with (ReleaseTest).
     release_max_seconds = models.FloatField(
         "release acceptance: longest time to release (s)",
         null=True,
         blank=True,
-        validators=[MinValueValidator(0.1), MaxValueValidator(3600.0)],
+        validators=[finite, MinValueValidator(0.1), MaxValueValidator(600.0)],
     )
     release_max_motor_current_a = models.FloatField(
         "release acceptance: highest motor current (A)",
         null=True,
         blank=True,
-        validators=[MinValueValidator(0.01), MaxValueValidator(50.0)],
+        validators=[finite, MinValueValidator(0.01), MaxValueValidator(20.0)],
     )
     battery_reserve_fraction = models.FloatField(
         "battery reserve (fraction of usable charge)",
         null=True,
         blank=True,
-        validators=[MinValueValidator(0.0), MaxValueValidator(0.9)],
+        validators=[finite, MinValueValidator(0.0), MaxValueValidator(0.9)],
     )
 
     class Meta:
@@ -166,10 +178,34 @@ class Variant(models.Model):
 
     def clean(self) -> None:
         super().clean()
+        errors: dict[str, str] = {}
         if (self.mass_in_air_kg is None) != (self.displaced_volume_m3 is None):
-            raise ValidationError(
-                {"displaced_volume_m3": "Give both mass in air and displaced volume, or neither."}
+            errors["displaced_volume_m3"] = (
+                "Give both mass in air and displaced volume, or neither."
             )
+        holdfast = settings.HOLDFAST
+        factor = holdfast["PROOF_FACTOR"] if self.proof_factor is None else self.proof_factor
+        top = holdfast["PRESSURE_TEST_MAX_OVER_RATING"]
+        if self.proof_factor is not None and self.proof_factor > top:
+            errors["proof_factor"] = (
+                f"A proof factor above {top:g} would ask for tests that are refused at entry "
+                f"(test pressure at most {top:g} × the rating)."
+            )
+        try:
+            # At the pole, where a depth gives the highest pressure: the due engine takes the
+            # site's latitude, and calc.pressure.evaluate_hold refuses a required pressure
+            # above calc.seawater.MAX_PRESSURE_DBAR.
+            proof = factor * pressure_dbar(self.depth_rating_m, 90.0)
+        except (TypeError, ValueError):
+            proof = None  # the field validators report the rating itself
+        if proof is not None and proof > MAX_PRESSURE_DBAR:
+            errors["depth_rating_m"] = (
+                f"A proof test at {factor:g} × this rating needs {proof:.0f} dbar, above the "
+                f"{MAX_PRESSURE_DBAR:.0f} dbar the pressure-test checks cover; lower the rating "
+                "or the proof factor."
+            )
+        if errors:
+            raise ValidationError(errors)
 
 
 class ReplyChargeStep(models.Model):
@@ -177,14 +213,17 @@ class ReplyChargeStep(models.Model):
 
     variant = models.ForeignKey(Variant, on_delete=models.CASCADE, related_name="reply_steps")
     step = models.PositiveSmallIntegerField(validators=[MinValueValidator(1), MaxValueValidator(9)])
+    # calc.battery.charge_used_ah takes the charge per reply from 0 up; the source level lies
+    # inside calc.ranging.reply_margin_db's 0..250 dB.
     charge_per_reply_as = models.FloatField(
-        "charge per reply (A·s)", validators=[MinValueValidator(0.0), MaxValueValidator(100.0)]
+        "charge per reply (A·s)",
+        validators=[finite, MinValueValidator(0.0), MaxValueValidator(100.0)],
     )
     source_level_db = models.FloatField(
         "source level (dB re 1 µPa at 1 m)",
         null=True,
         blank=True,
-        validators=[MinValueValidator(100.0), MaxValueValidator(230.0)],
+        validators=[finite, MinValueValidator(100.0), MaxValueValidator(230.0)],
     )
 
     class Meta:
@@ -203,24 +242,28 @@ class AnodePosition(models.Model):
     variant = models.ForeignKey(Variant, on_delete=models.CASCADE, related_name="anode_positions")
     name = models.CharField(max_length=60)
     alloy = models.CharField(max_length=12, choices=AnodeAlloy.choices, default=AnodeAlloy.AL_ZN_IN)
+    # The new mass and replace-at percent set the wear threshold for
+    # calc.anodes.WearFit.days_to_mass (mass_kg from 0 up); utilisation factor in (0, 1] as
+    # calc.anodes.replacement_mass_kg takes it; design current from 0 up for
+    # calc.anodes.design_wear_rate_kg_per_day.
     new_net_mass_g = models.FloatField(
-        "new net mass (g)", validators=[MinValueValidator(0.1), MaxValueValidator(100000.0)]
+        "new net mass (g)", validators=[finite, MinValueValidator(0.1), MaxValueValidator(100000.0)]
     )
     utilisation_factor = models.FloatField(
         default=0.80,
-        validators=[MinValueValidator(0.01), MaxValueValidator(1.0)],
+        validators=[finite, MinValueValidator(0.01), MaxValueValidator(1.0)],
         help_text="DNV-RP-B401 Table 10-8; 0.80 for bracelets and short flush-mounted anodes.",
     )
     replace_at_remaining_percent = models.FloatField(
         "replace at remaining (%)",
         default=50.0,
-        validators=[MinValueValidator(0.0), MaxValueValidator(100.0)],
+        validators=[finite, MinValueValidator(0.0), MaxValueValidator(100.0)],
     )
     design_current_a = models.FloatField(
         "design mean current (A)",
         null=True,
         blank=True,
-        validators=[MinValueValidator(0.0), MaxValueValidator(100.0)],
+        validators=[finite, MinValueValidator(0.0), MaxValueValidator(100.0)],
         help_text="Mean protection current this anode is sized for; sets the design wear rate.",
     )
 
@@ -254,13 +297,13 @@ class SealPosition(models.Model):
         "ISO 3601 inside diameter d1 (mm)",
         null=True,
         blank=True,
-        validators=[MinValueValidator(0.5), MaxValueValidator(2000.0)],
+        validators=[finite, MinValueValidator(0.5), MaxValueValidator(2000.0)],
     )
     iso_cross_section_mm = models.FloatField(
         "ISO 3601 cross-section d2 (mm)",
         null=True,
         blank=True,
-        validators=[MinValueValidator(0.5), MaxValueValidator(20.0)],
+        validators=[finite, MinValueValidator(0.5), MaxValueValidator(20.0)],
     )
     material = models.CharField(max_length=8, choices=Elastomer.choices, default=Elastomer.NBR)
     count = models.PositiveSmallIntegerField(

@@ -38,6 +38,13 @@ class DateInput(forms.DateInput):
         super().__init__(attrs=attrs, format="%Y-%m-%d")
 
 
+class TimeInput(forms.TimeInput):
+    input_type = "time"
+
+    def __init__(self, attrs: dict[str, str] | None = None) -> None:
+        super().__init__(attrs=attrs, format="%H:%M")
+
+
 class DateTimeInput(forms.DateTimeInput):
     input_type = "datetime-local"
 
@@ -218,6 +225,7 @@ class PressureTestForm(EntryForm):
         model = PressureTest
         fields = [
             "tested_on",
+            "hold_ended_at",
             "facility",
             "test_pressure_dbar",
             "hold_minutes",
@@ -227,7 +235,7 @@ class PressureTestForm(EntryForm):
             "water_temperature_end_c",
             "ingress_found",
         ]
-        widgets = {"tested_on": DateInput()}
+        widgets = {"tested_on": DateInput(), "hold_ended_at": TimeInput()}
 
 
 class ReleaseTestForm(EntryForm):

@@ -106,4 +106,5 @@ def pressure_test(day: dt.date, **kwargs: Any) -> PressureTest:
     kwargs.setdefault("water_temperature_start_c", 12)
     kwargs.setdefault("water_temperature_end_c", 12.2)
     kwargs.setdefault("facility", "Tank")
+    kwargs.setdefault("hold_ended_at", dt.time(16, 0))
     return PressureTest(tested_on=day, **kwargs)

@@ -8,6 +8,7 @@ thirty units and the people's user names. ``simulation.py`` turns the roster int
 
 from __future__ import annotations
 
+import datetime as dt
 from collections.abc import Mapping
 from dataclasses import dataclass
 from types import MappingProxyType
@@ -39,6 +40,7 @@ PLACES: tuple[tuple[str, str], ...] = (
     (VESSELS[1], Place.Kind.VESSEL),
 )
 PRESSURE_FACILITY = "Bench Hall pressure vessel PV-2"
+PRESSURE_HOLD_ENDED_AT = dt.time(15, 30)
 
 
 @dataclass(frozen=True, slots=True)

@@ -44,6 +44,7 @@ from fleet.demo.scenario import (
     PACK_AGE_LIMIT_MONTHS,
     PACK_CODE,
     PRESSURE_FACILITY,
+    PRESSURE_HOLD_ENDED_AT,
     PROOF_FACTOR,
     ROSTER,
     SEED,
@@ -716,6 +717,7 @@ class _UnitSim:
             "pressure",
             {
                 "tested_on": tested,
+                "hold_ended_at": PRESSURE_HOLD_ENDED_AT,
                 "test_pressure_dbar": self.rated_test_dbar,
                 "hold_minutes": float(drng.choice((30, 45, 60))),
                 "start_pressure_dbar": start,

@@ -13,8 +13,8 @@ Algorithm for one unit, run inside the transaction of every write that touches t
    listening hours × listen current + replies × charge per reply at the deployment's
    transmit power step + release operations (``calc.battery.charge_used_ah``). Replies are
    the count made on recovery where there is one, else the planned rate.
-5. Last pressure test, and whether any housing opening since voids it; last release test
-   and sensor checks.
+5. Last pressure test, and whether any housing opening after the end of its hold voids it
+   (``test_moment``); last release test and sensor checks.
 6. The unit's last event (``as_of``): the latest moment a deployment went over the side or
    came back, or a bench visit opened. Every projection runs from there (``duty.py``).
 
@@ -25,6 +25,7 @@ evaluation then reads one row per item.
 import datetime as dt
 
 from django.db import transaction
+from django.utils import timezone
 
 from fleet.calc.anodes import WearSums
 from fleet.calc.battery import charge_used_ah
@@ -45,8 +46,17 @@ from fleet.models import (
     UnitState,
 )
 
-from .days import OPEN_END, local_day, start_of
+from .days import OPEN_END, start_of
 from .duty import charge_per_reply_as, replies_in, replies_per_day
+
+
+def test_moment(test: PressureTest) -> dt.datetime:
+    """When a pressure test's hold ended: its date and time of day, or the start of its day
+    when no time was given (so any opening that day voids it: the safe side)."""
+    day = start_of(test.tested_on)
+    if test.hold_ended_at is None:
+        return day
+    return timezone.make_aware(dt.datetime.combine(test.tested_on, test.hold_ended_at))
 
 
 @transaction.atomic
@@ -170,9 +180,9 @@ def refresh_unit_state(unit: Transponder, *, at: dt.datetime) -> UnitState:
     )
     voided = False
     if last_test is not None:
+        tested_at = test_moment(last_test)
         voided = any(
-            local_day(o.opened_at) > last_test.tested_on
-            or o.record.opened_at > last_test.record.opened_at
+            o.opened_at > tested_at or o.record.opened_at > last_test.record.opened_at
             for o in openings
         )
     last_release = (

@@ -313,6 +313,13 @@ class PressureTest(Entry):
     # 12000 dbar (calc.seawater.MAX_PRESSURE_DBAR), a hold above 0 min, water -2.5 to 40 °C.
     # The test pressure is compared with calc.pressure.required_test_pressure_dbar, which is
     # above 0 dbar. A 0 dbar test or a 0 min hold is no test: both start at 1.
+    hold_ended_at = models.TimeField(
+        "hold ended at",
+        null=True,
+        blank=True,
+        help_text="Local time. A housing opening after this voids the test; without a time, "
+        "any opening that day does.",
+    )
     test_pressure_dbar = models.FloatField(
         "test pressure (dbar)",
         validators=[finite, MinValueValidator(1.0), MaxValueValidator(12000.0)],

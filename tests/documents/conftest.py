@@ -113,6 +113,7 @@ def history(media, unit, technician, supervisor):
         ),
         PressureTest(
             tested_on=dt.date(2026, 3, 2),
+            hold_ended_at=dt.time(14, 0),  # after the housing was closed at 11:00
             test_pressure_dbar=2000,
             hold_minutes=60,
             start_pressure_dbar=2000,

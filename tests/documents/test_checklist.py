@@ -54,6 +54,7 @@ def test_it_prepares_every_field_for_the_hand_built_history(history):
         ("Sensor: Temperature (°C)", "pass"),
         ("Sensor: Pressure (dbar)", "pass"),
         ("Recovery buoyancy", "pass"),
+        ("Reply timing", "pass"),
         ("Acoustic address", "pass"),
     ]
     # Numbers and sources come from fleet.due unchanged; spot-check the ones fixed by the data.
@@ -66,7 +67,7 @@ def test_it_prepares_every_field_for_the_hand_built_history(history):
         "margin: common practice, no published source",
     )
     assert doc.checks[8].numbers == "due 2026-08-29, after recovery 2026-07-09"  # 180 days
-    assert doc.checks[12].numbers == "address 101 free at Test site A"
+    assert doc.checks[13].numbers == "address 101 free at Test site A"
     assert "200 replies a day" in doc.checks[3].numbers
     assert doc.manual_items == (
         ManualItem("Seals inspected, clean and greased; no nicks, set or debris", ""),

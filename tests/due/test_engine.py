@@ -213,6 +213,32 @@ def test_an_opening_before_the_test_in_the_same_visit_does_not_void_it(unit, tec
     assert item(evaluate(unit), "Pressure test").state == DueState.CURRENT
 
 
+def test_an_opening_after_the_test_in_the_same_visit_voids_it(unit, technician):
+    visit(
+        unit,
+        technician,
+        t(2026, 2, 1),
+        pressure_test(dt.date(2026, 2, 1), hold_ended_at=dt.time(11, 0)),
+        HousingOpening(opened_at=t(2026, 2, 1, 15), vented_before_opening=True, reason="check"),
+    )
+    test = item(evaluate(unit), "Pressure test")
+    assert test.state == DueState.OVERDUE
+    assert test.failed
+    assert "void: the housing was opened on 2026-02-01" in test.basis
+
+
+def test_a_test_with_no_time_of_day_is_voided_by_an_opening_that_day(unit, technician):
+    # Without the hold's end time the order is unknown: the safe side is to void it.
+    visit(
+        unit,
+        technician,
+        t(2026, 2, 1),
+        HousingOpening(opened_at=t(2026, 2, 1, 9), vented_before_opening=True, reason="seals"),
+        pressure_test(dt.date(2026, 2, 1), hold_ended_at=None),
+    )
+    assert item(evaluate(unit), "Pressure test").state == DueState.OVERDUE
+
+
 def test_a_test_below_the_rating_pressure_is_not_accepted(unit, technician):
     visit(
         unit,

@@ -63,6 +63,7 @@ def _hold(**kwargs: float) -> pressure.HoldVerdict:
         "water_temperature_end_c": 12.2,
         "ingress_found": False,
         "required_pressure_dbar": 1896.0,
+        "min_hold_minutes": 30.0,
     }
     args.update(kwargs)
     return pressure.evaluate_hold(**args)  # type: ignore[arg-type]

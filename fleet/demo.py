@@ -47,11 +47,8 @@ from fleet.models import (
     Amendment,
     AnodePosition,
     AnodeReading,
-    BatteryInstall,
     Deployment,
-    HousingOpening,
     Place,
-    PressureTest,
     ReleaseCertificate,
     ReleaseTest,
     ReplyChargeStep,
@@ -64,6 +61,7 @@ from fleet.models import (
     UnitStatus,
     Variant,
 )
+from fleet.models.records import entry_kinds
 from fleet.services.deployments import deployment_recover, deployment_start
 from fleet.services.records import service_record_close, service_record_save
 
@@ -1237,15 +1235,9 @@ def _create_reference() -> tuple[dict[str, Place], dict[str, Site], dict[str, Va
     return places, sites, variants
 
 
-_ENTRY_MODELS: dict[str, type[Any]] = {
-    "anode": AnodeReading,
-    "seal": SealChange,
-    "battery": BatteryInstall,
-    "pressure": PressureTest,
-    "release": ReleaseTest,
-    "sensor": SensorCheck,
-    "opening": HousingOpening,
-}
+def _entry_models() -> dict[str, type[Any]]:
+    """A plan names an entry kind by its bench-form prefix in the singular ("anode")."""
+    return {kind.bench_prefix.removesuffix("s"): kind for kind in entry_kinds()}
 
 
 @dataclass(frozen=True, slots=True)
@@ -1324,7 +1316,7 @@ def load_demo(*, today: dt.date) -> LoadSummary:
             )
             built = []
             for item in event.entries:
-                model = _ENTRY_MODELS[item.kind]
+                model = _entry_models()[item.kind]
                 values = dict(item.values)
                 if item.kind == "anode":
                     values["position"] = anode_positions[(variant.pk, item.position)]

@@ -7,7 +7,8 @@ from django.views.decorators.http import require_http_methods
 from django_tables2 import RequestConfig
 
 from fleet import roles
-from fleet.due.engine import evaluate_unit, fleet_queryset
+from fleet.due.engine import evaluate_unit, fleet_queryset, release_test_failures
+from fleet.due.rules import Rules
 from fleet.exports import csv_response
 from fleet.filters import UnitFilter
 from fleet.forms import PlannedDeploymentForm, UnitPhotoForm
@@ -15,10 +16,12 @@ from fleet.models import (
     AnodeReading,
     BatteryInstall,
     Deployment,
+    ReleaseTest,
     SealChange,
     ServiceRecord,
     Transponder,
 )
+from fleet.models.records import entry_kinds
 from fleet.tables import UnitTable, status_badge
 
 from .guards import get_unit_for_user, require
@@ -65,6 +68,18 @@ def _latest_by_position(entries: list, key: str) -> dict[int, object]:
     return latest
 
 
+def _entry_lines(record: ServiceRecord, rules: Rules) -> list[tuple[str, str]]:
+    """(line, warning) for each entry of a prefetched record, kind by kind."""
+    lines = []
+    for kind in entry_kinds():
+        for entry in getattr(record, kind.related_name()).all():
+            warning = entry.warning()
+            if isinstance(entry, ReleaseTest) and release_test_failures(entry, rules):
+                warning = "fault noted"
+            lines.append((entry.history_line(), warning))
+    return lines
+
+
 def unit_detail(request: HttpRequest, serial: str) -> HttpResponse:
     unit = get_unit_for_user(request, serial)
     variant = unit.variant
@@ -89,27 +104,24 @@ def unit_detail(request: HttpRequest, serial: str) -> HttpResponse:
         ServiceRecord.objects.filter(unit=unit)
         .select_related("technician", "place", "closed_by")
         .prefetch_related(
-            Prefetch("anode_readings", queryset=AnodeReading.objects.select_related("position")),
-            Prefetch("seal_changes", queryset=SealChange.objects.select_related("position")),
-            "battery_installs",
-            "pressure_tests",
-            "release_tests",
-            "sensor_checks",
-            "housing_openings",
+            *(
+                Prefetch(kind.related_name(), queryset=kind.with_list_related())
+                for kind in entry_kinds()
+            ),
             "amendments",
         )
     )
     deployments = Deployment.objects.filter(unit=unit).select_related("site")
-    history = sorted(
-        [("record", r.opened_at, r) for r in records]
-        + [("deployment", d.over_side_at, d) for d in deployments],
-        key=lambda item: item[1],
-        reverse=True,
-    )
     at = timezone.now()
     on = timezone.localdate(at)
     evaluation = evaluate_unit(
         fleet_queryset(Transponder.objects.filter(pk=unit.pk)).get(), on=on, at=at
+    )
+    history = sorted(
+        [("record", r.opened_at, r, _entry_lines(r, evaluation.rules)) for r in records]
+        + [("deployment", d.over_side_at, d, []) for d in deployments],
+        key=lambda item: item[1],
+        reverse=True,
     )
     return render(
         request,

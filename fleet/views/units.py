@@ -21,7 +21,7 @@ from fleet.models import (
     ServiceRecord,
     Transponder,
 )
-from fleet.models.records import entry_kinds
+from fleet.models.records import Entry, entry_kinds
 from fleet.tables import UnitTable, status_badge
 
 from .guards import get_unit_for_user, require
@@ -68,10 +68,12 @@ def _latest_by_position(entries: list, key: str) -> dict[int, object]:
     return latest
 
 
-def _entry_lines(record: ServiceRecord, rules: Rules) -> list[tuple[str, str]]:
+def _entry_lines(
+    record: ServiceRecord, kinds: tuple[type[Entry], ...], rules: Rules
+) -> list[tuple[str, str]]:
     """(line, warning) for each entry of a prefetched record, kind by kind."""
     lines = []
-    for kind in entry_kinds():
+    for kind in kinds:
         for entry in getattr(record, kind.related_name()).all():
             warning = entry.warning()
             if isinstance(entry, ReleaseTest) and release_test_failures(entry, rules):
@@ -100,14 +102,12 @@ def unit_detail(request: HttpRequest, serial: str) -> HttpResponse:
     last_seal = _latest_by_position(seal_changes, "position_id")
     fitted_pack = BatteryInstall.objects.filter(unit=unit, removed_on__isnull=True).first()
 
+    kinds = entry_kinds()
     records = (
         ServiceRecord.objects.filter(unit=unit)
         .select_related("technician", "place", "closed_by")
         .prefetch_related(
-            *(
-                Prefetch(kind.related_name(), queryset=kind.with_list_related())
-                for kind in entry_kinds()
-            ),
+            *(Prefetch(kind.related_name(), queryset=kind.with_list_related()) for kind in kinds),
             "amendments",
         )
     )
@@ -118,7 +118,7 @@ def unit_detail(request: HttpRequest, serial: str) -> HttpResponse:
         fleet_queryset(Transponder.objects.filter(pk=unit.pk)).get(), on=on, at=at
     )
     history = sorted(
-        [("record", r.opened_at, r, _entry_lines(r, evaluation.rules)) for r in records]
+        [("record", r.opened_at, r, _entry_lines(r, kinds, evaluation.rules)) for r in records]
         + [("deployment", d.over_side_at, d, []) for d in deployments],
         key=lambda item: item[1],
         reverse=True,

@@ -5,7 +5,7 @@ import datetime as dt
 
 from django import forms
 from django.contrib.auth import get_user_model
-from django.db.models import Q, QuerySet
+from django.db.models import Model, Q, QuerySet
 from django.forms import BaseInlineFormSet, inlineformset_factory
 from django.utils import timezone
 
@@ -27,6 +27,7 @@ from .models import (
     UnitPhoto,
     Variant,
 )
+from .models.records import entry_kinds
 from .photos import clean_photo
 from .selectors import previous_anode_mass
 
@@ -112,7 +113,10 @@ class ServiceRecordForm(forms.ModelForm):
 
 
 class EntryForm(forms.ModelForm):
-    """Attaches the (possibly unsaved) record so that model validation sees the unit."""
+    """Attaches the (possibly unsaved) record so that model validation sees the unit.
+
+    Each entry kind has one subclass naming the kind as ``Meta.model``; ``entry_forms()``
+    finds it there."""
 
     def __init__(
         self, *args: object, record: ServiceRecord | None = None, **kwargs: object
@@ -122,6 +126,11 @@ class EntryForm(forms.ModelForm):
             self.instance.record = record
             if isinstance(self.instance, BatteryInstall):
                 self.instance.unit = record.unit
+
+    @classmethod
+    def initial_rows(cls, variant: Variant) -> list[dict[str, object]]:
+        """Rows filled in advance on a new record (the variant's positions, say)."""
+        return []
 
 
 class AnodeReadingForm(EntryForm):
@@ -178,6 +187,10 @@ class AnodeReadingForm(EntryForm):
             )
         return data
 
+    @classmethod
+    def initial_rows(cls, variant: Variant) -> list[dict[str, object]]:
+        return [{"position": p.pk} for p in variant.anode_positions.all()]
+
     def clean_photo(self) -> object:
         photo = self.cleaned_data.get("photo")
         if photo and hasattr(photo, "content_type"):  # a fresh upload, not the stored file
@@ -197,6 +210,10 @@ class SealChangeForm(EntryForm):
         super().__init__(*args, record=record, **kwargs)
         if record is not None:
             self.fields["position"].queryset = record.unit.variant.seal_positions.all()
+
+    @classmethod
+    def initial_rows(cls, variant: Variant) -> list[dict[str, object]]:
+        return [{"position": p.pk, "material": p.material} for p in variant.seal_positions.all()]
 
 
 class BatteryInstallForm(EntryForm):
@@ -284,16 +301,16 @@ class EntryFormSet(BaseInlineFormSet):
         return kwargs
 
 
-# (prefix, title, model, form, extra blank rows on a new record)
-ENTRY_KINDS: tuple[tuple[str, str, type, type[EntryForm], int], ...] = (
-    ("anodes", "Anode readings", AnodeReading, AnodeReadingForm, 0),
-    ("seals", "Seal changes", SealChange, SealChangeForm, 0),
-    ("battery", "Battery install", BatteryInstall, BatteryInstallForm, 1),
-    ("pressure", "Pressure test", PressureTest, PressureTestForm, 1),
-    ("release", "Release test", ReleaseTest, ReleaseTestForm, 1),
-    ("sensors", "Sensor checks", SensorCheck, SensorCheckForm, 2),
-    ("openings", "Housing openings", HousingOpening, HousingOpeningForm, 1),
-)
+def entry_forms() -> dict[type[Model], type[EntryForm]]:
+    """Each entry kind's form, by its ``Meta.model``: every subclass of ``EntryForm``."""
+    found: dict[type[Model], type[EntryForm]] = {}
+    pending = list(EntryForm.__subclasses__())
+    while pending:
+        form = pending.pop(0)
+        if form._meta.model is not None:
+            found.setdefault(form._meta.model, form)
+        pending.extend(form.__subclasses__())
+    return found
 
 
 def entry_formsets(
@@ -301,20 +318,17 @@ def entry_formsets(
 ) -> list[tuple[str, BaseInlineFormSet]]:
     """One formset per entry kind. Anode and seal rows start one per position of the variant."""
     variant = record.unit.variant
+    forms_by_model = entry_forms()
     formsets = []
-    for prefix, title, model, form, extra in ENTRY_KINDS:
-        initial: list[dict[str, object]] = []
-        if prefix == "anodes":
-            initial = [{"position": p.pk} for p in variant.anode_positions.all()]
-        elif prefix == "seals":
-            initial = [
-                {"position": p.pk, "material": p.material} for p in variant.seal_positions.all()
-            ]
+    for kind in entry_kinds():
+        form = forms_by_model[kind]
+        initial = form.initial_rows(variant)
+        extra = kind.bench_extra
         if record.pk is not None:
             initial, extra = [], 1
         formset_class = inlineformset_factory(
             ServiceRecord,
-            model,
+            kind,
             form=form,
             formset=EntryFormSet,
             fk_name="record",
@@ -323,8 +337,10 @@ def entry_formsets(
         )
         formsets.append(
             (
-                title,
-                formset_class(data, files, record=record, prefix=prefix, initial=initial or None),
+                kind.bench_heading(),
+                formset_class(
+                    data, files, record=record, prefix=kind.bench_prefix, initial=initial or None
+                ),
             )
         )
     return formsets

@@ -59,12 +59,8 @@ from fleet.demo.scenario import (
 from fleet.models import (
     AnodeAlloy,
     AnodePosition,
-    AnodeReading,
-    BatteryInstall,
     Deployment,
-    HousingOpening,
     Place,
-    PressureTest,
     ReleaseTest,
     SealChange,
     SealPosition,
@@ -75,6 +71,7 @@ from fleet.models import (
     UnitStatus,
     Variant,
 )
+from fleet.models.records import entry_kinds
 from fleet.services.deployments import deployment_recover, deployment_start
 from fleet.services.records import service_record_close, service_record_save
 
@@ -881,16 +878,11 @@ def plan_fleet(today: dt.date) -> list[UnitPlan]:
 
 # --- Writing a plan: through the services ---------------------------------------------------
 
+
 # Entry kind -> model: the one list of entry models the demo writes.
-_ENTRY_MODELS: dict[str, type[Any]] = {
-    "anode": AnodeReading,
-    "seal": SealChange,
-    "battery": BatteryInstall,
-    "pressure": PressureTest,
-    "release": ReleaseTest,
-    "sensor": SensorCheck,
-    "opening": HousingOpening,
-}
+def _entry_models() -> dict[str, type[Any]]:
+    """A plan names an entry kind by its bench-form prefix in the singular ("anode")."""
+    return {kind.bench_prefix.removesuffix("s"): kind for kind in entry_kinds()}
 
 
 @dataclass(frozen=True, slots=True)
@@ -974,7 +966,7 @@ def _build_entry(item: EntryPlan, variant_pk: int, rows: FleetRows) -> Any:
         values["position"] = rows.anode_positions[(variant_pk, item.position)]
     elif item.kind == "seal":
         values["position"] = rows.seal_positions[(variant_pk, item.position)]
-    return _ENTRY_MODELS[item.kind](**values)
+    return _entry_models()[item.kind](**values)
 
 
 def _set_final_state(unit_pk: int, plan: UnitPlan, rows: FleetRows) -> None:

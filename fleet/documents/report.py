@@ -7,15 +7,28 @@ from __future__ import annotations
 import datetime as dt
 from collections.abc import Callable
 from dataclasses import dataclass
+from functools import partial
 from pathlib import Path
 from typing import Any
 
 from django.core.files.storage import default_storage
+from django.db import models
+from django.utils.text import capfirst
 from reportlab.lib.units import mm
 from reportlab.lib.utils import ImageReader
 from reportlab.platypus import CondPageBreak, Image, KeepTogether, Spacer
 
-from fleet.models import ServiceRecord
+from fleet.models import (
+    AnodeReading,
+    BatteryInstall,
+    HousingOpening,
+    PressureTest,
+    ReleaseTest,
+    SealChange,
+    SensorCheck,
+    ServiceRecord,
+)
+from fleet.models.records import Entry, entry_kinds
 
 from .base import (
     CAUTIONS,
@@ -91,109 +104,112 @@ def _n(value: float | None, unit: str = "") -> str:
     return fmt_number(value, unit)
 
 
-# Per entry kind: section title, related name, and (header, getter) columns.
+# The report's own columns for an entry kind: (header, getter). A kind not listed here is
+# printed with its amendable fields (``_field_columns``).
 Column = tuple[str, Callable[[Any], str]]
-SECTIONS: tuple[tuple[str, str, tuple[Column, ...]], ...] = (
-    (
-        "Anode readings",
-        "anode_readings",
-        (
-            ("#", lambda e: str(e.pk)),
-            ("Position", lambda e: e.position.name),
-            ("Net mass", lambda e: _n(e.mass_g, "g")),
-            ("Remaining", lambda e: _n(e.remaining_percent, "%")),
-            ("Bond", lambda e: _n(e.bond_resistance_ohm, "Ω")),
-            ("Replaced", lambda e: _yes(e.replaced)),
-            ("Note", lambda e: e.note),
-        ),
+COLUMNS: dict[type[Entry], tuple[Column, ...]] = {
+    AnodeReading: (
+        ("#", lambda e: str(e.pk)),
+        ("Position", lambda e: e.position.name),
+        ("Net mass", lambda e: _n(e.mass_g, "g")),
+        ("Remaining", lambda e: _n(e.remaining_percent, "%")),
+        ("Bond", lambda e: _n(e.bond_resistance_ohm, "Ω")),
+        ("Replaced", lambda e: _yes(e.replaced)),
+        ("Note", lambda e: e.note),
     ),
-    (
-        "Seal changes",
-        "seal_changes",
-        (
-            ("#", lambda e: str(e.pk)),
-            ("Position", lambda e: f"{e.position.name} ({e.position.size_label})"),
-            ("Material", lambda e: e.material),
-            ("Cure date", lambda e: fmt_date(e.cure_date)),
-            ("Lot", lambda e: e.lot),
-            ("Reason", lambda e: e.get_reason_display()),
-        ),
+    SealChange: (
+        ("#", lambda e: str(e.pk)),
+        ("Position", lambda e: f"{e.position.name} ({e.position.size_label})"),
+        ("Material", lambda e: e.material),
+        ("Cure date", lambda e: fmt_date(e.cure_date)),
+        ("Lot", lambda e: e.lot),
+        ("Reason", lambda e: e.get_reason_display()),
     ),
-    (
-        "Battery installs",
-        "battery_installs",
-        (
-            ("#", lambda e: str(e.pk)),
-            ("Pack", lambda e: e.pack_serial),
-            ("Chemistry", lambda e: e.get_chemistry_display()),
-            ("Nominal", lambda e: f"{_n(e.nominal_voltage_v, 'V')}, {_n(e.capacity_ah, 'Ah')}"),
-            ("Made / installed", lambda e: f"{fmt_date(e.made_on)} / {fmt_date(e.installed_on)}"),
-            ("Removed", lambda e: fmt_date(e.removed_on)),
-            ("OCV install", lambda e: _n(e.ocv_install_v, "V")),
-        ),
+    BatteryInstall: (
+        ("#", lambda e: str(e.pk)),
+        ("Pack", lambda e: e.pack_serial),
+        ("Chemistry", lambda e: e.get_chemistry_display()),
+        ("Nominal", lambda e: f"{_n(e.nominal_voltage_v, 'V')}, {_n(e.capacity_ah, 'Ah')}"),
+        ("Made / installed", lambda e: f"{fmt_date(e.made_on)} / {fmt_date(e.installed_on)}"),
+        ("Removed", lambda e: fmt_date(e.removed_on)),
+        ("OCV install", lambda e: _n(e.ocv_install_v, "V")),
     ),
-    (
-        "Pressure tests",
-        "pressure_tests",
+    PressureTest: (
+        ("#", lambda e: str(e.pk)),
+        ("Tested", lambda e: fmt_date(e.tested_on)),
+        ("Test pressure", lambda e: _n(e.test_pressure_dbar, "dbar")),
+        ("Hold", lambda e: _n(e.hold_minutes, "min")),
         (
-            ("#", lambda e: str(e.pk)),
-            ("Tested", lambda e: fmt_date(e.tested_on)),
-            ("Test pressure", lambda e: _n(e.test_pressure_dbar, "dbar")),
-            ("Hold", lambda e: _n(e.hold_minutes, "min")),
-            (
-                "Start → end",
-                lambda e: f"{_n(e.start_pressure_dbar)} → {_n(e.end_pressure_dbar, 'dbar')}",
-            ),
-            (
-                "Water",
-                lambda e: (
-                    f"{_n(e.water_temperature_start_c)} → {_n(e.water_temperature_end_c, '°C')}"
-                ),
-            ),
-            ("Ingress", lambda e: _yes(e.ingress_found)),
-            ("Facility", lambda e: e.facility),
+            "Start → end",
+            lambda e: f"{_n(e.start_pressure_dbar)} → {_n(e.end_pressure_dbar, 'dbar')}",
         ),
-    ),
-    (
-        "Release tests",
-        "release_tests",
         (
-            ("#", lambda e: str(e.pk)),
-            ("Tested", lambda e: fmt_date(e.tested_on)),
-            ("Kind", lambda e: e.get_kind_display()),
-            ("Load", lambda e: _n(e.load_kg, "kg")),
-            ("Time to release", lambda e: _n(e.seconds_to_release, "s")),
-            ("Motor current", lambda e: _n(e.motor_current_a, "A")),
-            ("Limit switch", lambda e: _yes(e.limit_switch_ok)),
-            ("Acoustic command", lambda e: _yes(e.acoustic_command_ok)),
+            "Water",
+            lambda e: f"{_n(e.water_temperature_start_c)} → {_n(e.water_temperature_end_c, '°C')}",
         ),
+        ("Ingress", lambda e: _yes(e.ingress_found)),
+        ("Facility", lambda e: e.facility),
     ),
-    (
-        "Sensor checks",
-        "sensor_checks",
-        (
-            ("#", lambda e: str(e.pk)),
-            ("Checked", lambda e: fmt_date(e.checked_on)),
-            ("Sensor", lambda e: e.get_sensor_display()),
-            ("Reference", lambda e: _n(e.reference_value)),
-            ("Unit reads", lambda e: _n(e.unit_reading)),
-            ("Error", lambda e: f"{e.error:+.3g}"),
-            ("Raw", lambda e: _n(e.raw_resistance_ohm, "Ω")),
-        ),
+    ReleaseTest: (
+        ("#", lambda e: str(e.pk)),
+        ("Tested", lambda e: fmt_date(e.tested_on)),
+        ("Kind", lambda e: e.get_kind_display()),
+        ("Load", lambda e: _n(e.load_kg, "kg")),
+        ("Time to release", lambda e: _n(e.seconds_to_release, "s")),
+        ("Motor current", lambda e: _n(e.motor_current_a, "A")),
+        ("Limit switch", lambda e: _yes(e.limit_switch_ok)),
+        ("Acoustic command", lambda e: _yes(e.acoustic_command_ok)),
     ),
-    (
-        "Housing openings",
-        "housing_openings",
-        (
-            ("#", lambda e: str(e.pk)),
-            ("Opened", lambda e: fmt_datetime(e.opened_at)),
-            ("Closed", lambda e: fmt_datetime(e.closed_at)),
-            ("Vented first", lambda e: _yes(e.vented_before_opening)),
-            ("Pressure found", lambda e: _yes(e.internal_pressure_found)),
-            ("Reason", lambda e: e.reason),
-        ),
+    SensorCheck: (
+        ("#", lambda e: str(e.pk)),
+        ("Checked", lambda e: fmt_date(e.checked_on)),
+        ("Sensor", lambda e: e.get_sensor_display()),
+        ("Reference", lambda e: _n(e.reference_value)),
+        ("Unit reads", lambda e: _n(e.unit_reading)),
+        ("Error", lambda e: f"{e.error:+.3g}"),
+        ("Raw", lambda e: _n(e.raw_resistance_ohm, "Ω")),
     ),
-)
+    HousingOpening: (
+        ("#", lambda e: str(e.pk)),
+        ("Opened", lambda e: fmt_datetime(e.opened_at)),
+        ("Closed", lambda e: fmt_datetime(e.closed_at)),
+        ("Vented first", lambda e: _yes(e.vented_before_opening)),
+        ("Pressure found", lambda e: _yes(e.internal_pressure_found)),
+        ("Reason", lambda e: e.reason),
+    ),
+}
+
+
+def _cell(field: Any, entry: Any) -> str:
+    """One field of an entry, printed the way the columns above print its type."""
+    value = getattr(entry, field.name)
+    if field.choices:
+        return str(getattr(entry, f"get_{field.name}_display")())
+    if isinstance(field, models.BooleanField):
+        return _yes(value)
+    if isinstance(field, models.DateTimeField):
+        return fmt_datetime(value)
+    if isinstance(field, models.DateField):
+        return fmt_date(value)
+    if isinstance(field, models.FloatField | models.IntegerField | models.DecimalField):
+        return _n(value)
+    return "" if value is None else str(value)
+
+
+def _field_columns(kind: type[Entry]) -> tuple[Column, ...]:
+    fields = [kind._meta.get_field(name) for name in kind.amendable_fields]
+    return (
+        ("#", lambda e: str(e.pk)),
+        *((str(capfirst(f.verbose_name)), partial(_cell, f)) for f in fields),
+    )
+
+
+def entry_sections() -> tuple[tuple[type[Entry], str, tuple[Column, ...]], ...]:
+    """Per entry kind, in the registry's order: the kind, its section title, its columns."""
+    return tuple(
+        (kind, kind.plural_title(), COLUMNS.get(kind) or _field_columns(kind))
+        for kind in entry_kinds()
+    )
 
 
 def _photo_path(field: Any) -> str:
@@ -208,11 +224,8 @@ def prepare_report(record: ServiceRecord) -> ReportDocument:
         raise RecordOpenError("This record is still open; close it before printing a report.")
     sections = []
     photos = []
-    for title, related, columns in SECTIONS:
-        queryset = getattr(record, related).order_by("pk")
-        if related in ("anode_readings", "seal_changes"):
-            queryset = queryset.select_related("position")
-        entries = list(queryset)
+    for kind, title, columns in entry_sections():
+        entries = list(kind.with_list_related(getattr(record, kind.related_name()).order_by("pk")))
         if not entries:
             continue
         sections.append(
@@ -222,7 +235,7 @@ def prepare_report(record: ServiceRecord) -> ReportDocument:
                 tuple(tuple(get(e) for _, get in columns) for e in entries),
             )
         )
-        if related == "anode_readings":
+        if kind is AnodeReading:
             photos += [
                 PhotoLine(f"Anode reading #{e.pk}: {e.position.name}", _photo_path(e.photo))
                 for e in entries

@@ -8,14 +8,18 @@ engine reads them from here.
 
 import datetime as dt
 import math
+from typing import ClassVar
 
+from django.apps import apps
 from django.conf import settings
 from django.core.exceptions import ValidationError
 from django.core.validators import MaxValueValidator, MinValueValidator
 from django.db import models
-from django.db.models import Q
+from django.db.models import Q, QuerySet
+from django.template.defaultfilters import floatformat
 from django.urls import reverse
 from django.utils import timezone
+from django.utils.text import capfirst
 
 from fleet.calc.seawater import pressure_dbar
 
@@ -87,14 +91,76 @@ class ServiceRecord(models.Model):
 
 
 class Entry(models.Model):
-    """Common part of every entry: the record it belongs to."""
+    """Common part of every entry: the record it belongs to.
+
+    Each concrete subclass is an entry kind and declares, once, what the pages, the amendment
+    form, the report and the demo need to know about it (see ``entry_kinds()``): its labels are
+    the model's ``verbose_name`` and ``verbose_name_plural``; its place on ServiceRecord is the
+    ``related_name`` of its ``record`` key; the rest are the class attributes below.
+    """
 
     record = models.ForeignKey(ServiceRecord, on_delete=models.CASCADE, related_name="+")
 
     kind_label = "entry"
+    # Formset prefix on the bench-visit page (it names the posted fields: keep it stable).
+    bench_prefix: ClassVar[str] = ""
+    # Blank rows offered on a new record (an edited record always offers one).
+    bench_extra: ClassVar[int] = 1
+    # Heading on the bench-visit page; empty means the plural label.
+    bench_title: ClassVar[str] = ""
+    # Fields an amendment may correct on a closed record. The record link, the unit and
+    # photos are structural and are never amended.
+    amendable_fields: ClassVar[tuple[str, ...]] = ()
+    # Foreign keys that ``describe()`` and ``__str__`` read, fetched with the entries.
+    list_select_related: ClassVar[tuple[str, ...]] = ()
+    # The field (a lookup path) whose date the entry is dated by.
+    dated_by: ClassVar[str] = "record__opened_at"
 
     class Meta:
         abstract = True
+
+    def describe(self) -> str:
+        """The entry in one line of plain text."""
+        return str(self)
+
+    def history_line(self) -> str:
+        """The entry's line in the unit's history."""
+        return self.describe()
+
+    def warning(self) -> str:
+        """A recorded finding the history stresses after the line (empty when none)."""
+        return ""
+
+    def dated_on(self) -> dt.date:
+        value: object = self
+        for part in self.dated_by.split("__"):
+            value = getattr(value, part)
+        if isinstance(value, dt.datetime):
+            return timezone.localdate(value)
+        if not isinstance(value, dt.date):
+            raise TypeError(f"{type(self).__name__}.dated_by ({self.dated_by}) is not a date.")
+        return value
+
+    @classmethod
+    def related_name(cls) -> str:
+        """The name of this kind's entries on a ServiceRecord (``record.<related_name>``)."""
+        return str(cls._meta.get_field("record").remote_field.related_name)
+
+    @classmethod
+    def plural_title(cls) -> str:
+        return str(capfirst(cls._meta.verbose_name_plural))
+
+    @classmethod
+    def bench_heading(cls) -> str:
+        return cls.bench_title or cls.plural_title()
+
+    @classmethod
+    def with_list_related(cls, queryset: "QuerySet | None" = None) -> QuerySet:
+        """``queryset`` (default: all of this kind) with the keys its lines read."""
+        queryset = cls._default_manager.all() if queryset is None else queryset
+        if cls.list_select_related:
+            queryset = queryset.select_related(*cls.list_select_related)
+        return queryset
 
     def owning_record(self) -> "ServiceRecord | None":
         """The record, saved or not yet saved (forms attach an unsaved one to validate against)."""
@@ -141,12 +207,19 @@ class AnodeReading(Entry):
     note = models.CharField(max_length=200, blank=True)
 
     kind_label = "anode reading"
+    bench_prefix = "anodes"
+    bench_extra = 0
+    amendable_fields = ("mass_g", "remaining_percent", "bond_resistance_ohm", "replaced", "note")
+    list_select_related = ("position",)
 
     class Meta:
         ordering = ["position__name"]
 
     def __str__(self) -> str:
         return f"{self.position.name}: {self.describe()}"
+
+    def history_line(self) -> str:
+        return f"Anode {self.position.name}: {self.describe()}"
 
     def describe(self) -> str:
         parts = []
@@ -205,12 +278,19 @@ class SealChange(Entry):
     reason = models.CharField(max_length=16, choices=Reason.choices)
 
     kind_label = "seal change"
+    bench_prefix = "seals"
+    bench_extra = 0
+    amendable_fields = ("material", "cure_date", "lot", "reason")
+    list_select_related = ("position",)
 
     class Meta:
         ordering = ["position__name"]
 
     def __str__(self) -> str:
         return f"{self.position.name}: {self.get_material_display()}, cured {self.cure_date}"
+
+    def describe(self) -> str:
+        return f"Seal {self.position.name} changed ({self.get_reason_display().lower()})"
 
     def clean(self) -> None:
         super().clean()
@@ -256,6 +336,18 @@ class BatteryInstall(Entry):
     )
 
     kind_label = "battery install"
+    bench_prefix = "battery"
+    bench_title = "Battery install"
+    amendable_fields = (
+        "pack_serial",
+        "chemistry",
+        "nominal_voltage_v",
+        "capacity_ah",
+        "made_on",
+        "installed_on",
+        "ocv_install_v",
+    )
+    dated_by = "installed_on"
 
     class Meta:
         ordering = ["-installed_on"]
@@ -270,6 +362,12 @@ class BatteryInstall(Entry):
 
     def __str__(self) -> str:
         return f"pack {self.pack_serial} ({self.get_chemistry_display()})"
+
+    def describe(self) -> str:
+        line = f"Battery {self.pack_serial} installed {self.installed_on:%Y-%m-%d}"
+        if self.removed_on:
+            line += f", removed {self.removed_on:%Y-%m-%d}"
+        return line
 
     @property
     def is_fitted(self) -> bool:
@@ -346,12 +444,36 @@ class PressureTest(Entry):
     facility = models.CharField(max_length=80)
 
     kind_label = "pressure test"
+    bench_prefix = "pressure"
+    bench_title = "Pressure test"
+    amendable_fields = (
+        "tested_on",
+        "hold_ended_at",
+        "test_pressure_dbar",
+        "hold_minutes",
+        "start_pressure_dbar",
+        "end_pressure_dbar",
+        "water_temperature_start_c",
+        "water_temperature_end_c",
+        "ingress_found",
+        "facility",
+    )
+    dated_by = "tested_on"
 
     class Meta:
         ordering = ["-tested_on"]
 
     def __str__(self) -> str:
         return f"pressure test {self.test_pressure_dbar:g} dbar on {self.tested_on}"
+
+    def describe(self) -> str:
+        return (
+            f"Pressure test {floatformat(self.test_pressure_dbar, 0)} dbar, "
+            f"{floatformat(self.hold_minutes, 0)} min hold"
+        )
+
+    def warning(self) -> str:
+        return "ingress found" if self.ingress_found else ""
 
     def clean(self) -> None:
         super().clean()
@@ -429,12 +551,29 @@ class ReleaseTest(Entry):
     acoustic_command_ok = models.BooleanField("acoustic command ok", default=False)
 
     kind_label = "release test"
+    bench_prefix = "release"
+    bench_title = "Release test"
+    amendable_fields = (
+        "tested_on",
+        "kind",
+        "load_kg",
+        "seconds_to_release",
+        "motor_current_a",
+        "limit_switch_ok",
+        "acoustic_command_ok",
+    )
+    dated_by = "tested_on"
 
     class Meta:
         ordering = ["-tested_on"]
 
     def __str__(self) -> str:
         return f"{self.get_kind_display()} release test on {self.tested_on}"
+
+    def describe(self) -> str:
+        return (
+            f"{self.get_kind_display()} release test: {floatformat(self.seconds_to_release, -1)} s"
+        )
 
     def clean(self) -> None:
         super().clean()
@@ -477,12 +616,28 @@ class SensorCheck(Entry):
     )
 
     kind_label = "sensor check"
+    bench_prefix = "sensors"
+    bench_extra = 2
+    amendable_fields = (
+        "checked_on",
+        "sensor",
+        "reference_value",
+        "unit_reading",
+        "raw_resistance_ohm",
+    )
+    dated_by = "checked_on"
 
     class Meta:
         ordering = ["-checked_on", "sensor"]
 
     def __str__(self) -> str:
         return f"{self.get_sensor_display()} check on {self.checked_on}"
+
+    def describe(self) -> str:
+        return (
+            f"{self.get_sensor_display()} check: reads {floatformat(self.unit_reading, -3)} "
+            f"against {floatformat(self.reference_value, -3)}"
+        )
 
     @property
     def error(self) -> float:
@@ -520,12 +675,24 @@ class HousingOpening(Entry):
     reason = models.CharField(max_length=200)
 
     kind_label = "housing opening"
+    bench_prefix = "openings"
+    amendable_fields = (
+        "opened_at",
+        "closed_at",
+        "vented_before_opening",
+        "internal_pressure_found",
+        "reason",
+    )
+    dated_by = "opened_at"
 
     class Meta:
         ordering = ["-opened_at"]
 
     def __str__(self) -> str:
         return f"housing opened {self.opened_at:%Y-%m-%d %H:%M}"
+
+    def describe(self) -> str:
+        return f"Housing opened: {self.reason}"
 
     def clean(self) -> None:
         super().clean()
@@ -542,12 +709,8 @@ class HousingOpening(Entry):
             raise ValidationError(errors)
 
 
-ENTRY_MODELS: tuple[type[Entry], ...] = (
-    AnodeReading,
-    SealChange,
-    BatteryInstall,
-    PressureTest,
-    ReleaseTest,
-    SensorCheck,
-    HousingOpening,
-)
+def entry_kinds() -> tuple[type[Entry], ...]:
+    """Every entry kind, in the order the pages list them: the concrete ``Entry`` subclasses of
+    the installed apps, in app order and then in the order they are defined. Django's app
+    registry is the registration: defining the model is enough, no list to extend."""
+    return tuple(model for model in apps.get_models() if issubclass(model, Entry))

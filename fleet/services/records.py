@@ -12,58 +12,20 @@ from django.utils import timezone
 
 from fleet.due.store import refresh_unit
 from fleet.models import Amendment, BatteryInstall, ServiceRecord
-from fleet.models.records import Entry
+from fleet.models.records import Entry, entry_kinds
 
-# Fields an amendment may correct, per entry model. The record link, the unit and photos are
-# structural and are never amended.
-AMENDABLE_FIELDS: dict[str, tuple[str, ...]] = {
-    "anodereading": ("mass_g", "remaining_percent", "bond_resistance_ohm", "replaced", "note"),
-    "sealchange": ("material", "cure_date", "lot", "reason"),
-    "batteryinstall": (
-        "pack_serial",
-        "chemistry",
-        "nominal_voltage_v",
-        "capacity_ah",
-        "made_on",
-        "installed_on",
-        "ocv_install_v",
-    ),
-    "pressuretest": (
-        "tested_on",
-        "test_pressure_dbar",
-        "hold_minutes",
-        "start_pressure_dbar",
-        "end_pressure_dbar",
-        "water_temperature_start_c",
-        "water_temperature_end_c",
-        "ingress_found",
-        "facility",
-    ),
-    "releasetest": (
-        "tested_on",
-        "kind",
-        "load_kg",
-        "seconds_to_release",
-        "motor_current_a",
-        "limit_switch_ok",
-        "acoustic_command_ok",
-    ),
-    "sensorcheck": (
-        "checked_on",
-        "sensor",
-        "reference_value",
-        "unit_reading",
-        "raw_resistance_ohm",
-    ),
-    "housingopening": (
-        "opened_at",
-        "closed_at",
-        "vented_before_opening",
-        "internal_pressure_found",
-        "reason",
-    ),
-    "servicerecord": ("summary",),
-}
+# The record's own field an amendment may correct; each entry kind lists its own
+# (``Entry.amendable_fields``).
+RECORD_AMENDABLE_FIELDS: tuple[str, ...] = ("summary",)
+
+
+def amendable_fields(target: Model) -> tuple[str, ...]:
+    """The fields of ``target`` (the record or one of its entries) an amendment may correct."""
+    if isinstance(target, ServiceRecord):
+        return RECORD_AMENDABLE_FIELDS
+    if isinstance(target, Entry):
+        return target.amendable_fields
+    return ()
 
 
 def _lock(record: ServiceRecord) -> ServiceRecord:
@@ -180,16 +142,8 @@ def service_record_close(*, record: ServiceRecord, by: AbstractBaseUser, at: dt.
 def amendable_targets(record: ServiceRecord) -> list[Model]:
     """The record itself and every entry in it, in a stable order."""
     targets: list[Model] = [record]
-    for related in (
-        "anode_readings",
-        "seal_changes",
-        "battery_installs",
-        "pressure_tests",
-        "release_tests",
-        "sensor_checks",
-        "housing_openings",
-    ):
-        targets.extend(getattr(record, related).order_by("pk"))
+    for kind in entry_kinds():
+        targets.extend(getattr(record, kind.related_name()).order_by("pk"))
     return targets
 
 
@@ -209,8 +163,7 @@ def amendment_create(
         raise ValidationError("Open records are edited directly; amendments are for closed ones.")
     if not reason.strip():
         raise ValidationError({"reason": "Say why the value is being corrected."})
-    model_name = target._meta.model_name or ""
-    if field_name not in AMENDABLE_FIELDS.get(model_name, ()):
+    if field_name not in amendable_fields(target):
         raise ValidationError({"field_name": f"{field_name} cannot be amended."})
     owner = target.pk if isinstance(target, ServiceRecord) else getattr(target, "record_id", None)
     if owner != record.pk:

@@ -8,8 +8,9 @@ from django.views.decorators.http import require_http_methods
 
 from fleet.forms import AmendmentForm, CloseRecordForm, ServiceRecordForm, entry_formsets
 from fleet.models import ServiceRecord
+from fleet.models.records import entry_kinds
 from fleet.services.records import (
-    AMENDABLE_FIELDS,
+    amendable_fields,
     amendable_targets,
     amendment_create,
     service_record_close,
@@ -106,13 +107,11 @@ def record_detail(request: HttpRequest, pk: int) -> HttpResponse:
             "record": record,
             "unit": record.unit,
             "sections": [
-                ("Anode readings", record.anode_readings.select_related("position")),
-                ("Seal changes", record.seal_changes.select_related("position")),
-                ("Battery installs", record.battery_installs.all()),
-                ("Pressure tests", record.pressure_tests.all()),
-                ("Release tests", record.release_tests.all()),
-                ("Sensor checks", record.sensor_checks.all()),
-                ("Housing openings", record.housing_openings.all()),
+                (
+                    kind.plural_title(),
+                    kind.with_list_related(getattr(record, kind.related_name()).all()),
+                )
+                for kind in entry_kinds()
             ],
             "amendments": record.amendments.select_related("created_by", "target_type"),
             "close_form": CloseRecordForm(),
@@ -144,7 +143,7 @@ def record_amend(request: HttpRequest, pk: int) -> HttpResponse:
     targets = {f"{t._meta.model_name}:{t.pk}": t for t in amendable_targets(record)}
     choices = []
     for key, target in targets.items():
-        for field_name in AMENDABLE_FIELDS[target._meta.model_name or ""]:
+        for field_name in amendable_fields(target):
             field = target._meta.get_field(field_name)
             current = field.value_to_string(target)  # type: ignore[union-attr]
             label = f"{_target_label(target)} — {field.verbose_name} (now: {current or 'empty'})"  # type: ignore[union-attr]

@@ -8,6 +8,8 @@ from django.views.decorators.http import require_http_methods
 from django_tables2 import RequestConfig
 
 from fleet import roles
+from fleet.due.acceptance import release_test_failures
+from fleet.due.rules import Rules, rules_for
 from fleet.due.store import unit_due_items
 from fleet.exports import csv_response
 from fleet.filters import UnitFilter
@@ -16,10 +18,12 @@ from fleet.models import (
     AnodeReading,
     BatteryInstall,
     Deployment,
+    ReleaseTest,
     SealChange,
     ServiceRecord,
     Transponder,
 )
+from fleet.models.records import Entry, entry_kinds
 from fleet.tables import UnitTable, status_badge
 
 from .guards import get_unit_for_user, require
@@ -66,6 +70,20 @@ def _latest_by_position(entries: list, key: str) -> dict[int, object]:
     return latest
 
 
+def _entry_lines(
+    record: ServiceRecord, kinds: tuple[type[Entry], ...], rules: Rules
+) -> list[tuple[str, str]]:
+    """(line, warning) for each entry of a prefetched record, kind by kind."""
+    lines = []
+    for kind in kinds:
+        for entry in getattr(record, kind.related_name()).all():
+            warning = entry.warning()
+            if isinstance(entry, ReleaseTest) and release_test_failures(entry, rules):
+                warning = "fault noted"
+            lines.append((entry.history_line(), warning))
+    return lines
+
+
 def unit_detail(request: HttpRequest, serial: str) -> HttpResponse:
     unit = get_unit_for_user(request, serial)
     variant = unit.variant
@@ -86,29 +104,25 @@ def unit_detail(request: HttpRequest, serial: str) -> HttpResponse:
     last_seal = _latest_by_position(seal_changes, "position_id")
     fitted_pack = BatteryInstall.objects.filter(unit=unit, removed_on__isnull=True).first()
 
+    kinds = entry_kinds()
     records = (
         ServiceRecord.objects.filter(unit=unit)
         .select_related("technician", "place", "closed_by")
         .prefetch_related(
-            Prefetch("anode_readings", queryset=AnodeReading.objects.select_related("position")),
-            Prefetch("seal_changes", queryset=SealChange.objects.select_related("position")),
-            "battery_installs",
-            "pressure_tests",
-            "release_tests",
-            "sensor_checks",
-            "housing_openings",
+            *(Prefetch(kind.related_name(), queryset=kind.with_list_related()) for kind in kinds),
             "amendments",
         )
     )
     deployments = Deployment.objects.filter(unit=unit).select_related("site")
+    on = timezone.localdate()
+    soon_days = settings.HOLDFAST["DUE_SOON_DAYS"]
+    rules = rules_for(unit.variant)
     history = sorted(
-        [("record", r.opened_at, r) for r in records]
-        + [("deployment", d.over_side_at, d) for d in deployments],
+        [("record", r.opened_at, r, _entry_lines(r, kinds, rules)) for r in records]
+        + [("deployment", d.over_side_at, d, []) for d in deployments],
         key=lambda item: item[1],
         reverse=True,
     )
-    on = timezone.localdate()
-    soon_days = settings.HOLDFAST["DUE_SOON_DAYS"]
     return render(
         request,
         "fleet/unit_detail.html",

@@ -37,7 +37,7 @@ from fleet.models import (
     Transponder,
     Variant,
 )
-from fleet.models.records import ENTRY_MODELS
+from fleet.models.records import entry_kinds
 from fleet.models.validators import finite
 from tests.web.test_records import record_post
 
@@ -232,7 +232,7 @@ RANGE_IN_CLEAN = {
 }
 
 ENTRY_SITE_AND_VARIANT_MODELS: tuple[type[models.Model], ...] = (
-    *ENTRY_MODELS,
+    *entry_kinds(),
     ServiceRecord,
     Site,
     Variant,

@@ -1,8 +1,9 @@
 import pytest
 from django.urls import reverse
 
-from fleet.models import AnodeReading, Transponder
-from tests.builders import make_record, make_unit
+from fleet.due.rules import rules_for
+from fleet.models import AnodeReading, ReleaseTest, Transponder
+from tests.builders import T0, make_record, make_unit
 
 pytestmark = pytest.mark.django_db
 
@@ -62,3 +63,25 @@ def test_the_unit_page_shows_the_last_reading_of_each_anode(as_viewer, unit, tec
     assert "380 g" not in anodes
     # Both visits are in the history, newest first.
     assert history.index("331 g") < history.index("380 g")
+
+
+def test_the_history_flags_a_release_test_the_due_rules_fail(as_viewer, unit, technician):
+    limit = rules_for(unit.variant).release_max_seconds
+    record = make_record(unit=unit, by=technician)
+    passing = {"tested_on": T0.date(), "kind": "bench", "motor_current_a": 0.5}
+    ReleaseTest.objects.create(
+        record=record,
+        seconds_to_release=limit / 2,
+        limit_switch_ok=True,
+        acoustic_command_ok=True,
+        **passing,
+    )
+    body = as_viewer.get(reverse("unit-detail", args=[unit.serial])).content.decode()
+    history = body.split("<h2>History")[1]
+    assert "release test:" in history
+    assert "fault noted" not in history
+    # Both confirmations given, but slower than the rules allow: failed by the same rule
+    # the due list applies (release_test_failures), not by a rule of the template's own.
+    ReleaseTest.objects.update(seconds_to_release=limit + 1)
+    body = as_viewer.get(reverse("unit-detail", args=[unit.serial])).content.decode()
+    assert f"{limit + 1:g} s, <strong>fault noted</strong></li>" in body.split("<h2>History")[1]

@@ -19,7 +19,8 @@ How the history is made
    openings count against seals; each opening is followed by a proof test the next day.
 4. Loading (``load_demo``) writes the plan through the services (``service_record_save``,
    ``service_record_close``, ``deployment_start``, ``deployment_recover``) so that whatever
-   those keep up to date stays consistent, and sets each unit's final status and place.
+   those keep up to date stays consistent, and sets each unit's hold and final place; its
+   condition (in the water, on the bench, needs work, ready) follows from the records.
 
 All dates are anchored on ``today`` and end before it, so nothing is ever in the future.
 """
@@ -61,9 +62,10 @@ from fleet.models import (
     ServiceRecord,
     Site,
     Transponder,
-    UnitStatus,
+    UnitHold,
     Variant,
 )
+from fleet.due.condition import annotate_condition
 from fleet.services.deployments import deployment_recover, deployment_start
 from fleet.services.records import service_record_close, service_record_save
 
@@ -375,18 +377,23 @@ ROSTER: tuple[UnitSpec, ...] = (
     UnitSpec("HF3-0308", "dp", "store", 1050),
 )
 
-FINAL_STATUS: dict[str, tuple[str, str | None]] = {
-    "deployed": (UnitStatus.DEPLOYED, None),
-    "ready": (UnitStatus.READY, STORE),
-    "store": (UnitStatus.IN_STORE, STORE),
-    "store_idle": (UnitStatus.IN_STORE, STORE),
-    "store_seals": (UnitStatus.IN_STORE, STORE),
-    "store_anode_low": (UnitStatus.IN_STORE, STORE),
-    "workshop_open": (UnitStatus.IN_WORKSHOP, WORKSHOP),
-    "workshop_fault": (UnitStatus.IN_WORKSHOP, WORKSHOP),
-    "quarantined": (UnitStatus.QUARANTINED, WORKSHOP),
-    "retired": (UnitStatus.RETIRED, STORE),
-    "lost": (UnitStatus.LOST, None),
+FINAL_HOLD: dict[str, tuple[str, str | None]] = {
+    "deployed": (UnitHold.NONE, None),
+    "ready": (UnitHold.NONE, STORE),
+    "store": (UnitHold.NONE, STORE),
+    "store_idle": (UnitHold.NONE, STORE),
+    "store_seals": (UnitHold.NONE, STORE),
+    "store_anode_low": (UnitHold.NONE, STORE),
+    "workshop_open": (UnitHold.NONE, WORKSHOP),
+    "workshop_fault": (UnitHold.NONE, WORKSHOP),
+    "quarantined": (UnitHold.QUARANTINED, WORKSHOP),
+    "retired": (UnitHold.RETIRED, STORE),
+    "lost": (UnitHold.LOST, None),
+}
+HOLD_REASON = {
+    UnitHold.QUARANTINED: "Proof test lost pressure; water behind the lower end cap.",
+    UnitHold.RETIRED: "Pitting on the upper end-cap sealing face beyond the repair limit.",
+    UnitHold.LOST: "No reply and nothing surfaced on the planned recovery; declared lost.",
 }
 
 
@@ -430,7 +437,7 @@ class UnitPlan:
     acoustic_address: str
     turnaround_delay_ms: float
     transmit_power_step: int
-    status: str
+    hold: str
     place: str | None
     events: list[VisitPlan | DeploymentPlan] = field(default_factory=list)
     immersed_days: float = 0.0
@@ -633,13 +640,13 @@ class _UnitSim:
                     mode = self.decide(part.recovered)
                     mode = "workshop" if mode == "vessel" else mode
                 self.visit(part.recovered, mode, part.place)
-        status, place = FINAL_STATUS[self.spec.role]
+        hold, place = FINAL_HOLD[self.spec.role]
         plan = UnitPlan(
             spec=self.spec,
             acoustic_address="",
             turnaround_delay_ms=round(self.rng.uniform(10.0, 50.0), 1),
             transmit_power_step=self.step,
-            status=status,
+            hold=hold,
             place=place,
             events=self.events,
             immersed_days=self.immersed_days,
@@ -1259,7 +1266,7 @@ class LoadSummary:
     records: int
     open_records: int
     entries: int
-    statuses: dict[str, int]
+    conditions: dict[str, int]
 
 
 @transaction.atomic
@@ -1277,13 +1284,11 @@ def load_demo(*, today: dt.date) -> LoadSummary:
         for p in SealPosition.objects.filter(variant__in=variants.values())
     }
     entries = 0
-    statuses: Counter[str] = Counter()
     for plan in plan_fleet(today):
         variant = variants[plan.spec.variant]
         unit = Transponder(
             serial=plan.spec.serial,
             variant=variant,
-            status=UnitStatus.IN_WORKSHOP,
             place=places[WORKSHOP],
             acoustic_address=plan.acoustic_address,
             turnaround_delay_ms=plan.turnaround_delay_ms,
@@ -1304,7 +1309,8 @@ def load_demo(*, today: dt.date) -> LoadSummary:
                     transmit_power_step=event.power_step,
                     notes=event.notes,
                 )
-                deployment_start(deployment=deployment, by=by)
+                # Past events: readiness is judged when a unit goes out, not from today.
+                deployment_start(deployment=deployment, by=by, check_readiness=False)
                 if event.recovered_at is not None:
                     deployment_recover(
                         deployment=deployment,
@@ -1336,15 +1342,21 @@ def load_demo(*, today: dt.date) -> LoadSummary:
             if event.closed_at is not None:
                 service_record_close(record=record, by=supervisor, at=event.closed_at)
         unit = Transponder.objects.get(pk=unit.pk)
-        unit.status = plan.status
+        if plan.hold != UnitHold.NONE:
+            unit.hold = plan.hold
+            unit.hold_reason = HOLD_REASON[UnitHold(plan.hold)]
+            unit.hold_set_by = supervisor
+            unit.hold_set_at = timezone.now()
         unit.place = places[plan.place] if plan.place else None
         unit.version += 1
         unit.full_clean()
         unit.save()
-        statuses[plan.status] += 1
     units = Transponder.objects.filter(variant__in=variants.values())
     deployments = Deployment.objects.filter(unit__in=units)
     records = ServiceRecord.objects.filter(unit__in=units)
+    conditions = Counter(
+        annotate_condition(units.order_by(), today).values_list("condition", flat=True)
+    )
     return LoadSummary(
         units=units.count(),
         variants=len(variants),
@@ -1355,7 +1367,7 @@ def load_demo(*, today: dt.date) -> LoadSummary:
         records=records.count(),
         open_records=records.filter(closed_at__isnull=True).count(),
         entries=entries,
-        statuses=dict(sorted(statuses.items())),
+        conditions=dict(sorted(conditions.items())),
     )
 
 

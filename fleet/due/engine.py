@@ -49,8 +49,8 @@ from fleet.models import (
     SealState,
     SensorCheck,
     Transponder,
+    UnitHold,
     UnitState,
-    UnitStatus,
 )
 
 from .rules import Rules, rules_for
@@ -68,7 +68,7 @@ SENSOR_FLAGS = (
     (SensorCheck.Sensor.TILT, "has_tilt_sensor", "last_tilt_check"),
 )
 # Units that are off the books for maintenance.
-INACTIVE = {UnitStatus.RETIRED, UnitStatus.LOST}
+INACTIVE = {UnitHold.RETIRED, UnitHold.LOST}
 # A unit that has never been in the water wears and drains nothing while it waits; below this
 # fraction of time in the water a projection would run decades out and say nothing useful.
 MIN_DUTY_FRACTION = 0.05
@@ -719,7 +719,7 @@ def evaluate_fleet(
 ) -> list[UnitEvaluation]:
     units = fleet_queryset(queryset)
     if not include_inactive:
-        units = units.exclude(status__in=INACTIVE)
+        units = units.exclude(hold__in=INACTIVE)
     cache: dict[int, Rules] = {}
     return [evaluate_unit(u, on=on, at=at, rules_cache=cache) for u in units]
 

@@ -32,8 +32,9 @@ from enum import StrEnum
 from fleet.calc import buoyancy as calc_buoyancy
 from fleet.calc import seals as calc_seals
 from fleet.calc import seawater as calc_seawater
-from fleet.models import Deployment, Site, Transponder, UnitStatus
+from fleet.models import Deployment, Site, Transponder
 
+from .condition import Condition, condition_of
 from .engine import (
     SENSOR_FLAGS,
     ItemKind,
@@ -130,24 +131,26 @@ def check_unit(
     variant = unit.variant
     state = _state(unit)
 
-    # 1. Status
-    if unit.status in (UnitStatus.QUARANTINED, UnitStatus.RETIRED, UnitStatus.LOST):
-        add(
-            CheckResult(
-                "Unit status", Verdict.FAIL, f"unit is {unit.get_status_display().lower()}", "—"
-            )
-        )
-    elif unit.status == UnitStatus.DEPLOYED:
-        add(
-            CheckResult(
-                "Unit status",
-                Verdict.FAIL,
-                "unit is in the water now; recover and service it first",
-                "—",
-            )
-        )
+    # 1. Status: the unit's condition today (``condition.py``); a list that annotated it
+    # already (``annotate_condition``) saves the query.
+    condition = Condition(getattr(unit, "condition", None) or condition_of(unit, on))
+    if condition.held:
+        status_verdict, status_numbers = Verdict.FAIL, f"unit is {condition.label.lower()}"
+        if unit.hold_reason:
+            status_numbers += f": {unit.hold_reason}"
+    elif condition == Condition.IN_WATER:
+        status_verdict = Verdict.FAIL
+        status_numbers = "unit is in the water now; recover and service it first"
+    elif condition == Condition.ON_BENCH:
+        status_verdict = Verdict.WARN
+        status_numbers = "unit is on the bench now; close its bench visit before it goes"
+    elif condition == Condition.NEEDS_WORK:
+        # The checks below judge each item for this job; the condition is today's summary.
+        status_verdict = Verdict.PASS
+        status_numbers = "needs work today: an item is overdue or has no data (see below)"
     else:
-        add(CheckResult("Unit status", Verdict.PASS, unit.get_status_display().lower(), "—"))
+        status_verdict, status_numbers = Verdict.PASS, condition.label.lower()
+    add(CheckResult("Unit condition", status_verdict, status_numbers, "—"))
 
     # 2. Depth
     rating = variant.depth_rating_m

@@ -1,18 +1,23 @@
 from django.contrib import messages
-from django.core.exceptions import ValidationError
+from django.core.exceptions import PermissionDenied, ValidationError
 from django.db.models import Model
 from django.http import HttpRequest, HttpResponse
 from django.shortcuts import redirect, render
 from django.utils import timezone
 from django.views.decorators.http import require_http_methods
 
+from fleet import roles
 from fleet.forms import AmendmentForm, CloseRecordForm, ServiceRecordForm, entry_formsets
 from fleet.models import ServiceRecord
 from fleet.services.records import (
     AMENDABLE_FIELDS,
     amendable_targets,
     amendment_create,
+    can_discard,
+    check_can_open_record,
+    open_record_of,
     service_record_close,
+    service_record_discard,
     service_record_save,
 )
 
@@ -64,6 +69,8 @@ def _edit(request: HttpRequest, record: ServiceRecord, template_title: str) -> H
             "form": form,
             "formsets": formsets,
             "errors": errors,
+            # A refused new visit links to the one in progress.
+            "open_record": open_record_of(record.unit) if errors and record.pk is None else None,
             "title": template_title,
         },
         status=400 if errors else 200,
@@ -73,6 +80,12 @@ def _edit(request: HttpRequest, record: ServiceRecord, template_title: str) -> H
 @require_http_methods(["GET", "POST"])
 def record_new(request: HttpRequest, serial: str) -> HttpResponse:
     unit = get_unit_for_user(request, serial, write=True)
+    try:
+        check_can_open_record(unit)
+    except ValidationError as exc:
+        messages.error(request, " ".join(exc.messages))
+        current = open_record_of(unit)
+        return redirect(current or unit)
     record = ServiceRecord(
         unit=unit,
         opened_at=timezone.now().replace(second=0, microsecond=0),
@@ -99,23 +112,29 @@ def _target_label(target: Model) -> str:
 
 def record_detail(request: HttpRequest, pk: int) -> HttpResponse:
     record = get_record_for_user(request, pk)
+    sections = [
+        ("Anode readings", list(record.anode_readings.select_related("position"))),
+        ("Seal changes", list(record.seal_changes.select_related("position"))),
+        ("Battery installs", list(record.battery_installs.all())),
+        ("Pressure tests", list(record.pressure_tests.all())),
+        ("Release tests", list(record.release_tests.all())),
+        ("Sensor checks", list(record.sensor_checks.all())),
+        ("Housing openings", list(record.housing_openings.all())),
+    ]
+    empty = not any(entries for _, entries in sections)
     return render(
         request,
         "fleet/record_detail.html",
         {
             "record": record,
             "unit": record.unit,
-            "sections": [
-                ("Anode readings", record.anode_readings.select_related("position")),
-                ("Seal changes", record.seal_changes.select_related("position")),
-                ("Battery installs", record.battery_installs.all()),
-                ("Pressure tests", record.pressure_tests.all()),
-                ("Release tests", record.release_tests.all()),
-                ("Sensor checks", record.sensor_checks.all()),
-                ("Housing openings", record.housing_openings.all()),
-            ],
+            "sections": sections,
             "amendments": record.amendments.select_related("created_by", "target_type"),
             "close_form": CloseRecordForm(),
+            "can_discard": empty
+            and not record.is_closed
+            and roles.can_record(request.user)
+            and can_discard(record, request.user),
         },
     )
 
@@ -134,6 +153,21 @@ def record_close(request: HttpRequest, pk: int) -> HttpResponse:
     else:
         messages.success(request, "Record closed. It is now read-only.")
     return redirect(record)
+
+
+@require_http_methods(["POST"])
+def record_discard(request: HttpRequest, pk: int) -> HttpResponse:
+    record = get_record_for_user(request, pk, write=True)
+    if not can_discard(record, request.user):
+        raise PermissionDenied
+    unit = record.unit
+    try:
+        service_record_discard(record=record, by=request.user)
+    except ValidationError as exc:
+        messages.error(request, " ".join(exc.messages))
+        return redirect(record)
+    messages.success(request, f"The empty bench visit for {unit.serial} was discarded.")
+    return redirect(unit)
 
 
 @require_http_methods(["GET", "POST"])

@@ -7,6 +7,7 @@ from django.views.decorators.http import require_http_methods
 from django_tables2 import RequestConfig
 
 from fleet import roles
+from fleet.due.condition import annotate_condition, condition_of
 from fleet.due.engine import evaluate_unit, fleet_queryset
 from fleet.exports import csv_response
 from fleet.filters import UnitFilter
@@ -19,7 +20,7 @@ from fleet.models import (
     ServiceRecord,
     Transponder,
 )
-from fleet.tables import UnitTable, status_badge
+from fleet.tables import UnitTable, condition_badge
 
 from .guards import get_unit_for_user, require
 
@@ -43,8 +44,11 @@ def unit_photo_add(request: HttpRequest, serial: str) -> HttpResponse:
 
 @require(roles.can_read)
 def unit_list(request: HttpRequest) -> HttpResponse:
-    queryset = Transponder.objects.select_related("variant", "place").annotate(
-        last_service=Max("service_records__opened_at")
+    queryset = annotate_condition(
+        Transponder.objects.select_related("variant", "place").annotate(
+            last_service=Max("service_records__opened_at")
+        ),
+        timezone.localdate(),
     )
     unit_filter = UnitFilter(request.GET or None, queryset=queryset)
     table = UnitTable(unit_filter.qs)
@@ -99,7 +103,7 @@ def unit_detail(request: HttpRequest, serial: str) -> HttpResponse:
             "amendments",
         )
     )
-    deployments = Deployment.objects.filter(unit=unit).select_related("site")
+    deployments = Deployment.objects.filter(unit=unit).select_related("site", "override_by")
     history = sorted(
         [("record", r.opened_at, r) for r in records]
         + [("deployment", d.over_side_at, d) for d in deployments],
@@ -119,7 +123,7 @@ def unit_detail(request: HttpRequest, serial: str) -> HttpResponse:
             "due_items": evaluation.items,
             "readiness_form": PlannedDeploymentForm(initial={"start": on, "days": 90}, today=on),
             "variant": variant,
-            "status_badge": status_badge(unit.status, unit.get_status_display()),
+            "condition_badge": condition_badge(condition_of(unit, on)),
             "anodes": [(p, last_reading.get(p.pk)) for p in anode_positions],
             "seals": [(p, last_seal.get(p.pk)) for p in seal_positions],
             "fitted_pack": fitted_pack,

@@ -7,7 +7,8 @@ reason). Everything else follows the records, first match wins:
 2. in the water: a deployment with no recovery time;
 3. on the bench: a service record with no close time;
 4. needs work: a stored due row (``DueRow``, kept per unit by the write services) is due on
-   or before ``on`` or has no data;
+   or before ``on`` or has no data, or the unit has no stored rows at all (never written
+   through a service: nothing is known about it);
 5. ready.
 
 ``annotate_condition`` adds the condition to a ``Transponder`` queryset as one ``CASE`` over
@@ -88,9 +89,8 @@ def condition_expression(on: dt.date) -> Case:
     unit = OuterRef("pk")
     in_water = Exists(Deployment.objects.filter(unit=unit, recovered_at__isnull=True))
     on_bench = Exists(ServiceRecord.objects.filter(unit=unit, closed_at__isnull=True))
-    needs_work = Exists(
-        DueRow.objects.filter(unit=unit).filter(Q(due_on__isnull=True) | Q(due_on__lte=on))
-    )
+    rows = DueRow.objects.filter(unit=unit)
+    needs_work = Exists(rows.filter(Q(due_on__isnull=True) | Q(due_on__lte=on))) | ~Exists(rows)
     return Case(
         *(When(hold=hold, then=Value(condition.value)) for hold, condition in _HOLDS),
         When(in_water, then=Value(Condition.IN_WATER.value)),

@@ -44,6 +44,7 @@ from fleet import roles
 from fleet.calc import anodes as anode_calc
 from fleet.calc import rtd, seawater
 from fleet.calc.seals import add_months
+from fleet.due.condition import annotate_condition
 from fleet.models import (
     Amendment,
     AnodePosition,
@@ -65,7 +66,6 @@ from fleet.models import (
     UnitHold,
     Variant,
 )
-from fleet.due.condition import annotate_condition
 from fleet.services.deployments import deployment_recover, deployment_start
 from fleet.services.records import service_record_close, service_record_save
 

@@ -6,6 +6,7 @@ from .due.condition import Condition
 from .due.engine import DueState, ItemKind
 from .models import Deployment, Site, Transponder
 
+
 def condition_badge(condition: Condition) -> str:
     """Word, shape and colour, so a black-and-white print still reads."""
     return format_html(

@@ -41,7 +41,7 @@ _REFUSAL = {
 }
 
 
-class ReadinessFailed(ValidationError):
+class ReadinessError(ValidationError):
     """Readiness failed and was not overridden. ``checks`` are the failing checks;
     ``override_error`` says why a given override reason was not accepted (else "")."""
 
@@ -98,8 +98,8 @@ def deployment_start(
     """
     at = timezone.now()
     today = timezone.localdate(at)
-    unit = Transponder.objects.select_for_update().select_related("variant").get(
-        pk=deployment.unit_id
+    unit = (
+        Transponder.objects.select_for_update().select_related("variant").get(pk=deployment.unit_id)
     )
     refusal = deploy_refusal(unit, today)
     if refusal:
@@ -136,7 +136,7 @@ def deployment_start(
                     "against the failed checks."
                 )
             if not reason or refused:
-                raise ReadinessFailed(
+                raise ReadinessError(
                     failures,
                     site=deployment.site.name,
                     start=start,

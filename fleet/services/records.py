@@ -217,17 +217,14 @@ def service_record_close(*, record: ServiceRecord, by: AbstractBaseUser, at: dt.
         raise ValidationError("A record cannot close before it opened.")
     still_open = current.housing_openings.filter(closed_at__isnull=True).order_by("opened_at")
     if still_open.exists():
-        when = ", ".join(
-            f"{timezone.localtime(o.opened_at):%Y-%m-%d %H:%M}" for o in still_open
-        )
+        when = ", ".join(f"{timezone.localtime(o.opened_at):%Y-%m-%d %H:%M}" for o in still_open)
         raise ValidationError(
             f"The housing opened at {when} has no close time. Enter when it was closed "
             "before closing the record."
         )
     if not _has_entries(current):
         raise ValidationError(
-            "This record has no entries, so there is nothing to close; "
-            "discard the visit instead."
+            "This record has no entries, so there is nothing to close; discard the visit instead."
         )
     record.closed_at = at
     record.closed_by = by  # type: ignore[assignment]

@@ -10,7 +10,7 @@ from fleet import roles
 from fleet.exports import csv_response
 from fleet.forms import DeploymentForm, DeploymentOverrideForm, RecoveryForm, SiteForm
 from fleet.models import Deployment, Site, Transponder
-from fleet.services.deployments import ReadinessFailed, deployment_recover, deployment_start
+from fleet.services.deployments import ReadinessError, deployment_recover, deployment_start
 from fleet.tables import DeploymentTable, SiteTable
 
 from .guards import get_deployment_for_user, get_site_for_user, require
@@ -58,7 +58,7 @@ def deployment_new(request: HttpRequest) -> HttpResponse:
                     by=request.user,
                     override_reason=override.cleaned_data["reason"] if can_override else "",
                 )
-            except ReadinessFailed as exc:
+            except ReadinessError as exc:
                 failed_checks = exc.checks
                 form.add_error(None, exc.summary)
                 if exc.override_error:

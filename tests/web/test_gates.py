@@ -14,7 +14,7 @@ from django.utils import timezone
 from fleet.documents.checklist import prepare_checklist, render_checklist
 from fleet.due.condition import Condition, condition_of
 from fleet.models import AnodeReading, Deployment, HousingOpening, ServiceRecord, UnitHold
-from fleet.services.deployments import ReadinessFailed, deployment_start
+from fleet.services.deployments import ReadinessError, deployment_start
 from fleet.services.records import (
     service_record_close,
     service_record_discard,
@@ -107,7 +107,7 @@ def test_a_technician_cannot_override(as_technician, unit, site, technician):
     assert response.status_code == 400
     assert not Deployment.objects.exists()
     # The service refuses it too, whoever calls it.
-    with pytest.raises(ReadinessFailed) as exc:
+    with pytest.raises(ReadinessError) as exc:
         deployment_start(
             deployment=Deployment(
                 unit=unit,
@@ -305,9 +305,7 @@ def test_a_record_with_no_entries_cannot_close(as_supervisor, unit, technician):
     response = as_supervisor.post(
         reverse("record-close", args=[record.pk]), {"confirm": "on"}, follow=True
     )
-    assert "This record has no entries, so there is nothing to close" in (
-        response.content.decode()
-    )
+    assert "This record has no entries, so there is nothing to close" in (response.content.decode())
     record.refresh_from_db()
     assert not record.is_closed
 

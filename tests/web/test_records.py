@@ -26,6 +26,7 @@ def close_open_visit(unit, by):
     record = ServiceRecord.objects.get(unit=unit, closed_at__isnull=True)
     service_record_close(record=record, by=by, at=record.opened_at + dt.timedelta(hours=4))
 
+
 PREFIXES = ("anodes", "seals", "battery", "pressure", "release", "sensors", "openings")
 
 

@@ -16,9 +16,7 @@ def _recently(days: int = 10) -> dt.date:
     return timezone.localdate() - dt.timedelta(days=days)
 
 
-def test_the_fleet_list_filters_by_condition_and_search(
-    as_viewer, unit, variant, site, technician
-):
+def test_the_fleet_list_filters_by_condition_and_search(as_viewer, unit, variant, site, technician):
     other = make_unit(serial="TX-0002", acoustic_address="102", variant=variant)
     serviced_unit(other, by=technician, site=site, day=_recently())
     response = as_viewer.get("/units/", {"condition": "ready"})
@@ -65,9 +63,7 @@ def test_the_fleet_list_costs_the_same_queries_for_five_units_or_forty(
     small = count()
     for i in range(5, 40):
         make_unit(serial=f"TX-{i:04d}", acoustic_address=str(200 + i), variant=variant)
-    Transponder.objects.filter(serial="TX-0007").update(
-        hold=UnitHold.LOST, hold_reason="not found"
-    )
+    Transponder.objects.filter(serial="TX-0007").update(hold=UnitHold.LOST, hold_reason="not found")
     assert count() == small
 
 

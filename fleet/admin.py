@@ -6,6 +6,7 @@ from typing import Any
 
 from django.contrib import admin
 from django.http import HttpRequest
+from django.utils import timezone
 
 from . import models
 from .services.reference import site_save, unit_save, variant_changed
@@ -39,11 +40,18 @@ class VariantAdmin(admin.ModelAdmin):
 
 @admin.register(models.Transponder)
 class TransponderAdmin(admin.ModelAdmin):
-    list_display = ("serial", "variant", "status", "place", "acoustic_address")
-    list_filter = ("status", "variant", "place")
+    list_display = ("serial", "variant", "hold", "place", "acoustic_address")
+    list_filter = ("hold", "variant", "place")
     search_fields = ("serial", "acoustic_address")
+    readonly_fields = ("hold_set_by", "hold_set_at")
 
     def save_model(self, request: HttpRequest, obj: Any, form: Any, change: bool) -> None:
+        # The condition is derived from the records; only the hold is set here, and who set
+        # it and when is kept with it.
+        if not change or {"hold", "hold_reason"} & set(form.changed_data):
+            if obj.hold != models.UnitHold.NONE or change:
+                obj.hold_set_by = request.user
+                obj.hold_set_at = timezone.now()
         unit_save(unit=obj)
 
 

@@ -1,12 +1,16 @@
 import django_filters
 from django.db.models import Q, QuerySet
+from django.utils import timezone
 
-from .models import Place, Transponder, UnitStatus, Variant
+from .due.condition import Condition, annotate_condition
+from .models import Place, Transponder, Variant
 
 
 class UnitFilter(django_filters.FilterSet):
     q = django_filters.CharFilter(method="search", label="Search")
-    status = django_filters.ChoiceFilter(choices=UnitStatus.choices, empty_label="Any status")
+    condition = django_filters.ChoiceFilter(
+        choices=Condition.choices(), empty_label="Any condition", method="by_condition"
+    )
     place = django_filters.ModelChoiceFilter(queryset=Place.objects.all(), empty_label="Any place")
     variant = django_filters.ModelChoiceFilter(
         queryset=Variant.objects.all(), empty_label="Any variant"
@@ -14,7 +18,7 @@ class UnitFilter(django_filters.FilterSet):
 
     class Meta:
         model = Transponder
-        fields = ["q", "status", "place", "variant"]
+        fields = ["q", "condition", "place", "variant"]
 
     def search(self, queryset: QuerySet, name: str, value: str) -> QuerySet:
         value = value.strip()
@@ -26,3 +30,9 @@ class UnitFilter(django_filters.FilterSet):
             | Q(notes__icontains=value)
             | Q(variant__name__icontains=value)
         )
+
+    def by_condition(self, queryset: QuerySet, name: str, value: str) -> QuerySet:
+        """In SQL, on the ``condition`` annotation (added for today if the view did not)."""
+        if "condition" not in queryset.query.annotations:
+            queryset = annotate_condition(queryset, timezone.localdate())
+        return queryset.filter(condition=value)

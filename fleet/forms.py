@@ -30,6 +30,7 @@ from .models import (
 from .models.records import entry_kinds
 from .photos import clean_photo
 from .selectors import previous_anode_mass
+from .services.deployments import deploy_refusal
 
 
 class DateInput(forms.DateInput):
@@ -381,6 +382,27 @@ class DeploymentForm(forms.ModelForm):
         self.fields["unit"].queryset = Transponder.objects.select_related("variant").order_by(
             "serial"
         )
+
+    def clean_unit(self) -> Transponder:
+        """Held, in the water or on the bench: say so before anything else about the dates."""
+        unit = self.cleaned_data["unit"]
+        refusal = deploy_refusal(unit, timezone.localdate())
+        if refusal:
+            raise forms.ValidationError(refusal)
+        return unit
+
+
+class DeploymentOverrideForm(forms.Form):
+    """A supervisor's written reason to deploy against failed readiness checks."""
+
+    reason = forms.CharField(
+        label="Deploy against the failed checks because",
+        required=False,
+        max_length=2000,
+        widget=forms.Textarea(attrs={"rows": 3}),
+        help_text="Supervisors only. At least 10 characters; kept with the deployment and "
+        "printed on the checklist.",
+    )
 
 
 class RecoveryForm(forms.Form):

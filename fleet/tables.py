@@ -2,34 +2,26 @@ import django_tables2 as tables
 from django.urls import reverse
 from django.utils.html import format_html
 
+from .due.condition import Condition
 from .due.engine import DueState, ItemKind
 from .models import Deployment, Site, Transponder
 
-STATUS_ICONS = {
-    # Shapes of our own so that a black-and-white print still reads: one glyph per state.
-    "in_store": "▭",
-    "in_workshop": "⚒",
-    "ready": "✔",
-    "deployed": "⚓",
-    "quarantined": "⊘",
-    "retired": "—",
-    "lost": "✖",
-}
 
-
-def status_badge(value: str, label: str) -> str:
+def condition_badge(condition: Condition) -> str:
+    """Word, shape and colour, so a black-and-white print still reads."""
     return format_html(
         '<span class="state state-{}"><span aria-hidden="true">{}</span> {}</span>',
-        value,
-        STATUS_ICONS.get(value, "?"),
-        label,
+        condition.value,
+        condition.icon,
+        condition.label,
     )
 
 
 class UnitTable(tables.Table):
     serial = tables.Column(linkify=True)
     variant = tables.Column(accessor="variant__name", verbose_name="Variant")
-    status = tables.Column()
+    # Needs the list's queryset annotated with ``annotate_condition`` (one query for the page).
+    condition = tables.Column(verbose_name="Condition", orderable=False)
     place = tables.Column(accessor="place__name", verbose_name="Place", default="—")
     acoustic_address = tables.Column(verbose_name="Address")
     turnaround_delay_ms = tables.Column(verbose_name="Turnaround (ms)")
@@ -42,7 +34,7 @@ class UnitTable(tables.Table):
         fields = (
             "serial",
             "variant",
-            "status",
+            "condition",
             "place",
             "acoustic_address",
             "turnaround_delay_ms",
@@ -52,11 +44,11 @@ class UnitTable(tables.Table):
         attrs = {"class": "grid"}
         per_page = 50
 
-    def render_status(self, value: str, record: Transponder) -> str:
-        return status_badge(record.status, value)
+    def render_condition(self, value: str) -> str:
+        return condition_badge(Condition(value))
 
-    def value_status(self, record: Transponder) -> str:
-        return record.get_status_display()
+    def value_condition(self, value: str) -> str:
+        return Condition(value).label
 
 
 class DeploymentTable(tables.Table):

@@ -25,6 +25,7 @@ urlpatterns = [
     path("records/<int:pk>/edit/", records.record_edit, name="record-edit"),
     path("records/<int:pk>/close/", records.record_close, name="record-close"),
     path("records/<int:pk>/amend/", records.record_amend, name="record-amend"),
+    path("records/<int:pk>/discard/", records.record_discard, name="record-discard"),
     path("deployments/", deployments.deployment_list, name="deployment-list"),
     path("deployments/new/", deployments.deployment_new, name="deployment-new"),
     path(

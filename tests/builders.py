@@ -108,3 +108,102 @@ def pressure_test(day: dt.date, **kwargs: Any) -> PressureTest:
     kwargs.setdefault("facility", "Tank")
     kwargs.setdefault("hold_ended_at", dt.time(16, 0))
     return PressureTest(tested_on=day, **kwargs)
+
+
+def full_service_entries(unit: Transponder, day: dt.date, **release: Any) -> list:
+    """Every entry the readiness checks read, dated ``day`` and good; ``release`` overrides the
+    release test's fields (``limit_switch_ok=False`` makes it fail)."""
+    from fleet.models import (
+        AnodeReading,
+        BatteryInstall,
+        ReleaseTest,
+        SealChange,
+        SensorCheck,
+    )
+
+    variant = unit.variant
+    release.setdefault("limit_switch_ok", True)
+    return [
+        *(
+            AnodeReading(position=p, mass_g=p.new_net_mass_g * 0.9)
+            for p in variant.anode_positions.all()
+        ),
+        *(
+            SealChange(
+                position=s,
+                material="NBR",
+                cure_date=day - dt.timedelta(days=300),
+                reason="interval",
+            )
+            for s in variant.seal_positions.all()
+        ),
+        BatteryInstall(
+            pack_serial=f"P-{unit.serial}",
+            chemistry="li_socl2",
+            nominal_voltage_v=75.6,
+            capacity_ah=38.0,
+            made_on=day - dt.timedelta(days=60),
+            installed_on=day,
+            ocv_install_v=76.5,
+        ),
+        pressure_test(day),
+        ReleaseTest(
+            tested_on=day,
+            kind="load",
+            load_kg=200,
+            seconds_to_release=5,
+            motor_current_a=1.1,
+            acoustic_command_ok=True,
+            **release,
+        ),
+        SensorCheck(
+            checked_on=day,
+            sensor="temperature",
+            reference_value=10.0,
+            unit_reading=10.02,
+            raw_resistance_ohm=103.903,
+        ),
+        SensorCheck(checked_on=day, sensor="pressure", reference_value=1000.0, unit_reading=1000.3),
+    ]
+
+
+def serviced_unit(unit: Transponder, *, by, site: Site, day: dt.date, **release: Any):
+    """``unit`` after one past deployment at ``site`` (so its anodes have a wear rate) and a full
+    bench visit on ``day``, closed: the record-built "ready" unit, on that day's records."""
+    from fleet.models import Deployment
+    from fleet.services.deployments import deployment_recover, deployment_start
+    from fleet.services.records import service_record_close, service_record_save
+
+    over = dt.datetime.combine(day - dt.timedelta(days=200), dt.time(8), tzinfo=dt.UTC)
+    deployment = deployment_start(
+        deployment=Deployment(
+            unit=unit,
+            site=site,
+            over_side_at=over,
+            planned_days=180,
+            planned_interrogations_per_day=200,
+            transmit_power_step=1,
+        ),
+        by=by,
+        check_readiness=False,  # a past deployment, built as history
+    )
+    deployment_recover(
+        deployment=deployment,
+        recovered_at=over + dt.timedelta(days=180),
+        replies_counted=None,
+        place=None,
+        by=by,
+    )
+    opened = dt.datetime.combine(day, dt.time(8), tzinfo=dt.UTC)
+    record = service_record_save(
+        record=ServiceRecord(
+            unit=unit,
+            opened_at=opened,
+            technician=by,
+            place=unit.place or Place.objects.first() or make_place(),
+        ),
+        entries=full_service_entries(unit, day, **release),
+        by=by,
+    )
+    service_record_close(record=record, by=by, at=opened + dt.timedelta(hours=4))
+    return record

@@ -36,6 +36,7 @@ from fleet.demo.scenario import (
     VariantSpec,
 )
 from fleet.demo.simulation import FleetRows, plan_fleet, write_unit
+from fleet.due.condition import annotate_condition
 from fleet.models import (
     Amendment,
     AnodePosition,
@@ -223,7 +224,7 @@ class LoadSummary:
     records: int
     open_records: int
     entries: int
-    statuses: dict[str, int]
+    conditions: dict[str, int]
 
 
 @transaction.atomic
@@ -231,13 +232,14 @@ def load_demo(*, today: dt.date) -> LoadSummary:
     """Create the demo fleet. The caller checks ``demo_loaded()`` first."""
     rows = _fleet_rows(ensure_logins())
     entries = 0
-    statuses: Counter[str] = Counter()
     for plan in plan_fleet(today):
         entries += write_unit(plan, rows)
-        statuses[plan.status] += 1
     units = Transponder.objects.filter(variant__in=rows.variants.values())
     deployments = Deployment.objects.filter(unit__in=units)
     records = ServiceRecord.objects.filter(unit__in=units)
+    conditions = Counter(
+        annotate_condition(units.order_by(), today).values_list("condition", flat=True)
+    )
     return LoadSummary(
         units=units.count(),
         variants=len(rows.variants),
@@ -248,7 +250,7 @@ def load_demo(*, today: dt.date) -> LoadSummary:
         records=records.count(),
         open_records=records.filter(closed_at__isnull=True).count(),
         entries=entries,
-        statuses=dict(sorted(statuses.items())),
+        conditions=dict(sorted(conditions.items())),
     )
 
 

@@ -14,7 +14,7 @@ from dataclasses import dataclass
 from types import MappingProxyType
 
 from fleet import roles
-from fleet.models import Place, UnitStatus
+from fleet.models import Place, UnitHold
 
 SEED = 7193  # any fixed number; change it and the whole fleet changes
 DEMO_PASSWORD = "holdfast-demo"
@@ -337,18 +337,25 @@ ROSTER: tuple[UnitSpec, ...] = (
     UnitSpec("HF3-0308", "dp", "store", 1050),
 )
 
-FINAL_STATUS: Mapping[str, tuple[str, str | None]] = MappingProxyType(
+FINAL_HOLD: Mapping[str, tuple[str, str | None]] = MappingProxyType(
     {
-        "deployed": (UnitStatus.DEPLOYED, None),
-        "ready": (UnitStatus.READY, STORE),
-        "store": (UnitStatus.IN_STORE, STORE),
-        "store_idle": (UnitStatus.IN_STORE, STORE),
-        "store_seals": (UnitStatus.IN_STORE, STORE),
-        "store_anode_low": (UnitStatus.IN_STORE, STORE),
-        "workshop_open": (UnitStatus.IN_WORKSHOP, WORKSHOP),
-        "workshop_fault": (UnitStatus.IN_WORKSHOP, WORKSHOP),
-        "quarantined": (UnitStatus.QUARANTINED, WORKSHOP),
-        "retired": (UnitStatus.RETIRED, STORE),
-        "lost": (UnitStatus.LOST, None),
+        "deployed": (UnitHold.NONE, None),
+        "ready": (UnitHold.NONE, STORE),
+        "store": (UnitHold.NONE, STORE),
+        "store_idle": (UnitHold.NONE, STORE),
+        "store_seals": (UnitHold.NONE, STORE),
+        "store_anode_low": (UnitHold.NONE, STORE),
+        "workshop_open": (UnitHold.NONE, WORKSHOP),
+        "workshop_fault": (UnitHold.NONE, WORKSHOP),
+        "quarantined": (UnitHold.QUARANTINED, WORKSHOP),
+        "retired": (UnitHold.RETIRED, STORE),
+        "lost": (UnitHold.LOST, None),
+    }
+)
+HOLD_REASON: Mapping[str, str] = MappingProxyType(
+    {
+        UnitHold.QUARANTINED: "Proof test lost pressure; water behind the lower end cap.",
+        UnitHold.RETIRED: "Pitting on the upper end-cap sealing face beyond the repair limit.",
+        UnitHold.LOST: "No reply and nothing surfaced on the planned recovery; declared lost.",
     }
 )

@@ -14,7 +14,8 @@
    openings count against seals; each opening is followed by a proof test the next day.
 4. ``write_unit`` writes one unit's plan through the services (``service_record_save``,
    ``service_record_close``, ``deployment_start``, ``deployment_recover``) so that whatever
-   those keep up to date stays consistent, and sets the unit's final status and place.
+   those keep up to date stays consistent, and sets the unit's hold and final place; its
+   condition (in the water, on the bench, needs work, ready) follows from the records.
 
 Every random draw happens in a fixed order, so the same ``today`` always gives the same fleet.
 All dates are anchored on ``today`` and end before it, so nothing is ever in the future.
@@ -38,8 +39,9 @@ from fleet.calc import rtd, seawater
 from fleet.calc.seals import add_months
 from fleet.demo.scenario import (
     BENCH_HANDS,
-    FINAL_STATUS,
+    FINAL_HOLD,
     FRESH_CELL_OCV_V,
+    HOLD_REASON,
     NOMINAL_CELL_V,
     PACK_AGE_LIMIT_MONTHS,
     PACK_CODE,
@@ -68,7 +70,7 @@ from fleet.models import (
     ServiceRecord,
     Site,
     Transponder,
-    UnitStatus,
+    UnitHold,
     Variant,
 )
 from fleet.models.records import entry_kinds
@@ -115,7 +117,7 @@ class UnitPlan:
     acoustic_address: str
     turnaround_delay_ms: float
     transmit_power_step: int
-    status: str
+    hold: str
     place: str | None
     events: list[VisitPlan | DeploymentPlan] = field(default_factory=list)
     immersed_days: float = 0.0
@@ -309,13 +311,13 @@ class _UnitSim:
         self._free_cycles(last_day, end_free=tail[0].over - dt.timedelta(days=6))
         for part in tail:
             self._tail_cycle(part)
-        status, place = FINAL_STATUS[self.spec.role]
+        hold, place = FINAL_HOLD[self.spec.role]
         plan = UnitPlan(
             spec=self.spec,
             acoustic_address="",
             turnaround_delay_ms=round(self.rng.uniform(10.0, 50.0), 1),
             transmit_power_step=self.step,
-            status=status,
+            hold=hold,
             place=place,
             events=self.events,
             immersed_days=self.immersed_days,
@@ -903,7 +905,6 @@ def write_unit(plan: UnitPlan, rows: FleetRows) -> int:
     unit = Transponder(
         serial=plan.spec.serial,
         variant=rows.variants[plan.spec.variant],
-        status=UnitStatus.IN_WORKSHOP,
         place=rows.places[WORKSHOP],
         acoustic_address=plan.acoustic_address,
         turnaround_delay_ms=plan.turnaround_delay_ms,
@@ -933,7 +934,8 @@ def _write_deployment(unit: Transponder, event: DeploymentPlan, rows: FleetRows)
         transmit_power_step=event.power_step,
         notes=event.notes,
     )
-    deployment_start(deployment=deployment, by=by)
+    # Past events: readiness is judged when a unit goes out, not from today.
+    deployment_start(deployment=deployment, by=by, check_readiness=False)
     if event.recovered_at is not None:
         deployment_recover(
             deployment=deployment,
@@ -971,7 +973,11 @@ def _build_entry(item: EntryPlan, variant_pk: int, rows: FleetRows) -> Any:
 
 def _set_final_state(unit_pk: int, plan: UnitPlan, rows: FleetRows) -> None:
     unit = Transponder.objects.get(pk=unit_pk)
-    unit.status = plan.status
+    if plan.hold != UnitHold.NONE:
+        unit.hold = plan.hold
+        unit.hold_reason = HOLD_REASON[plan.hold]
+        unit.hold_set_by = rows.users["supervisor"]
+        unit.hold_set_at = timezone.now()
     unit.place = rows.places[plan.place] if plan.place else None
     unit.version += 1
     unit.full_clean()

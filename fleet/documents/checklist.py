@@ -13,7 +13,7 @@ from reportlab.platypus import CondPageBreak, KeepTogether, Spacer, Table, Table
 
 from fleet.due.planned import PlannedDeployment
 from fleet.due.readiness import Verdict, readiness_for
-from fleet.models import BatteryInstall, Transponder
+from fleet.models import BatteryInstall, Deployment, Transponder
 
 from .base import (
     CAUTIONS,
@@ -51,6 +51,18 @@ class ManualItem:
 
 
 @dataclass(frozen=True, slots=True)
+class OverrideNote:
+    """The unit's open deployment went ahead against failed checks."""
+
+    site: str
+    over_side_at: dt.datetime
+    reason: str
+    by: str
+    at: dt.datetime
+    failed_checks: tuple[str, ...]
+
+
+@dataclass(frozen=True, slots=True)
 class ChecklistDocument:
     reference: str
     prepared_at: dt.datetime
@@ -73,6 +85,7 @@ class ChecklistDocument:
     manual_items: tuple[ManualItem, ...]
     cautions: tuple[str, ...]
     unit_url: str
+    override: OverrideNote | None = None
 
 
 def checklist_reference(serial: str, start: dt.date, site_id: int) -> str:
@@ -118,6 +131,23 @@ def prepare_checklist(
     site, start, days = planned.site, planned.start, planned.days
     pack = BatteryInstall.objects.filter(unit=unit, removed_on__isnull=True).first()
     verdict = readiness.verdict
+    in_water = (
+        Deployment.objects.filter(unit=unit, recovered_at__isnull=True)
+        .select_related("site", "override_by")
+        .first()
+    )
+    override = (
+        OverrideNote(
+            site=in_water.site.name,
+            over_side_at=in_water.over_side_at,
+            reason=in_water.override_reason,
+            by=str(in_water.override_by),
+            at=in_water.override_at,  # type: ignore[arg-type]
+            failed_checks=tuple(in_water.override_check_lines),
+        )
+        if in_water is not None and in_water.overridden
+        else None
+    )
     return ChecklistDocument(
         reference=checklist_reference(unit.serial, start, site.pk),
         prepared_at=at,
@@ -146,12 +176,40 @@ def prepare_checklist(
             for k in ("defer", "lithium", "pressure", "transducer", "release", "lifting")
         ),
         unit_url=unit_url,
+        override=override,
     )
 
 
 def verdict_cell(label: str, icon: str) -> str:
     """Word and icon shape, so a black-and-white copy still reads."""
     return f"{icon} {label}"
+
+
+def override_section(note: OverrideNote | None, width: float) -> list:
+    """A boxed notice when the unit's open deployment went ahead against failed checks."""
+    if note is None:
+        return []
+    lines = [
+        para_bold("Deployed against a failed check", "h2"),
+        para(
+            f"Over the side at {note.site} on {fmt_datetime(note.over_side_at)}. "
+            f"Reason: {note.reason}"
+        ),
+        para(f"By {note.by}, {fmt_datetime(note.at)}"),
+        para("Failed checks as they read then:"),
+        *(para(f"✖ {line}") for line in note.failed_checks),
+    ]
+    box = Table([[lines]], colWidths=[width])
+    box.setStyle(
+        TableStyle(
+            [
+                ("BOX", (0, 0), (-1, -1), 2, "black"),
+                ("TOPPADDING", (0, 0), (-1, -1), 3),
+                ("BOTTOMPADDING", (0, 0), (-1, -1), 5),
+            ]
+        )
+    )
+    return [box, Spacer(0, 3 * mm)]
 
 
 def render_checklist(doc: ChecklistDocument) -> bytes:
@@ -236,6 +294,7 @@ def render_checklist(doc: ChecklistDocument) -> bytes:
         Spacer(0, 2 * mm),
         facts,
         Spacer(0, 3 * mm),
+        *override_section(doc.override, width),
         overall,
         CondPageBreak(30 * mm),
         para("Automated checks", "h2_flow"),

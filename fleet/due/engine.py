@@ -39,8 +39,8 @@ from fleet.models import (
     SealState,
     SensorCheck,
     Transponder,
+    UnitHold,
     UnitState,
-    UnitStatus,
 )
 
 from .acceptance import pressure_test_acceptance, release_test_failures, sensor_check_failures
@@ -60,7 +60,7 @@ SENSOR_FLAGS = (
     (SensorCheck.Sensor.TILT, "has_tilt_sensor", "last_tilt_check"),
 )
 # Units that are off the books for maintenance.
-INACTIVE = {UnitStatus.RETIRED, UnitStatus.LOST}
+INACTIVE = {UnitHold.RETIRED, UnitHold.LOST}
 
 
 @dataclass(frozen=True, slots=True)
@@ -556,7 +556,7 @@ def evaluate_fleet(
 ) -> list[UnitEvaluation]:
     units = fleet_queryset(queryset)
     if not include_inactive:
-        units = units.exclude(status__in=INACTIVE)
+        units = units.exclude(hold__in=INACTIVE)
     cache: dict[int, Rules] = {}
     return [evaluate_unit(u, on=on, rules_cache=cache) for u in units]
 

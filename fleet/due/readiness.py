@@ -40,8 +40,9 @@ from enum import StrEnum
 from fleet.calc import buoyancy as calc_buoyancy
 from fleet.calc import ranging as calc_ranging
 from fleet.calc import seawater as calc_seawater
-from fleet.models import Deployment, Transponder, UnitStatus
+from fleet.models import Deployment, Transponder
 
+from .condition import Condition, condition_of
 from .engine import (
     SENSOR_FLAGS,
     UnitEvaluation,
@@ -168,15 +169,27 @@ def _dated_item_check(
 
 
 def check_status(c: Context) -> list[CheckResult]:
+    """The unit's condition today (``condition.py``); a list that annotated it already
+    (``annotate_condition``) saves the query."""
     unit = c.ev.unit
-    if unit.status in (UnitStatus.QUARANTINED, UnitStatus.RETIRED, UnitStatus.LOST):
-        numbers, verdict = f"unit is {unit.get_status_display().lower()}", Verdict.FAIL
-    elif unit.status == UnitStatus.DEPLOYED:
-        numbers = "unit is in the water now; recover and service it first"
+    condition = Condition(getattr(unit, "condition", None) or condition_of(unit, c.ev.on))
+    if condition.held:
+        verdict, numbers = Verdict.FAIL, f"unit is {condition.label.lower()}"
+        if unit.hold_reason:
+            numbers += f": {unit.hold_reason}"
+    elif condition == Condition.IN_WATER:
         verdict = Verdict.FAIL
+        numbers = "unit is in the water now; recover and service it first"
+    elif condition == Condition.ON_BENCH:
+        verdict = Verdict.WARN
+        numbers = "unit is on the bench now; close its bench visit before it goes"
+    elif condition == Condition.NEEDS_WORK:
+        # The checks below judge each item for this job; the condition is today's summary.
+        verdict = Verdict.PASS
+        numbers = "needs work today: an item is overdue or has no data (see below)"
     else:
-        numbers, verdict = unit.get_status_display().lower(), Verdict.PASS
-    return [CheckResult("Unit status", verdict, numbers, "—")]
+        verdict, numbers = Verdict.PASS, condition.label.lower()
+    return [CheckResult("Unit condition", verdict, numbers, "—")]
 
 
 def check_depth(c: Context, margins: dict[str, float]) -> list[CheckResult]:

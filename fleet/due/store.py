@@ -102,7 +102,7 @@ class DueTotals:
 
 
 def active_rows(units: QuerySet[Transponder] | None = None) -> QuerySet[DueRow]:
-    rows = DueRow.objects.exclude(unit__status__in=INACTIVE)
+    rows = DueRow.objects.exclude(unit__hold__in=INACTIVE)
     if units is not None:
         rows = rows.filter(unit__in=units.values("pk"))
     return rows

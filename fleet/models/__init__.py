@@ -16,7 +16,7 @@ from .records import (
     ServiceRecord,
 )
 from .state import AnodeState, DueRow, SealState, UnitState
-from .units import Transponder, UnitPhoto, UnitStatus
+from .units import Transponder, UnitHold, UnitPhoto
 from .variants import (
     AnodeAlloy,
     AnodePosition,
@@ -55,8 +55,8 @@ __all__ = [
     "ServiceRecord",
     "Site",
     "Transponder",
+    "UnitHold",
     "UnitPhoto",
     "UnitState",
-    "UnitStatus",
     "Variant",
 ]

@@ -38,6 +38,19 @@ class Deployment(models.Model):
         settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+", null=True
     )
     created_at = models.DateTimeField(auto_now_add=True)
+    # A supervisor may deploy a unit whose readiness failed, with a written reason; the failing
+    # checks are kept as they read at that moment, one "name: numbers" per line.
+    override_reason = models.TextField("deployed against a failed check because", blank=True)
+    override_by = models.ForeignKey(
+        settings.AUTH_USER_MODEL,
+        on_delete=models.PROTECT,
+        related_name="+",
+        null=True,
+        blank=True,
+        editable=False,
+    )
+    override_at = models.DateTimeField(null=True, blank=True, editable=False)
+    override_checks = models.TextField(blank=True, editable=False)
 
     class Meta:
         ordering = ["-over_side_at"]
@@ -60,6 +73,14 @@ class Deployment(models.Model):
     @property
     def is_open(self) -> bool:
         return self.recovered_at is None
+
+    @property
+    def overridden(self) -> bool:
+        return bool(self.override_reason)
+
+    @property
+    def override_check_lines(self) -> list[str]:
+        return self.override_checks.splitlines()
 
     def clean(self) -> None:
         super().clean()

@@ -68,6 +68,14 @@ class ServiceRecord(models.Model):
                 condition=Q(closed_at__isnull=True) | Q(closed_at__gte=models.F("opened_at")),
                 name="record_closed_after_opened",
             ),
+            models.UniqueConstraint(
+                fields=["unit"],
+                condition=Q(closed_at__isnull=True),
+                name="one_open_record_per_unit",
+                violation_error_message=(
+                    "This unit already has an open bench visit; finish or discard it first."
+                ),
+            ),
         ]
 
     def __str__(self) -> str:

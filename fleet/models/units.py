@@ -4,6 +4,7 @@ from django.conf import settings
 from django.core.exceptions import ValidationError
 from django.core.validators import MaxValueValidator, MinValueValidator, RegexValidator
 from django.db import models
+from django.db.models import Q
 from django.urls import reverse
 
 from .places import Place
@@ -16,11 +17,11 @@ serial_validator = RegexValidator(
 )
 
 
-class UnitStatus(models.TextChoices):
-    IN_STORE = "in_store", "In store"
-    IN_WORKSHOP = "in_workshop", "In workshop"
-    READY = "ready", "Ready"
-    DEPLOYED = "deployed", "Deployed"
+class UnitHold(models.TextChoices):
+    """What the records cannot know, set by hand with a reason. Everything else about a unit's
+    condition is derived from its records (``fleet.due.condition``)."""
+
+    NONE = "none", "No hold"
     QUARANTINED = "quarantined", "Quarantined"
     RETIRED = "retired", "Retired"
     LOST = "lost", "Lost"
@@ -29,9 +30,17 @@ class UnitStatus(models.TextChoices):
 class Transponder(models.Model):
     serial = models.CharField(max_length=31, unique=True, validators=[serial_validator])
     variant = models.ForeignKey(Variant, on_delete=models.PROTECT, related_name="units")
-    status = models.CharField(
-        max_length=16, choices=UnitStatus.choices, default=UnitStatus.IN_STORE
+    hold = models.CharField(max_length=12, choices=UnitHold.choices, default=UnitHold.NONE)
+    hold_reason = models.TextField(blank=True, help_text="Required when the unit is held.")
+    hold_set_by = models.ForeignKey(
+        settings.AUTH_USER_MODEL,
+        on_delete=models.PROTECT,
+        related_name="+",
+        null=True,
+        blank=True,
+        editable=False,
     )
+    hold_set_at = models.DateTimeField(null=True, blank=True, editable=False)
     place = models.ForeignKey(
         Place, on_delete=models.PROTECT, null=True, blank=True, related_name="units"
     )
@@ -56,6 +65,13 @@ class Transponder(models.Model):
     class Meta:
         ordering = ["serial"]
         verbose_name = "transponder"
+        constraints = [
+            models.CheckConstraint(
+                condition=Q(hold=UnitHold.NONE) | ~Q(hold_reason=""),
+                name="unit_hold_has_reason",
+                violation_error_message="Say why the unit is held.",
+            ),
+        ]
 
     def __str__(self) -> str:
         return self.serial
@@ -65,6 +81,8 @@ class Transponder(models.Model):
 
     def clean(self) -> None:
         super().clean()
+        if self.hold != UnitHold.NONE and not self.hold_reason.strip():
+            raise ValidationError({"hold_reason": "Say why the unit is held."})
         if self.variant_id and self.transmit_power_step:
             check_power_step(self.variant, self.transmit_power_step, "transmit_power_step")
 

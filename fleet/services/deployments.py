@@ -1,31 +1,152 @@
-"""Writes for deployments: a unit goes over the side, a unit comes back."""
+"""Writes for deployments: a unit goes over the side, a unit comes back.
+
+Going over the side is gated:
+
+1. the unit row is locked, then its condition read (``fleet.due.condition``): a held unit
+   (lost, retired, quarantined), one in the water or one on the bench cannot deploy, whoever
+   asks;
+2. the deployment's own fields are validated (dates, power step, overlapping deployments);
+3. readiness runs for the site and the planned days, duty and power step
+   (``fleet.due.readiness.readiness_for``). Any failing check blocks the deployment. A
+   supervisor may deploy against the failed checks with a written reason; the reason, who,
+   when and the failing checks as they read then are kept on the deployment.
+
+Readiness is evaluated from today (``start = max(today, over-side date)``) for the full planned
+days: the records it reads are today's, so judging "as of" a past over-side moment would mix
+today's records with a past clock. From today the battery and anode checks need what the true
+period needs (today's state does not yet count the days already in the water), and the
+validity checks look as far as the true recovery date or further: a deployment entered after
+the fact is judged at least as strictly as one entered on the day, never more leniently.
+"""
+
+import datetime as dt
 
 from django.contrib.auth.models import AbstractBaseUser
 from django.core.exceptions import ValidationError
 from django.db import transaction
 from django.utils import timezone
 
+from fleet import roles
+from fleet.due.condition import Condition, condition_of
+from fleet.due.planned import PlannedDeployment
+from fleet.due.readiness import CheckResult, Verdict, readiness_for
 from fleet.due.store import refresh_unit
-from fleet.models import Deployment, Place, Transponder, UnitStatus
+from fleet.models import Deployment, Place, Transponder
 
-_DEPLOYABLE = {UnitStatus.READY, UnitStatus.IN_STORE, UnitStatus.IN_WORKSHOP}
+OVERRIDE_MIN_CHARS = 10
+
+_REFUSAL = {
+    Condition.IN_WATER: "is in the water now; recover it first",
+    Condition.ON_BENCH: "is on the bench; close or discard its open bench visit first",
+}
+
+
+class ReadinessError(ValidationError):
+    """Readiness failed and was not overridden. ``checks`` are the failing checks;
+    ``override_error`` says why a given override reason was not accepted (else "")."""
+
+    def __init__(
+        self,
+        checks: list[CheckResult],
+        *,
+        site: str,
+        start: dt.date,
+        days: int,
+        override_error: str = "",
+    ):
+        self.checks = checks
+        self.override_error = override_error
+        self.summary = (
+            f"Readiness for {site} from {start} for {days} days failed "
+            f"({len(checks)} check{'s' if len(checks) != 1 else ''}); the unit cannot deploy."
+        )
+        super().__init__(
+            [self.summary]
+            + [f"{c.name}: {c.numbers}" for c in checks]
+            + ([override_error] if override_error else [])
+        )
+
+
+def deploy_refusal(unit: Transponder, on: dt.date) -> str:
+    """Why ``unit`` cannot deploy whatever readiness says ("" when it may be checked): held,
+    in the water or on the bench."""
+    condition = condition_of(unit, on)
+    if condition.held:
+        return (
+            f"{unit.serial} is {condition.label.lower()} and cannot deploy "
+            f"(hold: {unit.hold_reason})."
+        )
+    if condition in _REFUSAL:
+        return f"{unit.serial} {_REFUSAL[condition]}; it cannot deploy."
+    return ""
 
 
 @transaction.atomic
-def deployment_start(*, deployment: Deployment, by: AbstractBaseUser) -> Deployment:
-    unit = Transponder.objects.select_for_update().get(pk=deployment.unit_id)
-    if unit.status not in _DEPLOYABLE:
-        raise ValidationError(
-            {"unit": f"{unit.serial} is {unit.get_status_display().lower()} and cannot deploy."}
-        )
+def deployment_start(
+    *,
+    deployment: Deployment,
+    by: AbstractBaseUser,
+    override_reason: str = "",
+    check_readiness: bool = True,
+) -> Deployment:
+    """Put a unit in the water, gated as the module docstring says.
+
+    ``override_reason`` (a supervisor's, at least ten characters) deploys against failed
+    checks. ``check_readiness=False`` is only for loading past deployments that were
+    recovered long ago (the demo loader): their readiness cannot be judged from today's
+    records. The condition gate (step 1) always applies.
+    """
+    at = timezone.now()
+    today = timezone.localdate(at)
+    unit = (
+        Transponder.objects.select_for_update().select_related("variant").get(pk=deployment.unit_id)
+    )
+    refusal = deploy_refusal(unit, today)
+    if refusal:
+        raise ValidationError({"unit": refusal})
+    deployment.unit = unit
     deployment.created_by = by  # type: ignore[assignment]
     deployment.full_clean()
+    reason = override_reason.strip()
+    if check_readiness:
+        start = max(today, timezone.localdate(deployment.over_side_at))
+        try:
+            planned = PlannedDeployment(
+                site=deployment.site,
+                start=start,
+                days=deployment.planned_days,
+                interrogations_per_day=deployment.planned_interrogations_per_day,
+                power_step=deployment.transmit_power_step,
+            )
+            readiness = readiness_for(unit, planned, on=today)
+        except ValueError as exc:
+            raise ValidationError(f"Readiness could not be checked: {exc}") from exc
+        failures = [c for c in readiness.checks if c.verdict == Verdict.FAIL]
+        if failures:
+            refused = ""
+            if not reason:
+                pass
+            elif not roles.can_supervise(by):
+                refused = "Only a supervisor can deploy against a failed check."
+            elif len(reason) < OVERRIDE_MIN_CHARS:
+                refused = (
+                    f"Write at least {OVERRIDE_MIN_CHARS} characters on why the unit goes "
+                    "against the failed checks."
+                )
+            if not reason or refused:
+                raise ReadinessError(
+                    failures,
+                    site=deployment.site.name,
+                    start=start,
+                    days=deployment.planned_days,
+                    override_error=refused,
+                )
+            deployment.override_reason = reason
+            deployment.override_by = by  # type: ignore[assignment]
+            deployment.override_at = at
+            deployment.override_checks = "\n".join(f"{c.name}: {c.numbers}" for c in failures)
     deployment.save()
-    if deployment.recovered_at is None:
-        unit.status = UnitStatus.DEPLOYED
-        unit.version += 1
-        unit.save(update_fields=["status", "version", "updated_at"])
-    refresh_unit(unit, at=timezone.now())
+    refresh_unit(unit, at=at)
     return deployment
 
 
@@ -38,6 +159,9 @@ def deployment_recover(
     place: Place | None,
     by: AbstractBaseUser,
 ) -> Deployment:
+    """Bring a unit back. Its condition follows the records (no longer in the water); a
+    recovered unit goes to the bench before anything else: it may hold pressure or water."""
+    unit = Transponder.objects.select_for_update().get(pk=deployment.unit_id)
     current = Deployment.objects.select_for_update().get(pk=deployment.pk)
     if current.recovered_at is not None:
         raise ValidationError("This deployment is already recovered.")
@@ -45,12 +169,11 @@ def deployment_recover(
     current.replies_counted = replies_counted
     current.full_clean()
     current.save(update_fields=["recovered_at", "replies_counted"])
-    unit = Transponder.objects.select_for_update().get(pk=current.unit_id)
-    # A recovered unit goes to the bench before anything else: it may hold pressure or water.
-    unit.status = UnitStatus.IN_WORKSHOP
+    update_fields = ["version", "updated_at"]
     if place is not None:
         unit.place = place
+        update_fields.append("place")
     unit.version += 1
-    unit.save(update_fields=["status", "place", "version", "updated_at"])
+    unit.save(update_fields=update_fields)
     refresh_unit(unit, at=timezone.now())
     return current

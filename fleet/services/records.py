@@ -10,8 +10,9 @@ from django.db import transaction
 from django.db.models import Model
 from django.utils import timezone
 
+from fleet import roles
 from fleet.due.store import refresh_unit
-from fleet.models import Amendment, BatteryInstall, ServiceRecord
+from fleet.models import Amendment, BatteryInstall, Deployment, ServiceRecord, Transponder, UnitHold
 from fleet.models.records import Entry, entry_kinds
 
 # The record's own field an amendment may correct; each entry kind lists its own
@@ -30,6 +31,36 @@ def amendable_fields(target: Model) -> tuple[str, ...]:
 
 def _lock(record: ServiceRecord) -> ServiceRecord:
     return ServiceRecord.objects.select_for_update().get(pk=record.pk)
+
+
+def _has_entries(record: ServiceRecord) -> bool:
+    return any(getattr(record, kind.related_name()).exists() for kind in entry_kinds())
+
+
+def open_record_of(unit: Transponder) -> ServiceRecord | None:
+    """The unit's bench visit in progress, if any (at most one: ``one_open_record_per_unit``)."""
+    return ServiceRecord.objects.filter(unit=unit, closed_at__isnull=True).first()
+
+
+def check_can_open_record(unit: Transponder) -> None:
+    """A bench visit cannot start for a unit in the water, lost or retired, nor while another
+    visit to the same unit is open. A quarantined unit can: the bench is where it is fixed."""
+    if unit.hold in (UnitHold.LOST, UnitHold.RETIRED):
+        raise ValidationError(
+            f"{unit.serial} is {unit.get_hold_display().lower()}; "
+            "a bench visit cannot be opened for it."
+        )
+    if Deployment.objects.filter(unit=unit, recovered_at__isnull=True).exists():
+        raise ValidationError(
+            f"{unit.serial} is in the water; recover it before opening a bench visit."
+        )
+    current = open_record_of(unit)
+    if current is not None:
+        raise ValidationError(
+            f"{unit.serial} already has an open bench visit (opened "
+            f"{timezone.localtime(current.opened_at):%Y-%m-%d %H:%M}); "
+            "finish or discard it before opening another."
+        )
 
 
 def _fit_battery(install: BatteryInstall) -> None:
@@ -103,6 +134,8 @@ def service_record_save(
         record.version = current.version + 1
         record.updated_by = by  # type: ignore[assignment]
     else:
+        unit = Transponder.objects.select_for_update().get(pk=record.unit_id)
+        check_can_open_record(unit)
         record.created_by = by  # type: ignore[assignment]
         record.version = 1
     record.full_clean()
@@ -133,10 +166,43 @@ def service_record_close(*, record: ServiceRecord, by: AbstractBaseUser, at: dt.
         raise ValidationError("This record is already closed.")
     if at < current.opened_at:
         raise ValidationError("A record cannot close before it opened.")
+    still_open = current.housing_openings.filter(closed_at__isnull=True).order_by("opened_at")
+    if still_open.exists():
+        when = ", ".join(f"{timezone.localtime(o.opened_at):%Y-%m-%d %H:%M}" for o in still_open)
+        raise ValidationError(
+            f"The housing opened at {when} has no close time. Enter when it was closed "
+            "before closing the record."
+        )
+    if not _has_entries(current):
+        raise ValidationError(
+            "This record has no entries, so there is nothing to close; discard the visit instead."
+        )
     record.closed_at = at
     record.closed_by = by  # type: ignore[assignment]
     record.version = current.version + 1
     record.save(update_fields=["closed_at", "closed_by", "version", "updated_at"])
+
+
+def can_discard(record: ServiceRecord, user: AbstractBaseUser) -> bool:
+    """Who may discard an open visit: its technician or a supervisor."""
+    return record.technician_id == user.pk or roles.can_supervise(user)
+
+
+@transaction.atomic
+def service_record_discard(*, record: ServiceRecord, by: AbstractBaseUser) -> None:
+    """Delete an open bench visit that has no entries (opened by mistake or never started)."""
+    Transponder.objects.select_for_update().filter(pk=record.unit_id).get()
+    current = _lock(record)
+    if current.is_closed:
+        raise ValidationError("A closed record cannot be discarded.")
+    if not can_discard(current, by):
+        raise ValidationError("Only the visit's technician or a supervisor can discard it.")
+    if _has_entries(current):
+        raise ValidationError(
+            "This visit has entries and cannot be discarded; remove them first or close it."
+        )
+    # No entries means nothing fed the unit's derived state or due rows: nothing to refresh.
+    current.delete()
 
 
 def amendable_targets(record: ServiceRecord) -> list[Model]:

@@ -6,12 +6,13 @@ from django.utils import timezone
 from django_tables2 import RequestConfig
 
 from fleet import roles
+from fleet.due.condition import Condition, annotate_condition
 from fleet.due.items import ItemKind
 from fleet.due.store import due_queryset, due_totals, export_rows
 from fleet.exports import csv_rows_response
 from fleet.forms import DueFilterForm
-from fleet.models import Deployment, ServiceRecord, Transponder, UnitStatus
-from fleet.tables import DueItemTable, status_badge
+from fleet.models import Deployment, ServiceRecord, Transponder
+from fleet.tables import DueItemTable, condition_badge
 
 from .guards import require
 
@@ -37,12 +38,15 @@ def dashboard(request: HttpRequest) -> HttpResponse:
     table = DueItemTable(rows)
     RequestConfig(request, paginate={"per_page": 100}).configure(table)
 
-    by_status = dict(
-        Transponder.objects.values_list("status").annotate(n=Count("pk")).values_list("status", "n")
+    by_condition = dict(
+        annotate_condition(Transponder.objects.order_by(), on)
+        .values("condition")
+        .annotate(n=Count("pk"))
+        .values_list("condition", "n")
     )
-    status_rows = [
-        (status_badge(value, label), value, by_status.get(value, 0))
-        for value, label in UnitStatus.choices
+    condition_rows = [
+        (condition_badge(condition), condition.value, by_condition.get(condition.value, 0))
+        for condition in Condition
     ]
     by_place = (
         Transponder.objects.values("place__name").annotate(n=Count("pk")).order_by("place__name")
@@ -55,9 +59,9 @@ def dashboard(request: HttpRequest) -> HttpResponse:
             "form": form,
             "table": table,
             "due": due,
-            "status_rows": status_rows,
+            "condition_rows": condition_rows,
             "by_place": by_place,
-            "unit_count": sum(by_status.values()),
+            "unit_count": sum(by_condition.values()),
             "open_records": ServiceRecord.objects.filter(closed_at__isnull=True)
             .select_related("unit", "technician")
             .order_by("opened_at")[:20],

@@ -8,9 +8,9 @@ from django_tables2 import RequestConfig
 
 from fleet import roles
 from fleet.exports import csv_response
-from fleet.forms import DeploymentForm, RecoveryForm, SiteForm
+from fleet.forms import DeploymentForm, DeploymentOverrideForm, RecoveryForm, SiteForm
 from fleet.models import Deployment, Site, Transponder
-from fleet.services.deployments import deployment_recover, deployment_start
+from fleet.services.deployments import ReadinessError, deployment_recover, deployment_start
 from fleet.services.reference import site_save
 from fleet.tables import DeploymentTable, SiteTable
 
@@ -47,18 +47,47 @@ def deployment_new(request: HttpRequest) -> HttpResponse:
         if unit:
             initial.update(unit=unit.pk, transmit_power_step=unit.transmit_power_step)
     form = DeploymentForm(request.POST or None, initial=initial)
+    can_override = roles.can_supervise(request.user)
+    override = DeploymentOverrideForm(request.POST or None, prefix="override")
+    failed_checks = None
     status = 200
     if request.method == "POST":
-        if form.is_valid():
+        if form.is_valid() and override.is_valid():
             try:
-                deployment = deployment_start(deployment=form.instance, by=request.user)
+                deployment = deployment_start(
+                    deployment=form.instance,
+                    by=request.user,
+                    override_reason=override.cleaned_data["reason"] if can_override else "",
+                )
+            except ReadinessError as exc:
+                failed_checks = exc.checks
+                form.add_error(None, exc.summary)
+                if exc.override_error:
+                    override.add_error("reason", exc.override_error)
             except ValidationError as exc:
                 _apply_errors(form, exc)
             else:
-                messages.success(request, f"{deployment.unit.serial} is in the water.")
+                if deployment.overridden:
+                    messages.warning(
+                        request,
+                        f"{deployment.unit.serial} is in the water against a failed check; "
+                        "the reason is kept with the deployment.",
+                    )
+                else:
+                    messages.success(request, f"{deployment.unit.serial} is in the water.")
                 return redirect(deployment.unit)
         status = 400
-    return render(request, "fleet/deployment_form.html", {"form": form}, status=status)
+    return render(
+        request,
+        "fleet/deployment_form.html",
+        {
+            "form": form,
+            "override": override,
+            "can_override": can_override,
+            "failed_checks": failed_checks,
+        },
+        status=status,
+    )
 
 
 @require_http_methods(["GET", "POST"])

@@ -1,11 +1,12 @@
 from django.contrib import messages
-from django.core.exceptions import ValidationError
+from django.core.exceptions import PermissionDenied, ValidationError
 from django.db.models import Model
 from django.http import HttpRequest, HttpResponse
 from django.shortcuts import redirect, render
 from django.utils import timezone
 from django.views.decorators.http import require_http_methods
 
+from fleet import roles
 from fleet.forms import AmendmentForm, CloseRecordForm, ServiceRecordForm, entry_formsets
 from fleet.models import ServiceRecord
 from fleet.models.records import entry_kinds
@@ -13,7 +14,11 @@ from fleet.services.records import (
     amendable_fields,
     amendable_targets,
     amendment_create,
+    can_discard,
+    check_can_open_record,
+    open_record_of,
     service_record_close,
+    service_record_discard,
     service_record_save,
 )
 
@@ -65,6 +70,8 @@ def _edit(request: HttpRequest, record: ServiceRecord, template_title: str) -> H
             "form": form,
             "formsets": formsets,
             "errors": errors,
+            # A refused new visit links to the one in progress.
+            "open_record": open_record_of(record.unit) if errors and record.pk is None else None,
             "title": template_title,
         },
         status=400 if errors else 200,
@@ -74,6 +81,12 @@ def _edit(request: HttpRequest, record: ServiceRecord, template_title: str) -> H
 @require_http_methods(["GET", "POST"])
 def record_new(request: HttpRequest, serial: str) -> HttpResponse:
     unit = get_unit_for_user(request, serial, write=True)
+    try:
+        check_can_open_record(unit)
+    except ValidationError as exc:
+        messages.error(request, " ".join(exc.messages))
+        current = open_record_of(unit)
+        return redirect(current or unit)
     record = ServiceRecord(
         unit=unit,
         opened_at=timezone.now().replace(second=0, microsecond=0),
@@ -100,21 +113,27 @@ def _target_label(target: Model) -> str:
 
 def record_detail(request: HttpRequest, pk: int) -> HttpResponse:
     record = get_record_for_user(request, pk)
+    sections = [
+        (
+            kind.plural_title(),
+            list(kind.with_list_related(getattr(record, kind.related_name()).all())),
+        )
+        for kind in entry_kinds()
+    ]
+    empty = not any(entries for _, entries in sections)
     return render(
         request,
         "fleet/record_detail.html",
         {
             "record": record,
             "unit": record.unit,
-            "sections": [
-                (
-                    kind.plural_title(),
-                    kind.with_list_related(getattr(record, kind.related_name()).all()),
-                )
-                for kind in entry_kinds()
-            ],
+            "sections": sections,
             "amendments": record.amendments.select_related("created_by", "target_type"),
             "close_form": CloseRecordForm(),
+            "can_discard": empty
+            and not record.is_closed
+            and roles.can_record(request.user)
+            and can_discard(record, request.user),
         },
     )
 
@@ -133,6 +152,21 @@ def record_close(request: HttpRequest, pk: int) -> HttpResponse:
     else:
         messages.success(request, "Record closed. It is now read-only.")
     return redirect(record)
+
+
+@require_http_methods(["POST"])
+def record_discard(request: HttpRequest, pk: int) -> HttpResponse:
+    record = get_record_for_user(request, pk, write=True)
+    if not can_discard(record, request.user):
+        raise PermissionDenied
+    unit = record.unit
+    try:
+        service_record_discard(record=record, by=request.user)
+    except ValidationError as exc:
+        messages.error(request, " ".join(exc.messages))
+        return redirect(record)
+    messages.success(request, f"The empty bench visit for {unit.serial} was discarded.")
+    return redirect(unit)
 
 
 @require_http_methods(["GET", "POST"])

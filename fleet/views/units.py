@@ -9,6 +9,7 @@ from django_tables2 import RequestConfig
 
 from fleet import roles
 from fleet.due.acceptance import release_test_failures
+from fleet.due.condition import annotate_condition, condition_of
 from fleet.due.rules import Rules, rules_for
 from fleet.due.store import unit_due_items
 from fleet.exports import csv_response
@@ -24,7 +25,7 @@ from fleet.models import (
     Transponder,
 )
 from fleet.models.records import Entry, entry_kinds
-from fleet.tables import UnitTable, status_badge
+from fleet.tables import UnitTable, condition_badge
 
 from .guards import get_unit_for_user, require
 
@@ -48,8 +49,11 @@ def unit_photo_add(request: HttpRequest, serial: str) -> HttpResponse:
 
 @require(roles.can_read)
 def unit_list(request: HttpRequest) -> HttpResponse:
-    queryset = Transponder.objects.select_related("variant", "place").annotate(
-        last_service=Max("service_records__opened_at")
+    queryset = annotate_condition(
+        Transponder.objects.select_related("variant", "place").annotate(
+            last_service=Max("service_records__opened_at")
+        ),
+        timezone.localdate(),
     )
     unit_filter = UnitFilter(request.GET or None, queryset=queryset)
     table = UnitTable(unit_filter.qs)
@@ -113,7 +117,7 @@ def unit_detail(request: HttpRequest, serial: str) -> HttpResponse:
             "amendments",
         )
     )
-    deployments = Deployment.objects.filter(unit=unit).select_related("site")
+    deployments = Deployment.objects.filter(unit=unit).select_related("site", "override_by")
     on = timezone.localdate()
     soon_days = settings.HOLDFAST["DUE_SOON_DAYS"]
     rules = rules_for(unit.variant)
@@ -131,7 +135,7 @@ def unit_detail(request: HttpRequest, serial: str) -> HttpResponse:
             "due_items": unit_due_items(unit, on=on, soon_days=soon_days),
             "readiness_form": PlannedDeploymentForm(initial={"start": on, "days": 90}, today=on),
             "variant": variant,
-            "status_badge": status_badge(unit.status, unit.get_status_display()),
+            "condition_badge": condition_badge(condition_of(unit, on)),
             "anodes": [(p, last_reading.get(p.pk)) for p in anode_positions],
             "seals": [(p, last_seal.get(p.pk)) for p in seal_positions],
             "fitted_pack": fitted_pack,

@@ -42,7 +42,7 @@ def test_it_prepares_every_field_for_the_hand_built_history(history):
     assert (doc.interrogations_per_day, doc.power_step) == (200, 1)
     assert (doc.verdict, doc.verdict_label, doc.verdict_icon) == ("pass", "Pass", "✔")
     assert [(c.name, c.verdict) for c in doc.checks] == [
-        ("Unit status", "pass"),
+        ("Unit condition", "pass"),
         ("Depth rating", "pass"),
         ("Pressure test", "pass"),
         ("Battery", "pass"),

@@ -17,7 +17,7 @@ from fleet.models import (
     Transponder,
 )
 from fleet.services.deployments import deployment_recover, deployment_start
-from fleet.services.records import service_record_save
+from fleet.services.records import service_record_close, service_record_save
 from tests.builders import pressure_test
 
 pytestmark = pytest.mark.django_db
@@ -30,9 +30,14 @@ def t(*args: int) -> dt.datetime:
     return dt.datetime(*args, tzinfo=dt.UTC)
 
 
-def visit(unit, by, when, *entries):
+def visit(unit, by, when, *entries, close=True):
+    """A bench visit; closed twelve hours after it opened when it has entries (one open visit
+    per unit at a time), left open when it has none or ``close`` is False."""
     record = ServiceRecord(unit=unit, opened_at=when, technician=by, place=unit.place)
-    return service_record_save(record=record, entries=list(entries), by=by)
+    record = service_record_save(record=record, entries=list(entries), by=by)
+    if close and entries:
+        service_record_close(record=record, by=by, at=when + dt.timedelta(hours=12))
+    return record
 
 
 def deploy(unit, site, by, start, end=None, *, per_day=500, replies=None):
@@ -46,6 +51,7 @@ def deploy(unit, site, by, start, end=None, *, per_day=500, replies=None):
             transmit_power_step=1,
         ),
         by=by,
+        check_readiness=False,  # a built history: readiness is tested on its own
     )
     if end is not None:
         deployment_recover(
@@ -172,7 +178,10 @@ def test_a_seal_is_due_when_its_openings_are_used_up(unit, technician):
             technician,
             t(2026, 6, day),
             HousingOpening(
-                opened_at=t(2026, 6, day, 10), vented_before_opening=True, reason="check"
+                opened_at=t(2026, 6, day, 10),
+                closed_at=t(2026, 6, day, 11),
+                vented_before_opening=True,
+                reason="check",
             ),
         )
     item_ = item(evaluate(unit), "Seal: Seal 1 (AS568-240)")
@@ -195,7 +204,12 @@ def test_a_housing_opening_voids_thepressure_test(unit, technician):
         unit,
         technician,
         t(2026, 3, 1),
-        HousingOpening(opened_at=t(2026, 3, 1, 9), vented_before_opening=True, reason="swap board"),
+        HousingOpening(
+            opened_at=t(2026, 3, 1, 9),
+            closed_at=t(2026, 3, 1, 10),
+            vented_before_opening=True,
+            reason="swap board",
+        ),
     )
     test = item(evaluate(unit), "Pressure test")
     assert test.state == DueState.OVERDUE
@@ -207,7 +221,12 @@ def test_an_opening_before_the_test_in_the_same_visit_does_not_void_it(unit, tec
         unit,
         technician,
         t(2026, 2, 1),
-        HousingOpening(opened_at=t(2026, 2, 1, 9), vented_before_opening=True, reason="seals"),
+        HousingOpening(
+            opened_at=t(2026, 2, 1, 9),
+            closed_at=t(2026, 2, 1, 10),
+            vented_before_opening=True,
+            reason="seals",
+        ),
         pressure_test(dt.date(2026, 2, 1)),
     )
     assert item(evaluate(unit), "Pressure test").state == DueState.CURRENT
@@ -219,7 +238,12 @@ def test_an_opening_after_the_test_in_the_same_visit_voids_it(unit, technician):
         technician,
         t(2026, 2, 1),
         pressure_test(dt.date(2026, 2, 1), hold_ended_at=dt.time(11, 0)),
-        HousingOpening(opened_at=t(2026, 2, 1, 15), vented_before_opening=True, reason="check"),
+        HousingOpening(
+            opened_at=t(2026, 2, 1, 15),
+            closed_at=t(2026, 2, 1, 16),
+            vented_before_opening=True,
+            reason="check",
+        ),
     )
     test = item(evaluate(unit), "Pressure test")
     assert test.state == DueState.OVERDUE
@@ -233,7 +257,12 @@ def test_a_test_with_no_time_of_day_is_voided_by_an_opening_that_day(unit, techn
         unit,
         technician,
         t(2026, 2, 1),
-        HousingOpening(opened_at=t(2026, 2, 1, 9), vented_before_opening=True, reason="seals"),
+        HousingOpening(
+            opened_at=t(2026, 2, 1, 9),
+            closed_at=t(2026, 2, 1, 10),
+            vented_before_opening=True,
+            reason="seals",
+        ),
         pressure_test(dt.date(2026, 2, 1), hold_ended_at=None),
     )
     assert item(evaluate(unit), "Pressure test").state == DueState.OVERDUE

@@ -21,7 +21,7 @@ from fleet.models import (
     HousingOpening,
     SealChange,
 )
-from fleet.services.records import amendment_create, service_record_close
+from fleet.services.records import amendment_create
 from fleet.services.reference import site_save
 from tests.builders import make_unit, pressure_test
 from tests.due.test_engine import deploy, t, visit
@@ -166,7 +166,12 @@ def _visit_entries(variant, day: dt.date, kind: str, mass: float, bond):
         return [SealChange(position=seal, material="NBR", cure_date=day, reason="interval")]
     if kind == "open":
         moment = timezone.make_aware(dt.datetime.combine(day, dt.time(10)))
-        return [HousingOpening(opened_at=moment, vented_before_opening=True, reason="look")]
+        closed = moment + dt.timedelta(hours=1)
+        return [
+            HousingOpening(
+                opened_at=moment, closed_at=closed, vented_before_opening=True, reason="look"
+            )
+        ]
     if kind == "pack":
         return [_pack(day, f"PK-{day.isoformat()}")]
     return [pressure_test(day)]
@@ -204,8 +209,7 @@ def test_random_histories_written_out_of_order_equal_a_rebuild(
                     r for r in records if r.anode_readings.exclude(mass_g=round(op[1], 1)).exists()
                 ]
                 if readings:
-                    record = readings[0]
-                    service_record_close(record=record, by=supervisor, at=timezone.now())
+                    record = readings[0]  # the visit helper closed it
                     amendment_create(
                         record=record,
                         target=record.anode_readings.first(),

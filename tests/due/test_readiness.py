@@ -14,7 +14,6 @@ from fleet.models import (
     ReleaseTest,
     SealChange,
     SensorCheck,
-    UnitStatus,
 )
 from tests.builders import make_site, make_unit
 from tests.due.test_engine import ON, deploy, t, visit
@@ -76,8 +75,6 @@ def serviced(unit, by, when=None):
         SensorCheck(checked_on=day, sensor="pressure", reference_value=1000.0, unit_reading=1000.3),
     ]
     visit(unit, by, when, *entries)
-    unit.status = UnitStatus.READY
-    unit.save()
     return unit
 
 

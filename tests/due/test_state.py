@@ -7,7 +7,7 @@ from django.core.management.base import CommandError
 
 from fleet.due.snapshot import state_snapshot
 from fleet.models import AnodeReading, AnodeState, DueRow, UnitState
-from fleet.services.records import amendment_create, service_record_close
+from fleet.services.records import amendment_create
 from tests.due.test_engine import deploy, t, visit
 
 pytestmark = pytest.mark.django_db
@@ -21,7 +21,6 @@ def test_running_state_matches_a_rebuild(unit, site, technician, supervisor):
     # A deployment typed in late, between two earlier events, shifts the immersed days.
     deploy(unit, site, technician, t(2025, 5, 1), t(2025, 8, 9))
     visit(unit, technician, t(2025, 8, 10), AnodeReading(position=position, mass_g=370))
-    service_record_close(record=first, by=supervisor, at=t(2025, 4, 13))
     amendment_create(
         record=first,
         target=reading,

@@ -8,7 +8,7 @@ from django.utils import timezone
 
 from fleet.due.engine import DueState, classify
 from fleet.due.store import due_items_stored, due_queryset, due_totals
-from fleet.models import AnodeReading, DueRow, UnitStatus
+from fleet.models import AnodeReading, DueRow, UnitHold
 from tests.builders import make_unit, pressure_test
 from tests.due.test_engine import t, visit
 
@@ -16,7 +16,8 @@ pytestmark = pytest.mark.django_db
 
 
 def test_a_bench_visit_rewrites_the_units_due_rows(unit, technician):
-    visit(unit, technician, t(2026, 2, 1))
+    position = unit.variant.anode_positions.first()
+    visit(unit, technician, t(2026, 2, 1), AnodeReading(position=position, mass_g=390))
     before = DueRow.objects.get(unit=unit, item="Pressure test")
     assert before.due_on is None
     visit(
@@ -55,7 +56,7 @@ def test_retired_and_lost_units_drop_off_the_list(unit, technician):
     visit(unit, technician, t(2026, 2, 1))
     on = timezone.localdate()
     assert due_items_stored(on=on, soon_days=30)
-    unit.status = UnitStatus.RETIRED
+    unit.hold, unit.hold_reason = UnitHold.RETIRED, "housing beyond repair"
     unit.save()
     assert due_items_stored(on=on, soon_days=30) == []
 

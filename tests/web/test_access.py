@@ -3,6 +3,7 @@
 import pytest
 from django.urls import reverse
 
+from fleet.models import AnodeReading
 from tests.builders import make_record
 
 pytestmark = pytest.mark.django_db
@@ -52,6 +53,9 @@ def test_only_technicians_and_supervisors_open_a_new_record(request, persona, ex
 )
 def test_only_supervisors_close_records(request, persona, expected, unit, technician):
     record = make_record(unit=unit, by=technician)
+    AnodeReading.objects.create(
+        record=record, position=unit.variant.anode_positions.first(), mass_g=390
+    )
     client = request.getfixturevalue(persona)
     response = client.post(reverse("record-close", args=[record.pk]), {"confirm": "on"})
     assert response.status_code == expected

@@ -4,12 +4,30 @@ import pytest
 from django.urls import reverse
 from django.utils import timezone
 
-from fleet.models import Deployment, UnitStatus
+from fleet.due.condition import Condition, condition_of
+from fleet.models import Deployment, UnitHold
+from tests.builders import serviced_unit
 
 pytestmark = pytest.mark.django_db
 
 
-def _deploy(client, unit, site, when="2026-01-10T08:00", **extra):
+def _ago(days: float) -> dt.datetime:
+    return timezone.now() - dt.timedelta(days=days)
+
+
+def _when(days: float) -> str:
+    return _ago(days).strftime("%Y-%m-%dT%H:%M")
+
+
+@pytest.fixture
+def ready(unit, site, technician):
+    """TX-0001 after a past deployment and a full bench visit ten days ago, closed."""
+    serviced_unit(unit, by=technician, site=site, day=timezone.localdate() - dt.timedelta(days=10))
+    return unit
+
+
+def _deploy(client, unit, site, when=None, **extra):
+    when = when or _when(0.1)
     data = {
         "unit": unit.pk,
         "site": site.pk,
@@ -22,48 +40,53 @@ def _deploy(client, unit, site, when="2026-01-10T08:00", **extra):
     return client.post(reverse("deployment-new"), data)
 
 
-def test_a_deployment_puts_the_unit_in_the_water(as_technician, unit, site, technician):
-    response = _deploy(as_technician, unit, site)
+def test_a_deployment_puts_the_unit_in_the_water(as_technician, ready, site, technician):
+    response = _deploy(as_technician, ready, site)
     assert response.status_code == 302
-    unit.refresh_from_db()
-    assert unit.status == UnitStatus.DEPLOYED
-    assert Deployment.objects.get().created_by == technician
+    assert condition_of(ready, timezone.localdate()) == Condition.IN_WATER
+    deployment = Deployment.objects.get(recovered_at__isnull=True)
+    assert deployment.created_by == technician
+    assert deployment.override_reason == ""
 
 
-def test_a_unit_cannot_be_in_two_places_at_once(as_technician, unit, site):
-    _deploy(as_technician, unit, site)
-    unit.status = UnitStatus.IN_STORE
-    unit.save()
-    response = _deploy(as_technician, unit, site, when="2026-02-01T08:00")
+def test_a_unit_cannot_be_in_two_places_at_once(as_technician, ready, site):
+    _deploy(as_technician, ready, site)
+    response = _deploy(as_technician, ready, site, when=_when(0.05))
     assert response.status_code == 400
-    assert "overlapping" in response.content.decode()
-    assert Deployment.objects.count() == 1
+    assert "TX-0001 is in the water now; recover it first; it cannot deploy." in (
+        response.content.decode()
+    )
+    assert Deployment.objects.filter(recovered_at__isnull=True).count() == 1
 
 
-def test_a_quarantined_unit_cannot_deploy(as_technician, unit, site):
-    unit.status = UnitStatus.QUARANTINED
-    unit.save()
-    response = _deploy(as_technician, unit, site)
+def test_a_quarantined_unit_cannot_deploy(as_technician, ready, site):
+    ready.hold, ready.hold_reason = UnitHold.QUARANTINED, "water behind the end cap"
+    ready.save()
+    response = _deploy(as_technician, ready, site)
     assert response.status_code == 400
-    assert "quarantined and cannot deploy" in response.content.decode()
+    assert "quarantined and cannot deploy (hold: water behind the end cap)" in (
+        response.content.decode()
+    )
+    assert not Deployment.objects.filter(recovered_at__isnull=True).exists()
 
 
-def test_recovery_must_come_after_over_the_side(as_technician, unit, site):
-    _deploy(as_technician, unit, site)
-    deployment = Deployment.objects.get()
+def test_recovery_must_come_after_over_the_side(as_technician, ready, site):
+    _deploy(as_technician, ready, site, when=_when(5))
+    deployment = Deployment.objects.get(recovered_at__isnull=True)
     url = reverse("deployment-recover", args=[deployment.pk])
-    response = as_technician.post(url, {"recovered_at": "2026-01-01T08:00"})
+    response = as_technician.post(url, {"recovered_at": _when(6)})
     assert response.status_code == 400
     assert "Recovery must come after over the side." in response.content.decode()
+    back = _ago(1).replace(second=0, microsecond=0)
     response = as_technician.post(
-        url, {"recovered_at": "2026-03-01T08:00", "replies_counted": "35000"}
+        url, {"recovered_at": back.strftime("%Y-%m-%dT%H:%M"), "replies_counted": "35000"}
     )
     assert response.status_code == 302
     deployment.refresh_from_db()
-    assert deployment.recovered_at == dt.datetime(2026, 3, 1, 8, 0, tzinfo=dt.UTC)
+    assert deployment.recovered_at == back
     assert deployment.replies_counted == 35000
-    unit.refresh_from_db()
-    assert unit.status == UnitStatus.IN_WORKSHOP
+    # No state is set by hand: out of the water, the condition follows the records.
+    assert condition_of(ready, timezone.localdate()) != Condition.IN_WATER
 
 
 def test_a_future_deployment_is_refused(as_technician, unit, site):
@@ -73,11 +96,11 @@ def test_a_future_deployment_is_refused(as_technician, unit, site):
     assert "Over the side cannot be in the future." in response.content.decode()
 
 
-def test_a_viewer_cannot_recover(as_viewer, as_technician, unit, site):
-    _deploy(as_technician, unit, site)
-    deployment = Deployment.objects.get()
+def test_a_viewer_cannot_recover(as_viewer, as_technician, ready, site):
+    _deploy(as_technician, ready, site)
+    deployment = Deployment.objects.get(recovered_at__isnull=True)
     response = as_viewer.post(
-        reverse("deployment-recover", args=[deployment.pk]), {"recovered_at": "2026-03-01T08:00"}
+        reverse("deployment-recover", args=[deployment.pk]), {"recovered_at": _when(0)}
     )
     assert response.status_code == 403
 

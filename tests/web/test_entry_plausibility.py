@@ -6,6 +6,7 @@ import datetime as dt
 import pytest
 from django.conf import settings
 from django.core.exceptions import ValidationError
+from django.db.models import F
 from django.test import override_settings
 from django.urls import reverse
 from django.utils import timezone
@@ -319,10 +320,17 @@ def test_a_planned_start_far_in_the_future_is_refused_not_a_500(as_viewer, unit,
 
 
 def _anode_visit(client, unit, workshop, technician, opened_at, **row):
+    """Post a bench visit with one anode row; a saved visit is closed at once (one open
+    visit per unit), as a supervisor would before the next visit."""
     position = unit.variant.anode_positions.first()
     data = record_post(unit, workshop, technician, anodes=[{"position": position.pk, **row}])
     data["opened_at"] = opened_at
-    return client.post(reverse("record-new", args=[unit.serial]), data)
+    response = client.post(reverse("record-new", args=[unit.serial]), data)
+    if response.status_code == 302:
+        ServiceRecord.objects.filter(unit=unit, closed_at=None).update(
+            closed_at=F("opened_at") + dt.timedelta(hours=8)
+        )
+    return response
 
 
 def test_an_anode_heavier_than_its_last_reading_asks_for_confirmation_then_saves(
@@ -392,7 +400,7 @@ def test_the_previous_mass_skips_readings_without_a_mass_and_later_visits(unit, 
         (T0.replace(month=1, day=20), {"remaining_percent": 90.0}),
         (T0.replace(month=2, day=10), {"mass_g": 300.0}),  # after the visit asked about
     ):
-        record = make_record(unit=unit, by=technician, opened_at=opened_at)
+        record = make_record(unit=unit, by=technician, opened_at=opened_at, closed_at=opened_at)
         AnodeReading.objects.create(record=record, position=position, **values)
     previous = previous_anode_mass(
         unit_id=unit.pk, position_id=position.pk, before=T0.replace(month=1, day=30)

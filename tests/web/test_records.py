@@ -15,9 +15,17 @@ from fleet.models import (
     SealChange,
     ServiceRecord,
 )
+from fleet.services.records import service_record_close
 from tests.builders import make_record
 
 pytestmark = pytest.mark.django_db
+
+
+def close_open_visit(unit, by):
+    """One open visit per unit: close the one in progress before the next opens."""
+    record = ServiceRecord.objects.get(unit=unit, closed_at__isnull=True)
+    service_record_close(record=record, by=by, at=record.opened_at + dt.timedelta(hours=4))
+
 
 PREFIXES = ("anodes", "seals", "battery", "pressure", "release", "sensors", "openings")
 
@@ -188,6 +196,7 @@ def test_a_second_pack_replaces_the_fitted_one(as_technician, unit, workshop, te
     as_technician.post(
         url, record_post(unit, workshop, technician, battery=[pack("P1", "2025-06-01")])
     )
+    close_open_visit(unit, technician)
     as_technician.post(
         url, record_post(unit, workshop, technician, battery=[pack("P2", "2026-02-01")])
     )
@@ -337,6 +346,9 @@ def test_the_record_page_shows_who_created_and_closed_it(
     as_supervisor, supervisor, unit, technician
 ):
     record = make_record(unit=unit, by=technician)
+    AnodeReading.objects.create(
+        record=record, position=unit.variant.anode_positions.first(), mass_g=390
+    )
     SealChange  # noqa: B018 (imported for the record's sections)
     as_supervisor.post(reverse("record-close", args=[record.pk]), {"confirm": "on"})
     body = as_supervisor.get(record.get_absolute_url()).content.decode()
@@ -352,6 +364,7 @@ def test_a_fitted_pack_is_taken_out_with_its_removal_volts(
     as_technician.post(
         url, record_post(unit, workshop, technician, battery=[pack("P1", "2025-06-01")])
     )
+    close_open_visit(unit, technician)
     page = as_technician.get(url).content.decode()
     assert "Pack P1, installed 2025-06-01." in page
     data = record_post(unit, workshop, technician)
@@ -382,6 +395,7 @@ def test_a_removal_before_the_install_is_refused(as_technician, unit, workshop, 
         ],
     )
     as_technician.post(url, data)
+    close_open_visit(unit, technician)
     data = record_post(unit, workshop, technician)
     data.update(remove_pack_on="2025-05-01")
     response = as_technician.post(url, data)

@@ -20,7 +20,8 @@ from django.test import override_settings
 from django.utils import timezone
 
 from fleet import demo
-from fleet.models import Deployment, DueRow, ServiceRecord, Transponder, UnitStatus, Variant
+from fleet.due.condition import Condition, annotate_condition
+from fleet.models import Deployment, DueRow, ServiceRecord, Transponder, UnitHold, Variant
 
 # The demo password hashed by the real hasher costs ~0.4 s a time; these tests check logins,
 # not hashing, so a fast hasher keeps the module quick.
@@ -108,18 +109,24 @@ def test_every_unit_has_at_least_one_service_record(seeded: Seeded) -> None:
 def test_it_leaves_open_work_and_units_in_every_state(seeded: Seeded) -> None:
     assert 2 <= ServiceRecord.objects.filter(closed_at__isnull=True).count() <= 3
     assert Deployment.objects.filter(recovered_at__isnull=True).exists()
-    statuses = set(Transponder.objects.values_list("status", flat=True))
-    assert statuses == set(UnitStatus.values)
-    assert Transponder.objects.filter(status=UnitStatus.QUARANTINED).count() == 1
-
-
-def test_unit_status_agrees_with_open_deployments(seeded: Seeded) -> None:
-    # Deployed units are in the water; the lost unit's last deployment was never recovered.
-    open_units = set(
-        Deployment.objects.filter(recovered_at__isnull=True).values_list("unit__status", flat=True)
+    conditions = set(
+        annotate_condition(Transponder.objects.all(), timezone.localdate()).values_list(
+            "condition", flat=True
+        )
     )
-    assert open_units == {UnitStatus.DEPLOYED, UnitStatus.LOST}
-    for unit in Transponder.objects.filter(status=UnitStatus.DEPLOYED):
+    assert conditions == set(Condition)
+    assert Transponder.objects.filter(hold=UnitHold.QUARANTINED).count() == 1
+    assert not Transponder.objects.exclude(hold=UnitHold.NONE).filter(hold_reason="").exists()
+
+
+def test_unit_condition_agrees_with_open_deployments(seeded: Seeded) -> None:
+    # Units in the water have an open deployment; the lost unit's last one was never recovered.
+    units = annotate_condition(Transponder.objects.all(), timezone.localdate())
+    open_units = set(
+        Deployment.objects.filter(recovered_at__isnull=True).values_list("unit__hold", flat=True)
+    )
+    assert open_units == {UnitHold.NONE, UnitHold.LOST}
+    for unit in units.filter(condition=Condition.IN_WATER):
         assert unit.deployments.filter(recovered_at__isnull=True).count() == 1
         assert unit.place is None
 

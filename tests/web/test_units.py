@@ -1,18 +1,31 @@
+import datetime as dt
+
 import pytest
+from django.db import connection
+from django.test.utils import CaptureQueriesContext
 from django.urls import reverse
+from django.utils import timezone
 
 from fleet.due.rules import rules_for
-from fleet.models import AnodeReading, ReleaseTest, Transponder
-from tests.builders import T0, make_record, make_unit
+from fleet.models import AnodeReading, ReleaseTest, Transponder, UnitHold
+from tests.builders import T0, make_record, make_unit, serviced_unit
 
 pytestmark = pytest.mark.django_db
 
 
-def test_the_fleet_list_filters_by_status_and_search(as_viewer, unit, variant):
-    make_unit(serial="TX-0002", acoustic_address="102", status="ready", variant=variant)
-    response = as_viewer.get("/units/", {"status": "ready"})
+def _recently(days: int = 10) -> dt.date:
+    return timezone.localdate() - dt.timedelta(days=days)
+
+
+def test_the_fleet_list_filters_by_condition_and_search(as_viewer, unit, variant, site, technician):
+    other = make_unit(serial="TX-0002", acoustic_address="102", variant=variant)
+    serviced_unit(other, by=technician, site=site, day=_recently())
+    response = as_viewer.get("/units/", {"condition": "ready"})
     assert b"TX-0002" in response.content
-    assert b"TX-0001" not in response.content
+    assert b"TX-0001" not in response.content  # no records at all: nothing says it is ready
+    response = as_viewer.get("/units/", {"condition": "needs_work"})
+    assert b"TX-0001" in response.content
+    assert b"TX-0002" not in response.content
     response = as_viewer.get("/units/", {"q": "0001"})
     assert b"TX-0001" in response.content
     assert b"TX-0002" not in response.content
@@ -36,6 +49,49 @@ def test_the_fleet_list_uses_a_fixed_number_of_queries(
     assert response.status_code == 200
 
 
+def test_the_fleet_list_costs_the_same_queries_for_five_units_or_forty(
+    as_viewer, variant, site, technician
+):
+    def count() -> int:
+        with CaptureQueriesContext(connection) as queries:
+            assert as_viewer.get("/units/", {"condition": "ready"}).status_code == 200
+            assert as_viewer.get("/units/").status_code == 200
+        return len(queries)
+
+    for i in range(5):
+        u = make_unit(serial=f"TX-{i:04d}", acoustic_address=str(200 + i), variant=variant)
+        serviced_unit(u, by=technician, site=site, day=_recently())
+    small = count()
+    for i in range(5, 40):
+        make_unit(serial=f"TX-{i:04d}", acoustic_address=str(200 + i), variant=variant)
+    Transponder.objects.filter(serial="TX-0007").update(hold=UnitHold.LOST, hold_reason="not found")
+    assert count() == small
+
+
+def test_a_unit_whose_release_test_failed_does_not_read_ready_anywhere(
+    as_viewer, unit, site, technician
+):
+    # The release test is on a closed record; the visit left everything else in order.
+    serviced_unit(unit, by=technician, site=site, day=_recently(), limit_switch_ok=False)
+    listed = as_viewer.get("/units/").content.decode()
+    assert "Needs work" in listed
+    assert "★</span> Ready" not in listed
+    assert b"TX-0001" not in as_viewer.get("/units/", {"condition": "ready"}).content
+    assert b"TX-0001" in as_viewer.get("/units/", {"condition": "needs_work"}).content
+    page = as_viewer.get(reverse("unit-detail", args=[unit.serial])).content.decode()
+    head = page.split("<h2>")[0]
+    assert "Needs work" in head
+    assert "Ready" not in head
+    exported = as_viewer.get("/units/", {"export": "csv"}).content.decode()
+    assert "Needs work" in exported and "Ready" not in exported
+
+
+def test_the_same_unit_with_a_good_release_test_reads_ready(as_viewer, unit, site, technician):
+    serviced_unit(unit, by=technician, site=site, day=_recently())
+    page = as_viewer.get(reverse("unit-detail", args=[unit.serial])).content.decode()
+    assert "★</span> Ready" in page.split("<h2>")[0]
+
+
 def test_the_csv_export_escapes_spreadsheet_formulas(as_viewer, variant):
     make_unit(serial="TX-0100", acoustic_address="100", variant=variant, notes="")
     Transponder.objects.filter(serial="TX-0100").update(acoustic_address="=1+2")
@@ -52,7 +108,7 @@ def test_an_unknown_export_format_is_ignored_not_a_500(as_viewer, unit):
 
 
 def test_the_unit_page_shows_the_last_reading_of_each_anode(as_viewer, unit, technician):
-    old = make_record(unit=unit, by=technician)
+    old = make_record(unit=unit, by=technician, closed_at=T0 + dt.timedelta(hours=4))
     position = unit.variant.anode_positions.first()
     AnodeReading.objects.create(record=old, position=position, mass_g=380.0)
     new = make_record(unit=unit, by=technician, opened_at=old.opened_at.replace(month=6))

@@ -44,7 +44,6 @@ from fleet.models import (
     ServiceRecord,
     Site,
     Transponder,
-    UnitStatus,
     Variant,
 )
 
@@ -178,7 +177,6 @@ class Command(BaseCommand):
             Transponder(
                 serial=f"B-{i:06d}",
                 variant=variant,
-                status=UnitStatus.IN_STORE,
                 place=place,
                 acoustic_address=str(i % 4000),
                 turnaround_delay_ms=12.5,

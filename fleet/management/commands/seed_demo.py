@@ -13,6 +13,7 @@ from django.db import transaction
 from django.utils import timezone
 
 from fleet import demo
+from fleet.due.condition import Condition
 
 
 class Command(BaseCommand):
@@ -43,9 +44,12 @@ class Command(BaseCommand):
             summary = demo.load_demo(today=today)
         seconds = time.monotonic() - started
         self.stdout.write(self.style.SUCCESS(f"Loaded the demo fleet in {seconds:.1f} s:"))
-        statuses = ", ".join(f"{count} {status}" for status, count in summary.statuses.items())
+        conditions = ", ".join(
+            f"{count} {Condition(value).label.lower()}"
+            for value, count in summary.conditions.items()
+        )
         self.stdout.write(
-            f"  {summary.units} units ({statuses})\n"
+            f"  {summary.units} units ({conditions})\n"
             f"  {summary.variants} variants, {summary.sites} sites, {summary.places} places\n"
             f"  {summary.deployments} deployments ({summary.open_deployments} open)\n"
             f"  {summary.records} service records ({summary.open_records} open), "

@@ -16,7 +16,7 @@ from fleet.documents.certificate import prepare_certificate, render_certificate
 from fleet.documents.checklist import prepare_checklist, render_checklist
 from fleet.documents.labels import PAPERS, prepare_labels, render_labels
 from fleet.documents.report import RecordOpenError, prepare_report, render_report
-from fleet.documents.services import certificate_issue, certificate_withdraw
+from fleet.services.certificates import certificate_issue, certificate_withdraw
 from fleet.forms import PlannedDeploymentForm
 from fleet.models import ReleaseCertificate, ReleaseTest, Site, Transponder, Variant
 

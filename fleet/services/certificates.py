@@ -2,7 +2,9 @@
 
 Locking: issuing locks the release test's row first, so two supervisors issuing for the same
 test run one after the other (the second supersedes the first, never two current
-certificates); withdrawing locks the certificate's row. Numbering: the year's counter row is locked with ``select_for_update`` (a row lock on
+certificates); withdrawing locks the certificate's row.
+
+Numbering: the year's counter row is locked with ``select_for_update`` (a row lock on
 PostgreSQL; on SQLite the IMMEDIATE transaction already holds the database write lock), so
 two supervisors issuing at once get consecutive numbers, never the same one. The unique
 constraints on (year, sequence) and on the number are the backstop.

@@ -1,5 +1,4 @@
 from django.conf import settings
-from django.db.models import Count
 from django.http import HttpRequest, HttpResponse
 from django.shortcuts import render
 from django.utils import timezone
@@ -10,7 +9,8 @@ from fleet.due.items import ItemKind
 from fleet.due.store import due_queryset, due_totals, export_rows
 from fleet.exports import csv_rows_response
 from fleet.forms import DueFilterForm
-from fleet.models import Deployment, ServiceRecord, Transponder, UnitStatus
+from fleet.models import Transponder, UnitStatus
+from fleet.selectors import fleet_counts, open_records, units_in_water
 from fleet.tables import DueItemTable, status_badge
 
 from .guards import require
@@ -37,16 +37,11 @@ def dashboard(request: HttpRequest) -> HttpResponse:
     table = DueItemTable(rows)
     RequestConfig(request, paginate={"per_page": 100}).configure(table)
 
-    by_status = dict(
-        Transponder.objects.values_list("status").annotate(n=Count("pk")).values_list("status", "n")
-    )
+    counts = fleet_counts()
     status_rows = [
-        (status_badge(value, label), value, by_status.get(value, 0))
+        (status_badge(value, label), value, counts.by_status[value])
         for value, label in UnitStatus.choices
     ]
-    by_place = (
-        Transponder.objects.values("place__name").annotate(n=Count("pk")).order_by("place__name")
-    )
     return render(
         request,
         "fleet/dashboard.html",
@@ -56,13 +51,9 @@ def dashboard(request: HttpRequest) -> HttpResponse:
             "table": table,
             "due": due,
             "status_rows": status_rows,
-            "by_place": by_place,
-            "unit_count": sum(by_status.values()),
-            "open_records": ServiceRecord.objects.filter(closed_at__isnull=True)
-            .select_related("unit", "technician")
-            .order_by("opened_at")[:20],
-            "in_water": Deployment.objects.filter(recovered_at__isnull=True)
-            .select_related("unit", "site")
-            .order_by("over_side_at")[:50],
+            "by_place": counts.by_place,
+            "unit_count": counts.total,
+            "open_records": open_records(limit=20),
+            "in_water": units_in_water(limit=50),
         },
     )

@@ -8,6 +8,7 @@ from django.views.decorators.http import require_http_methods
 
 from fleet.forms import AmendmentForm, CloseRecordForm, ServiceRecordForm, entry_formsets
 from fleet.models import ServiceRecord
+from fleet.selectors import record_amendments, record_sections
 from fleet.services.records import (
     AMENDABLE_FIELDS,
     amendable_targets,
@@ -105,16 +106,8 @@ def record_detail(request: HttpRequest, pk: int) -> HttpResponse:
         {
             "record": record,
             "unit": record.unit,
-            "sections": [
-                ("Anode readings", record.anode_readings.select_related("position")),
-                ("Seal changes", record.seal_changes.select_related("position")),
-                ("Battery installs", record.battery_installs.all()),
-                ("Pressure tests", record.pressure_tests.all()),
-                ("Release tests", record.release_tests.all()),
-                ("Sensor checks", record.sensor_checks.all()),
-                ("Housing openings", record.housing_openings.all()),
-            ],
-            "amendments": record.amendments.select_related("created_by", "target_type"),
+            "sections": record_sections(record=record),
+            "amendments": record_amendments(record=record),
             "close_form": CloseRecordForm(),
         },
     )

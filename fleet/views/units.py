@@ -1,6 +1,6 @@
 from django.conf import settings
 from django.contrib import messages
-from django.db.models import Max, Prefetch
+from django.db.models import Max
 from django.http import HttpRequest, HttpResponse
 from django.shortcuts import redirect, render
 from django.utils import timezone
@@ -12,14 +12,8 @@ from fleet.due.store import unit_due_items
 from fleet.exports import csv_response
 from fleet.filters import UnitFilter
 from fleet.forms import PlannedDeploymentForm, UnitPhotoForm
-from fleet.models import (
-    AnodeReading,
-    BatteryInstall,
-    Deployment,
-    SealChange,
-    ServiceRecord,
-    Transponder,
-)
+from fleet.models import Transponder
+from fleet.selectors import unit_page
 from fleet.tables import UnitTable, status_badge
 
 from .guards import get_unit_for_user, require
@@ -59,54 +53,9 @@ def unit_list(request: HttpRequest) -> HttpResponse:
     )
 
 
-def _latest_by_position(entries: list, key: str) -> dict[int, object]:
-    latest: dict[int, object] = {}
-    for entry in entries:  # newest first
-        latest.setdefault(getattr(entry, key), entry)
-    return latest
-
-
 def unit_detail(request: HttpRequest, serial: str) -> HttpResponse:
     unit = get_unit_for_user(request, serial)
-    variant = unit.variant
-    anode_positions = list(variant.anode_positions.all())
-    seal_positions = list(variant.seal_positions.all())
-
-    readings = list(
-        AnodeReading.objects.filter(record__unit=unit)
-        .select_related("record", "position")
-        .order_by("-record__opened_at", "-pk")
-    )
-    seal_changes = list(
-        SealChange.objects.filter(record__unit=unit)
-        .select_related("record", "position")
-        .order_by("-record__opened_at", "-pk")
-    )
-    last_reading = _latest_by_position(readings, "position_id")
-    last_seal = _latest_by_position(seal_changes, "position_id")
-    fitted_pack = BatteryInstall.objects.filter(unit=unit, removed_on__isnull=True).first()
-
-    records = (
-        ServiceRecord.objects.filter(unit=unit)
-        .select_related("technician", "place", "closed_by")
-        .prefetch_related(
-            Prefetch("anode_readings", queryset=AnodeReading.objects.select_related("position")),
-            Prefetch("seal_changes", queryset=SealChange.objects.select_related("position")),
-            "battery_installs",
-            "pressure_tests",
-            "release_tests",
-            "sensor_checks",
-            "housing_openings",
-            "amendments",
-        )
-    )
-    deployments = Deployment.objects.filter(unit=unit).select_related("site")
-    history = sorted(
-        [("record", r.opened_at, r) for r in records]
-        + [("deployment", d.over_side_at, d) for d in deployments],
-        key=lambda item: item[1],
-        reverse=True,
-    )
+    page = unit_page(unit=unit)
     on = timezone.localdate()
     soon_days = settings.HOLDFAST["DUE_SOON_DAYS"]
     return render(
@@ -116,13 +65,13 @@ def unit_detail(request: HttpRequest, serial: str) -> HttpResponse:
             "unit": unit,
             "due_items": unit_due_items(unit, on=on, soon_days=soon_days),
             "readiness_form": PlannedDeploymentForm(initial={"start": on, "days": 90}, today=on),
-            "variant": variant,
+            "variant": unit.variant,
             "status_badge": status_badge(unit.status, unit.get_status_display()),
-            "anodes": [(p, last_reading.get(p.pk)) for p in anode_positions],
-            "seals": [(p, last_seal.get(p.pk)) for p in seal_positions],
-            "fitted_pack": fitted_pack,
-            "open_deployment": next((d for d in deployments if d.recovered_at is None), None),
-            "history": history,
+            "anodes": page.anodes,
+            "seals": page.seals,
+            "fitted_pack": page.fitted_pack,
+            "open_deployment": page.open_deployment,
+            "history": page.history,
             "photos": unit.photos.select_related("uploaded_by"),
             "photo_form": UnitPhotoForm(),
         },

@@ -5,7 +5,7 @@ BIN := $(VENV)/bin
 PORT ?= 8000
 STAMP := $(VENV)/.installed-stamp
 
-.PHONY: demo test install lint format migrations-check serve clean
+.PHONY: demo test install lint format migrations-check clean
 
 $(BIN)/python:
 	$(PYTHON) -m venv $(VENV)

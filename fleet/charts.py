@@ -1,11 +1,18 @@
 """Small server-side SVG line charts, legible in black and white: series differ by dash
-pattern and marker shape, not only by colour. Served as images (no inline SVG, no scripts)."""
+pattern and marker shape, not only by colour. Served as images (no inline SVG, no scripts).
+
+The unit page's two charts are assembled here from the ``fleet.due.history`` dataclasses
+(``anode_chart_svg``, ``battery_chart_svg``); the views only call one of them."""
 
 from __future__ import annotations
 
 import datetime as dt
 from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
 from xml.sax.saxutils import escape
+
+if TYPE_CHECKING:
+    from fleet.due.history import AnodeHistory, BatteryHistory
 
 WIDTH, HEIGHT = 640, 260
 LEFT, RIGHT, TOP, BOTTOM = 56, 16, 28, 40
@@ -126,3 +133,52 @@ def render(chart: Chart) -> str:
         legend_x += 30 + 7 * len(s.label)
     out.append("</svg>")
     return "".join(out)
+
+
+def anode_chart_svg(history: AnodeHistory, *, serial: str, today: dt.date) -> str:
+    """One anode position: readings as % of new mass, the fitted wear line, the projection to
+    the replacement threshold, and the threshold itself across the drawn span."""
+    chart = Chart(
+        title=f"{serial}: anode {history.name}",
+        y_label="% of new mass",
+        y_min=0.0,
+        y_max=100.0,
+        today=today,
+        series=[
+            Series("readings", history.readings, marker="circle", line=False),
+            Series("fitted wear", history.fitted),
+            Series("projection", history.projection, dash="6 4"),
+        ],
+    )
+    if history.readings or history.projection:
+        first = min(d for d, _ in (*history.readings, *history.projection))
+        last = max(d for d, _ in (*history.readings, *history.projection, (today, 0)))
+        chart.series.append(
+            Series(
+                f"replace at {history.threshold_percent:.0f} %",
+                ((first, history.threshold_percent), (last, history.threshold_percent)),
+                dash="2 3",
+            )
+        )
+    return render(chart)
+
+
+def battery_chart_svg(history: BatteryHistory | None, *, serial: str, today: dt.date) -> str:
+    """The fitted pack: charge used so far, the projection at the duty, and the reserve; an
+    empty chart when no pack is fitted."""
+    chart = Chart(title=f"{serial}: battery charge", y_label="Ah left", today=today)
+    if history is not None:
+        chart.y_max = max(history.usable_ah * 1.05, 0.1)
+        chart.series = [
+            Series("used so far", history.used, marker="square"),
+            Series("projection at duty", history.projection, dash="6 4"),
+        ]
+        ends = [d for d, _ in (*history.used, *history.projection)]
+        chart.series.append(
+            Series(
+                "reserve",
+                ((min(ends), history.reserve_ah), (max(ends), history.reserve_ah)),
+                dash="2 3",
+            )
+        )
+    return render(chart)

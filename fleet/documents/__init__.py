@@ -1,2 +1,3 @@
-"""PDF documents: prepared dataclasses (everything a page states) and their reportlab renderers,
-plus the certificate services. Shared look in ``base``."""
+"""Documents: prepared dataclasses (everything a page states) and their renderers (reportlab
+PDFs, the iCalendar feed). No writes here; certificate writes live in ``fleet.services``.
+Shared PDF look in ``base``."""

@@ -1,17 +1,17 @@
 from django.conf import settings
-from django.db.models import Count
 from django.http import HttpRequest, HttpResponse
 from django.shortcuts import render
 from django.utils import timezone
 from django_tables2 import RequestConfig
 
 from fleet import roles
-from fleet.due.condition import Condition, annotate_condition
+from fleet.due.condition import Condition
 from fleet.due.items import ItemKind
 from fleet.due.store import due_queryset, due_totals, export_rows
 from fleet.exports import csv_rows_response
 from fleet.forms import DueFilterForm
-from fleet.models import Deployment, ServiceRecord, Transponder
+from fleet.models import Transponder
+from fleet.selectors import fleet_counts, open_records, units_in_water
 from fleet.tables import DueItemTable, condition_badge
 
 from .guards import require
@@ -38,19 +38,11 @@ def dashboard(request: HttpRequest) -> HttpResponse:
     table = DueItemTable(rows)
     RequestConfig(request, paginate={"per_page": 100}).configure(table)
 
-    by_condition = dict(
-        annotate_condition(Transponder.objects.order_by(), on)
-        .values("condition")
-        .annotate(n=Count("pk"))
-        .values_list("condition", "n")
-    )
+    counts = fleet_counts(on=on)
     condition_rows = [
-        (condition_badge(condition), condition.value, by_condition.get(condition.value, 0))
+        (condition_badge(condition), condition.value, counts.by_condition[condition])
         for condition in Condition
     ]
-    by_place = (
-        Transponder.objects.values("place__name").annotate(n=Count("pk")).order_by("place__name")
-    )
     return render(
         request,
         "fleet/dashboard.html",
@@ -60,13 +52,9 @@ def dashboard(request: HttpRequest) -> HttpResponse:
             "table": table,
             "due": due,
             "condition_rows": condition_rows,
-            "by_place": by_place,
-            "unit_count": sum(by_condition.values()),
-            "open_records": ServiceRecord.objects.filter(closed_at__isnull=True)
-            .select_related("unit", "technician")
-            .order_by("opened_at")[:20],
-            "in_water": Deployment.objects.filter(recovered_at__isnull=True)
-            .select_related("unit", "site")
-            .order_by("over_side_at")[:50],
+            "by_place": counts.by_place,
+            "unit_count": counts.total,
+            "open_records": open_records(limit=20),
+            "in_water": units_in_water(limit=50),
         },
     )

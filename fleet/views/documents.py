@@ -3,9 +3,9 @@
 
 from django.contrib import messages
 from django.contrib.auth.decorators import login_not_required
-from django.core.exceptions import PermissionDenied, ValidationError
+from django.core.exceptions import ValidationError
 from django.http import HttpRequest, HttpResponse, HttpResponseBadRequest
-from django.shortcuts import get_object_or_404, redirect, render
+from django.shortcuts import redirect, render
 from django.urls import reverse
 from django.utils import timezone
 from django.utils.http import url_has_allowed_host_and_scheme
@@ -16,11 +16,17 @@ from fleet.documents.certificate import prepare_certificate, render_certificate
 from fleet.documents.checklist import prepare_checklist, render_checklist
 from fleet.documents.labels import PAPERS, prepare_labels, render_labels
 from fleet.documents.report import RecordOpenError, prepare_report, render_report
-from fleet.documents.services import certificate_issue, certificate_withdraw
 from fleet.forms import PlannedDeploymentForm
-from fleet.models import ReleaseCertificate, ReleaseTest, Site, Transponder, Variant
+from fleet.models import ReleaseCertificate, Site, Transponder, Variant
+from fleet.services.certificates import certificate_issue, certificate_withdraw
 
-from .guards import get_record_for_user, get_unit_for_user, require
+from .guards import (
+    get_certificate_for_user,
+    get_record_for_user,
+    get_release_test_for_user,
+    get_unit_for_user,
+    require,
+)
 
 
 def _pdf(data: bytes, filename: str) -> HttpResponse:
@@ -118,27 +124,6 @@ def record_report_pdf(request: HttpRequest, pk: int) -> HttpResponse:
     return _pdf(render_report(doc), f"{doc.reference}.pdf")
 
 
-def _get_release_test_for_user(request: HttpRequest, pk: int) -> ReleaseTest:
-    """Issuing is for supervisors: 403 before 404, like every guard."""
-    if not roles.can_supervise(request.user):
-        raise PermissionDenied
-    return get_object_or_404(ReleaseTest.objects.select_related("record__unit"), pk=pk)
-
-
-def _get_certificate_for_user(
-    request: HttpRequest, number: str, *, supervise: bool = False
-) -> ReleaseCertificate:
-    allowed = roles.can_supervise if supervise else roles.can_read
-    if not allowed(request.user):
-        raise PermissionDenied
-    return get_object_or_404(
-        ReleaseCertificate.objects.select_related(
-            "release_test__record__unit__variant", "issued_by", "superseded_by"
-        ),
-        number=number,
-    )
-
-
 def _back(request: HttpRequest, fallback: str) -> HttpResponse:
     target = request.POST.get("next", "")
     if url_has_allowed_host_and_scheme(
@@ -150,7 +135,7 @@ def _back(request: HttpRequest, fallback: str) -> HttpResponse:
 
 @require_POST
 def certificate_issue_view(request: HttpRequest, pk: int) -> HttpResponse:
-    test = _get_release_test_for_user(request, pk)
+    test = get_release_test_for_user(request, pk)
     try:
         certificate = certificate_issue(release_test=test, by=request.user, at=timezone.now())
     except ValidationError as exc:
@@ -162,7 +147,7 @@ def certificate_issue_view(request: HttpRequest, pk: int) -> HttpResponse:
 
 @require_POST
 def certificate_withdraw_view(request: HttpRequest, number: str) -> HttpResponse:
-    certificate = _get_certificate_for_user(request, number, supervise=True)
+    certificate = get_certificate_for_user(request, number, supervise=True)
     try:
         certificate_withdraw(
             certificate=certificate,
@@ -179,7 +164,7 @@ def certificate_withdraw_view(request: HttpRequest, number: str) -> HttpResponse
 
 @require_GET
 def certificate_pdf(request: HttpRequest, number: str) -> HttpResponse:
-    certificate = _get_certificate_for_user(request, number)
+    certificate = get_certificate_for_user(request, number)
     verify_url = request.build_absolute_uri(
         reverse("certificate-verify", args=[certificate.verification_code])
     )

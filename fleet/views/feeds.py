@@ -1,22 +1,21 @@
 """The due calendar: a per-user secret iCalendar address that can be revoked."""
 
-import hashlib
-
 from django.conf import settings
 from django.contrib import messages
 from django.contrib.auth.decorators import login_not_required
-from django.http import Http404, HttpRequest, HttpResponse
+from django.http import HttpRequest, HttpResponse
 from django.shortcuts import redirect, render
+from django.urls import reverse
 from django.utils import timezone
 from django.views.decorators.http import require_http_methods
-from icalendar import Calendar, Event
 
 from fleet import roles
+from fleet.documents.calendar import prepare_calendar, render_calendar
 from fleet.due.store import due_items_stored
 from fleet.models import CalendarFeed
 from fleet.models.feeds import new_feed_token
 
-from .guards import require
+from .guards import get_calendar_feed_for_token, require
 
 
 @require(roles.can_read)
@@ -37,34 +36,22 @@ def feed_settings(request: HttpRequest) -> HttpResponse:
             feed = None
             messages.success(request, "Calendar address revoked.")
         return redirect("feed-settings")
-    url = request.build_absolute_uri(f"/feed/{feed.token}.ics") if feed else None
+    url = request.build_absolute_uri(reverse("feed-ics", args=[feed.token])) if feed else None
     return render(request, "fleet/feed_settings.html", {"feed": feed, "url": url})
 
 
 @login_not_required
 def feed_ics(request: HttpRequest, token: str) -> HttpResponse:
-    feed = CalendarFeed.objects.select_related("user").filter(token=token).first()
-    # A revoked token, or a user who has left or lost every role, gets nothing.
-    if feed is None or not feed.user.is_active or not roles.can_read(feed.user):
-        raise Http404("No such calendar.")
+    get_calendar_feed_for_token(token)
     at = timezone.now()
-    on = timezone.localdate(at)
-    calendar = Calendar()
-    calendar.add("prodid", "-//Holdfast//due maintenance//EN")
-    calendar.add("version", "2.0")
-    calendar.add("x-wr-calname", "Holdfast: maintenance due")
-    for item in due_items_stored(on=on, soon_days=settings.HOLDFAST["DUE_SOON_DAYS"]):
-        if item.due_on is None:
-            continue
-        event = Event()
-        key = f"{item.serial}|{item.kind}|{item.item}".encode()
-        event.add("uid", f"{hashlib.sha256(key).hexdigest()[:32]}@holdfast")
-        event.add("dtstamp", at)
-        event.add("dtstart", item.due_on)
-        event.add("summary", f"{item.serial}: {item.item} ({item.state.label.lower()})")
-        event.add("description", item.basis + ("\n" + "\n".join(item.flags) if item.flags else ""))
-        event.add("url", request.build_absolute_uri(f"/units/{item.serial}/"))
-        calendar.add_component(event)
-    response = HttpResponse(calendar.to_ical(), content_type="text/calendar; charset=utf-8")
+    items = due_items_stored(
+        on=timezone.localdate(at), soon_days=settings.HOLDFAST["DUE_SOON_DAYS"]
+    )
+    doc = prepare_calendar(
+        items,
+        at=at,
+        url_for=lambda serial: request.build_absolute_uri(reverse("unit-detail", args=[serial])),
+    )
+    response = HttpResponse(render_calendar(doc), content_type="text/calendar; charset=utf-8")
     response["Content-Disposition"] = 'inline; filename="holdfast-due.ics"'
     return response

@@ -6,11 +6,19 @@ from functools import wraps
 from typing import Any
 
 from django.core.exceptions import PermissionDenied
-from django.http import HttpRequest, HttpResponse
+from django.http import Http404, HttpRequest, HttpResponse
 from django.shortcuts import get_object_or_404
 
 from fleet import roles
-from fleet.models import Deployment, ServiceRecord, Site, Transponder
+from fleet.models import (
+    CalendarFeed,
+    Deployment,
+    ReleaseCertificate,
+    ReleaseTest,
+    ServiceRecord,
+    Site,
+    Transponder,
+)
 
 
 def require(check: Callable[[Any], bool]) -> Callable:
@@ -64,3 +72,30 @@ def get_deployment_for_user(request: HttpRequest, pk: int, *, write: bool = Fals
 def get_site_for_user(request: HttpRequest, pk: int, *, supervise: bool = False) -> Site:
     _check(request, write=False, supervise=supervise)
     return get_object_or_404(Site, pk=pk)
+
+
+def get_release_test_for_user(request: HttpRequest, pk: int) -> ReleaseTest:
+    """Issuing is for supervisors: 403 before 404, like every guard."""
+    _check(request, write=False, supervise=True)
+    return get_object_or_404(ReleaseTest.objects.select_related("record__unit"), pk=pk)
+
+
+def get_certificate_for_user(
+    request: HttpRequest, number: str, *, supervise: bool = False
+) -> ReleaseCertificate:
+    _check(request, write=False, supervise=supervise)
+    return get_object_or_404(
+        ReleaseCertificate.objects.select_related(
+            "release_test__record__unit__variant", "issued_by", "superseded_by"
+        ),
+        number=number,
+    )
+
+
+def get_calendar_feed_for_token(token: str) -> CalendarFeed:
+    """The feed is read without a login, by its secret token. A revoked token, or a user who
+    has left or lost every role, gets a 404 (not a 403: the address itself is the secret)."""
+    feed = CalendarFeed.objects.select_related("user").filter(token=token).first()
+    if feed is None or not feed.user.is_active or not roles.can_read(feed.user):
+        raise Http404("No such calendar.")
+    return feed

@@ -74,47 +74,9 @@ def anode_chart(request: HttpRequest, serial: str, position_id: int) -> HttpResp
     history = anode_history(ev, position_id)
     if history is None:
         raise Http404("No such anode position on this unit.")
-    chart = charts.Chart(
-        title=f"{ev.unit.serial}: anode {history.name}",
-        y_label="% of new mass",
-        y_min=0.0,
-        y_max=100.0,
-        today=on,
-        series=[
-            charts.Series("readings", history.readings, marker="circle", line=False),
-            charts.Series("fitted wear", history.fitted),
-            charts.Series("projection", history.projection, dash="6 4"),
-        ],
-    )
-    if history.readings or history.projection:
-        first = min(d for d, _ in (*history.readings, *history.projection))
-        last = max(d for d, _ in (*history.readings, *history.projection, (on, 0)))
-        chart.series.append(
-            charts.Series(
-                f"replace at {history.threshold_percent:.0f} %",
-                ((first, history.threshold_percent), (last, history.threshold_percent)),
-                dash="2 3",
-            )
-        )
-    return _svg(charts.render(chart))
+    return _svg(charts.anode_chart_svg(history, serial=ev.unit.serial, today=on))
 
 
 def battery_chart(request: HttpRequest, serial: str) -> HttpResponse:
     ev, on = _evaluation(request, serial)
-    history = battery_history(ev)
-    chart = charts.Chart(title=f"{ev.unit.serial}: battery charge", y_label="Ah left", today=on)
-    if history is not None:
-        chart.y_max = max(history.usable_ah * 1.05, 0.1)
-        chart.series = [
-            charts.Series("used so far", history.used, marker="square"),
-            charts.Series("projection at duty", history.projection, dash="6 4"),
-        ]
-        ends = [d for d, _ in (*history.used, *history.projection)]
-        chart.series.append(
-            charts.Series(
-                "reserve",
-                ((min(ends), history.reserve_ah), (max(ends), history.reserve_ah)),
-                dash="2 3",
-            )
-        )
-    return _svg(charts.render(chart))
+    return _svg(charts.battery_chart_svg(battery_history(ev), serial=ev.unit.serial, today=on))

@@ -9,7 +9,7 @@ from django.views.decorators.http import require_http_methods
 from fleet import roles
 from fleet.forms import AmendmentForm, CloseRecordForm, ServiceRecordForm, entry_formsets
 from fleet.models import ServiceRecord
-from fleet.models.records import entry_kinds
+from fleet.selectors import record_amendments, record_sections
 from fleet.services.records import (
     amendable_fields,
     amendable_targets,
@@ -113,13 +113,7 @@ def _target_label(target: Model) -> str:
 
 def record_detail(request: HttpRequest, pk: int) -> HttpResponse:
     record = get_record_for_user(request, pk)
-    sections = [
-        (
-            kind.plural_title(),
-            list(kind.with_list_related(getattr(record, kind.related_name()).all())),
-        )
-        for kind in entry_kinds()
-    ]
+    sections = record_sections(record=record)
     empty = not any(entries for _, entries in sections)
     return render(
         request,
@@ -128,7 +122,7 @@ def record_detail(request: HttpRequest, pk: int) -> HttpResponse:
             "record": record,
             "unit": record.unit,
             "sections": sections,
-            "amendments": record.amendments.select_related("created_by", "target_type"),
+            "amendments": record_amendments(record=record),
             "close_form": CloseRecordForm(),
             "can_discard": empty
             and not record.is_closed

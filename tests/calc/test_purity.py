@@ -1,4 +1,4 @@
-"""fleet/calc stays pure: no Django, no clock, no I/O, no settings (DESIGN.md floor 1)."""
+"""fleet/calc stays pure: no Django, no clock, no I/O, no settings (DEVELOPERS.md, floor 1)."""
 
 from __future__ import annotations
 

@@ -8,8 +8,8 @@ from django.core.exceptions import ValidationError
 from django.urls import reverse
 
 from fleet.documents.certificate import AcceptanceLine, prepare_certificate, render_certificate
-from fleet.documents.services import certificate_issue, certificate_withdraw
 from fleet.models import ReleaseCertificate
+from fleet.services.certificates import certificate_issue, certificate_withdraw
 from tests.documents.conftest import AT, CLOSED_AT, HOSTILE, bench_visit, release_test
 from tests.documents.helpers import pdf_pages, pdf_text, render_png
 

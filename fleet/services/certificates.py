@@ -1,5 +1,9 @@
 """Writes for release-test certificates. Each is one transaction, called by views and tests.
 
+Locking: issuing locks the release test's row first, so two supervisors issuing for the same
+test run one after the other (the second supersedes the first, never two current
+certificates); withdrawing locks the certificate's row.
+
 Numbering: the year's counter row is locked with ``select_for_update`` (a row lock on
 PostgreSQL; on SQLite the IMMEDIATE transaction already holds the database write lock), so
 two supervisors issuing at once get consecutive numbers, never the same one. The unique
@@ -34,7 +38,13 @@ def certificate_issue(
     A failing test gets no certificate: the refusal names the failures. A new certificate for
     a test that already has one supersedes the old one.
     """
-    test = ReleaseTest.objects.select_related("record__unit__variant").get(pk=release_test.pk)
+    # Lock only the test's own row (``of``): the joined record, unit and variant are read, not
+    # changed.
+    test = (
+        ReleaseTest.objects.select_for_update(of=("self",))
+        .select_related("record__unit__variant")
+        .get(pk=release_test.pk)
+    )
     record = test.record
     if not record.is_closed:
         raise ValidationError(

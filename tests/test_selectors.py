@@ -1,0 +1,282 @@
+"""The read-only selectors in fleet/selectors.py: what each returns on a hand-built history,
+and how many queries it makes (the count does not grow with the records)."""
+
+import datetime as dt
+
+import pytest
+from django.utils import timezone
+
+from fleet.due.condition import Condition
+from fleet.due.rules import rules_for
+from fleet.models import AnodeReading, BatteryInstall, SealChange, ServiceRecord, Transponder
+from fleet.selectors import (
+    fleet_counts,
+    last_anode_readings,
+    last_seal_changes,
+    open_records,
+    record_amendments,
+    record_sections,
+    unit_deployments,
+    unit_history,
+    unit_page,
+    unit_records,
+    units_in_water,
+)
+from fleet.services.deployments import deployment_recover
+from fleet.services.records import amendment_create
+from tests.builders import make_unit
+from tests.due.test_engine import deploy, t, visit
+
+pytestmark = pytest.mark.django_db
+
+
+def seal_change(position):
+    return SealChange(
+        position=position,
+        material="NBR",
+        cure_date=dt.date(2025, 10, 1),
+        lot="L-1",
+        reason="interval",
+    )
+
+
+def pack():
+    return BatteryInstall(
+        pack_serial="PK-1",
+        chemistry="alkaline",
+        nominal_voltage_v=31.5,
+        capacity_ah=17.0,
+        made_on=dt.date(2025, 12, 1),
+        installed_on=dt.date(2026, 1, 5),
+        ocv_install_v=33.1,
+    )
+
+
+def loaded(unit):
+    """The unit as the page's guard loads it: with its variant and place."""
+    return Transponder.objects.select_related("variant", "place").get(pk=unit.pk)
+
+
+@pytest.fixture
+def story(unit, site, technician):
+    """Visit, deployment (recovered), visit, deployment (still in the water)."""
+    anode1, anode2 = unit.variant.anode_positions.order_by("name")
+    seal1, seal2 = unit.variant.seal_positions.order_by("name")
+    first = visit(
+        unit,
+        technician,
+        t(2026, 1, 5, 9),
+        AnodeReading(position=anode1, mass_g=390.0),
+        AnodeReading(position=anode2, mass_g=395.0),
+        seal_change(seal1),
+        pack(),
+    )
+    out = deploy(unit, site, technician, t(2026, 2, 1), t(2026, 5, 1))
+    second = visit(unit, technician, t(2026, 5, 5, 9), AnodeReading(position=anode1, mass_g=380.0))
+    still_out = deploy(unit, site, technician, t(2026, 6, 1))
+    unit.refresh_from_db()
+    return {
+        "anodes": (anode1, anode2),
+        "seals": (seal1, seal2),
+        "records": (first, second),
+        "deployments": (out, still_out),
+    }
+
+
+def test_it_gives_the_last_reading_at_each_anode_position(unit, story, django_assert_num_queries):
+    anode1, anode2 = story["anodes"]
+    # Expect 1 query: the unit's anode readings with record and position, newest first.
+    with django_assert_num_queries(1):
+        latest = last_anode_readings(unit=unit)
+    assert {pk: r.mass_g for pk, r in latest.items()} == {anode1.pk: 380.0, anode2.pk: 395.0}
+
+
+def test_it_gives_the_last_seal_change_at_each_position(unit, story, django_assert_num_queries):
+    seal1, _ = story["seals"]
+    # Expect 1 query: the unit's seal changes with record and position, newest first.
+    with django_assert_num_queries(1):
+        latest = last_seal_changes(unit=unit)
+    assert list(latest) == [seal1.pk]
+    assert latest[seal1.pk].record == story["records"][0]
+
+
+def test_it_loads_records_with_every_entry_in_a_fixed_number_of_queries(
+    unit, story, django_assert_num_queries
+):
+    # Expect 9 queries: the records with technician, place and closer; then one prefetch each
+    # for anode readings (with position), seal changes (with position), battery installs,
+    # pressure tests, release tests, sensor checks, housing openings and amendments.
+    with django_assert_num_queries(9):
+        records = unit_records(unit=unit)
+    assert sorted(r.pk for r in records) == sorted(r.pk for r in story["records"])
+    # Expect 0 queries: everything the history list shows is already loaded.
+    with django_assert_num_queries(0):
+        shown = [
+            (r.technician, r.place, [a.position.name for a in r.anode_readings.all()])
+            for r in records
+        ]
+        for r in records:
+            for relation in (
+                r.seal_changes,
+                r.battery_installs,
+                r.pressure_tests,
+                r.release_tests,
+                r.sensor_checks,
+                r.housing_openings,
+                r.amendments,
+            ):
+                list(relation.all())
+    assert sorted(len(names) for _, _, names in shown) == [1, 2]
+
+
+def test_it_loads_deployments_with_their_sites_in_one_query(
+    unit, story, site, django_assert_num_queries
+):
+    # Expect 1 query: the unit's deployments joined to their sites.
+    with django_assert_num_queries(1):
+        deployments = unit_deployments(unit=unit)
+        assert {d.site.name for d in deployments} == {site.name}
+    assert len(deployments) == 2
+
+
+def test_the_history_runs_newest_first_across_records_and_deployments(unit, story):
+    first, second = story["records"]
+    out, still_out = story["deployments"]
+    history = unit_history(
+        list(story["records"]), list(story["deployments"]), rules_for(unit.variant)
+    )
+    assert [(kind, item.pk) for kind, _, item, _lines in history] == [
+        ("deployment", still_out.pk),
+        ("record", second.pk),
+        ("deployment", out.pk),
+        ("record", first.pk),
+    ]
+    assert [when for _, when, _, _lines in history] == [
+        t(2026, 6, 1),
+        t(2026, 5, 5, 9),
+        t(2026, 2, 1),
+        t(2026, 1, 5, 9),
+    ]
+
+
+def test_the_unit_page_reads_in_a_fixed_number_of_queries(
+    unit, story, technician, django_assert_num_queries
+):
+    anode1, anode2 = story["anodes"]
+    seal1, seal2 = story["seals"]
+    # Expect 15 queries: anode positions, seal positions, last anode readings, last seal
+    # changes, fitted pack, records (1 + 8 prefetches, see above), deployments.
+    unit = loaded(unit)
+    with django_assert_num_queries(15):
+        page = unit_page(unit=unit, rules=rules_for(unit.variant))
+    assert [(p.pk, r.mass_g if r else None) for p, r in page.anodes] == [
+        (anode1.pk, 380.0),
+        (anode2.pk, 395.0),
+    ]
+    assert [(p.pk, c is not None) for p, c in page.seals] == [(seal1.pk, True), (seal2.pk, False)]
+    assert page.fitted_pack is not None and page.fitted_pack.pack_serial == "PK-1"
+    assert page.open_deployment == story["deployments"][1]
+    assert len(page.history) == 4
+    # More records do not add queries (after recovery: no visit while in the water).
+    deployment_recover(
+        deployment=story["deployments"][1],
+        recovered_at=t(2026, 6, 20),
+        replies_counted=None,
+        place=None,
+        by=technician,
+    )
+    visit(unit, technician, t(2026, 6, 25, 9), AnodeReading(position=anode2, mass_g=385.0))
+    unit = loaded(unit)
+    with django_assert_num_queries(15):
+        assert len(unit_page(unit=unit, rules=rules_for(unit.variant)).history) == 5
+
+
+def test_a_unit_with_no_records_reads_in_seven_queries(unit, django_assert_num_queries):
+    # Expect 7 queries: as above, with no prefetches because there are no records.
+    unit = loaded(unit)
+    with django_assert_num_queries(7):
+        page = unit_page(unit=unit, rules=rules_for(unit.variant))
+    assert page.fitted_pack is None
+    assert page.open_deployment is None
+    assert page.history == []
+    assert all(reading is None for _, reading in page.anodes)
+
+
+def test_the_record_sections_come_in_page_order(unit, story, supervisor, django_assert_num_queries):
+    first = story["records"][0]
+    # Expect 7 queries: one per entry kind.
+    with django_assert_num_queries(7):
+        sections = record_sections(record=first)
+    assert [(title, len(entries)) for title, entries in sections] == [
+        ("Anode readings", 2),
+        ("Seal changes", 1),
+        ("Battery installs", 1),
+        ("Pressure tests", 0),
+        ("Release tests", 0),
+        ("Sensor checks", 0),
+        ("Housing openings", 0),
+    ]
+
+
+def test_the_record_amendments_come_with_their_authors(
+    unit, story, supervisor, django_assert_num_queries
+):
+    first = ServiceRecord.objects.get(pk=story["records"][0].pk)  # closed by the visit helper
+    reading = first.anode_readings.order_by("pk").first()
+    amendment_create(
+        record=first,
+        target=reading,
+        field_name="mass_g",
+        corrected_value="391",
+        reason="Scale misread.",
+        by=supervisor,
+    )
+    # Expect 1 query: amendments joined to their author and target type.
+    with django_assert_num_queries(1):
+        amendments = record_amendments(record=first)
+        assert [(a.created_by, a.target_type.model) for a in amendments] == [
+            (supervisor, "anodereading")
+        ]
+
+
+def test_the_fleet_counts_cover_every_condition_and_place(
+    unit, variant, site, technician, django_assert_num_queries
+):
+    make_unit(serial="TX-0002", acoustic_address="102", variant=variant, place=None)
+    deploy(unit, site, technician, t(2026, 2, 1))
+    # Expect 2 queries: units grouped by their condition (one SQL expression), by place.
+    with django_assert_num_queries(2):
+        counts = fleet_counts(on=timezone.localdate())
+    assert counts.total == 2
+    assert counts.by_condition[Condition.IN_WATER] == 1
+    assert sum(counts.by_condition.values()) == 2
+    assert list(counts.by_condition) == list(Condition)
+    assert sorted((row["place__name"] or "", row["n"]) for row in counts.by_place) == [
+        ("", 1),
+        (unit.place.name, 1),
+    ]
+
+
+def test_open_records_and_units_in_water_are_oldest_first(
+    unit, variant, story, technician, django_assert_num_queries
+):
+    # One open visit per unit: two other units on the bench, the older visit first.
+    units = [
+        make_unit(serial=f"TX-010{i}", acoustic_address=f"11{i}", variant=variant, place=unit.place)
+        for i in (1, 2)
+    ]
+    second = visit(units[1], technician, t(2026, 7, 2, 9), close=False)
+    first = visit(units[0], technician, t(2026, 7, 1, 9), close=False)
+    # Expect 1 query each: the rows joined to what the overview shows.
+    with django_assert_num_queries(1):
+        records = open_records(limit=20)
+        assert [(r.pk, r.unit.serial, r.technician) for r in records] == [
+            (first.pk, units[0].serial, technician),
+            (second.pk, units[1].serial, technician),
+        ]
+    assert [r.pk for r in open_records(limit=1)] == [first.pk]
+    with django_assert_num_queries(1):
+        in_water = units_in_water(limit=50)
+        assert [(d.pk, d.unit.serial, d.site.name) for d in in_water] == [
+            (story["deployments"][1].pk, unit.serial, story["deployments"][1].site.name)
+        ]

@@ -199,3 +199,26 @@ def test_no_date_is_in_the_future(seeded: Seeded) -> None:
                 assert value <= now, (row, field.name)
             elif isinstance(value, dt.date):
                 assert value <= today, (row, field.name)
+
+
+def test_the_mid_water_units_can_be_planned_for_their_own_shallow_site(seeded: Seeded) -> None:
+    """They have always worked at the 62 m site: recovery buoyancy (judged at the least dense
+    water on the way up) and reply timing pass there, and the ones left ready go."""
+    from fleet.due.planned import PlannedDeployment
+    from fleet.due.readiness import Verdict, plan_campaign, readiness_for
+    from fleet.models import Site
+
+    today = timezone.localdate()
+    shoal = Site.objects.get(name="Grey Shoal Array")
+    planned = PlannedDeployment(shoal, today, 30)
+    mid_water = Transponder.objects.filter(variant__name="Mid-water 500 m", hold=UnitHold.NONE)
+    assert mid_water.count() >= 5
+    for unit in mid_water:
+        result = readiness_for(unit, planned, on=today)
+        checks = {c.name: c for c in result.checks}
+        assert checks["Recovery buoyancy"].verdict == Verdict.PASS, checks["Recovery buoyancy"]
+        assert checks["Reply timing"].verdict == Verdict.PASS, checks["Reply timing"]
+        assert checks["Depth rating"].verdict == Verdict.PASS
+    plan = plan_campaign(planned, wanted=4, on=today)
+    ready = {r.unit.serial for r in plan.ready}
+    assert {"HF1-0103", "HF1-0109"} <= ready

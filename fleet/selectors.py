@@ -8,7 +8,7 @@ from typing import Any
 from django.db.models import Count, Prefetch
 from django.utils import timezone
 
-from fleet.due.acceptance import release_test_failures
+from fleet.due.acceptance import EntryVerdict, entry_verdict, release_test_failures
 from fleet.due.condition import Condition, annotate_condition
 from fleet.due.rules import Rules
 from fleet.models import (
@@ -174,12 +174,19 @@ def unit_page(*, unit: Transponder, rules: Rules) -> UnitPage:
 # The record page
 
 
-def record_sections(*, record: ServiceRecord) -> list[tuple[str, list[Any]]]:
-    """The record's entries by kind, titled, in page order. One query per entry kind."""
+def record_sections(
+    *, record: ServiceRecord, rules: Rules
+) -> list[tuple[str, list[tuple[Any, EntryVerdict | None]]]]:
+    """The record's entries by kind, titled, in page order, each with its verdict when it is
+    a test (``fleet.due.acceptance.entry_verdict``). One query per entry kind."""
+    variant = record.unit.variant
     return [
         (
             kind.plural_title(),
-            list(kind.with_list_related(getattr(record, kind.related_name()).all())),
+            [
+                (entry, entry_verdict(entry, variant, rules))
+                for entry in kind.with_list_related(getattr(record, kind.related_name()).all())
+            ],
         )
         for kind in entry_kinds()
     ]

@@ -50,9 +50,11 @@ def rated_test_pressure_dbar(variant: Variant, rules: Rules, latitude_deg: float
 
 
 def pressure_test_acceptance(
-    test: PressureTest, variant: Variant, rules: Rules, latitude_deg: float
+    test: PressureTest, variant: Variant, rules: Rules
 ) -> PressureAcceptance:
-    required = rated_test_pressure_dbar(variant, rules, latitude_deg)
+    """The test judged at the proof pressure for the variant's rating, worked out at the
+    workshop's reference latitude: a property of the housing, not of where it last went."""
+    required = rated_test_pressure_dbar(variant, rules, rules.default_latitude_deg)
     accepted_from = required * (1.0 - rules.gauge_tolerance_percent / 100.0)
     hold = calc_pressure.evaluate_hold(
         test.start_pressure_dbar,
@@ -125,3 +127,38 @@ def sensor_check_failures(check: SensorCheck, variant: Variant, rules: Rules) ->
                 f"IEC 60751 class {rules.pt100_class} ±{element_tol:.2f} °C"
             )
     return reasons
+
+
+@dataclass(frozen=True, slots=True)
+class EntryVerdict:
+    """A test's verdict as the record page shows it beside the entry."""
+
+    passed: bool
+    reasons: tuple[str, ...]
+
+    @property
+    def label(self) -> str:
+        return "Pass" if self.passed else "Fail"
+
+    @property
+    def icon(self) -> str:
+        return "✔" if self.passed else "✖"
+
+    @property
+    def value(self) -> str:
+        return "pass" if self.passed else "fail"
+
+
+def entry_verdict(entry: object, variant: Variant, rules: Rules) -> EntryVerdict | None:
+    """The verdict of a pressure test, release test or sensor check (the same rules the due
+    items and readiness apply); None for an entry that is not a test."""
+    if isinstance(entry, PressureTest):
+        acceptance = pressure_test_acceptance(entry, variant, rules)
+        return EntryVerdict(acceptance.passed, acceptance.reasons)
+    if isinstance(entry, ReleaseTest):
+        failures = release_test_failures(entry, rules)
+        return EntryVerdict(not failures, tuple(failures))
+    if isinstance(entry, SensorCheck):
+        failures = sensor_check_failures(entry, variant, rules)
+        return EntryVerdict(not failures, tuple(failures))
+    return None

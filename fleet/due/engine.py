@@ -356,7 +356,7 @@ def pressure_outcome(
     if state.test_voided_by_opening and state.last_opening_at is not None:
         opened = local_day(state.last_opening_at)
         return Outcome(opened, f"{tested}; void: the housing was opened on {opened}", (), True)
-    acceptance = pressure_test_acceptance(test, unit.variant, rules, duty.latitude_deg)
+    acceptance = pressure_test_acceptance(test, unit.variant, rules)
     if not acceptance.passed:
         reasons = "; ".join(acceptance.reasons)
         return Outcome(test.tested_on, f"{tested}; not accepted: {reasons}", (), True)

@@ -7,6 +7,7 @@ from django.utils import timezone
 from django.views.decorators.http import require_http_methods
 
 from fleet import roles
+from fleet.due.rules import rules_for
 from fleet.forms import AmendmentForm, CloseRecordForm, ServiceRecordForm, entry_formsets
 from fleet.models import ServiceRecord
 from fleet.selectors import record_amendments, record_sections
@@ -113,7 +114,7 @@ def _target_label(target: Model) -> str:
 
 def record_detail(request: HttpRequest, pk: int) -> HttpResponse:
     record = get_record_for_user(request, pk)
-    sections = record_sections(record=record)
+    sections = record_sections(record=record, rules=rules_for(record.unit.variant))
     empty = not any(entries for _, entries in sections)
     return render(
         request,

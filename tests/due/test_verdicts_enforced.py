@@ -188,3 +188,20 @@ def test_reply_timing_fails_when_the_interrogation_cycle_is_shorter_than_the_ech
         verdicts(readiness_for(unit, PlannedDeployment(site, ON, 30), on=ON))["Reply timing"]
         == Verdict.PASS
     )
+
+
+def test_the_record_page_shows_each_tests_verdict_beside_it(unit, technician, as_viewer):
+    passing_release = ReleaseTest(
+        tested_on=dt.date(2026, 11, 25),
+        kind="bench",
+        seconds_to_release=5,
+        motor_current_a=1.1,
+        limit_switch_ok=True,
+        acoustic_command_ok=True,
+    )
+    record = visit(
+        unit, technician, t(2026, 11, 25), _failed_hold(dt.date(2026, 11, 25)), passing_release
+    )
+    body = as_viewer.get(record.get_absolute_url()).content.decode()
+    assert "verdict-fail" in body and "verdict-pass" in body
+    assert "pressure fell 40.0 dbar (2.11 %), more than the allowed 1 %" in body

@@ -145,6 +145,7 @@ class UnitPage:
     seals: list[tuple[SealPosition, SealChange | None]]
     fitted_pack: BatteryInstall | None
     open_deployment: Deployment | None
+    open_record: ServiceRecord | None
     history: list[HistoryEntry]
 
 
@@ -167,6 +168,7 @@ def unit_page(*, unit: Transponder, rules: Rules) -> UnitPage:
         seals=[(p, last_seal.get(p.pk)) for p in seal_positions],
         fitted_pack=pack,
         open_deployment=next((d for d in deployments if d.recovered_at is None), None),
+        open_record=next((r for r in records if r.closed_at is None), None),
         history=unit_history(records, deployments, rules),
     )
 

@@ -15,7 +15,9 @@ due items (``engine.evaluate_unit``), the same derivation the stored rows hold:
 5. Anodes: each stays above its replace-at mass at recovery, with the planned days added to
    its immersed time; a bond fault fails.
 6. Seals: each stays within its interval (and shelf life) to recovery; openings left.
-7. Release test and sensor checks: valid through recovery; a failed test fails.
+7. Release test and sensor checks: valid through recovery; a failed test fails. A sensor
+   check that has lapsed (no fault found) is a check to make, not a fail: it spoils data,
+   not the unit's return.
 8. Recovery buoyancy: the net buoyancy at the least favourable seawater density on the way
    up (the lower of the seabed's and the surface's, TEOS-10) must be at least the larger of
    an absolute minimum and a reserve share of the unit's mass in air.
@@ -147,9 +149,11 @@ def _dated_item_check(
     *,
     missing: Verdict,
     lapses: Verdict,
+    expired: Verdict = Verdict.FAIL,
 ) -> CheckResult:
-    """A test or interval item against the planned period: a fault or an expiry by the
-    start fails; lapsing before recovery gives ``lapses``; no record gives ``missing``."""
+    """A test or interval item against the planned period: a fault fails; due by the start
+    gives ``expired`` (a fail unless the item does not bear on the unit's safe return);
+    lapsing before recovery gives ``lapses``; no record gives ``missing``."""
     if item is None or item.due_on is None:
         basis = item.basis if item is not None else "nothing recorded"
         return CheckResult(name, missing, basis, source)
@@ -157,7 +161,7 @@ def _dated_item_check(
         return CheckResult(name, Verdict.FAIL, item.basis, source)
     if item.due_on <= planned.start:
         return CheckResult(
-            name, Verdict.FAIL, f"due {item.due_on}, by the start {planned.start}", source
+            name, expired, f"due {item.due_on}, by the start {planned.start}", source
         )
     if item.due_on < planned.end:
         return CheckResult(
@@ -358,6 +362,8 @@ def check_sensors(c: Context) -> list[CheckResult]:
                 source,
                 missing=Verdict.WARN,
                 lapses=Verdict.WARN,
+                # A lapsed calibration spoils the data, not the unit's return: a check.
+                expired=Verdict.WARN,
             )
         )
     return results

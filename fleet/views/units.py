@@ -76,6 +76,7 @@ def unit_detail(request: HttpRequest, serial: str) -> HttpResponse:
             "seals": page.seals,
             "fitted_pack": page.fitted_pack,
             "open_deployment": page.open_deployment,
+            "open_record": page.open_record,
             "history": page.history,
             "photos": unit.photos.select_related("uploaded_by"),
             "photo_form": UnitPhotoForm(),

@@ -15,6 +15,7 @@ restates a limit.
 
 from __future__ import annotations
 
+import datetime as dt
 from dataclasses import dataclass
 
 from fleet.calc import pressure as calc_pressure
@@ -86,6 +87,11 @@ def release_test_failures(test: ReleaseTest, rules: Rules) -> list[str]:
             f"motor drew {test.motor_current_a:g} A, limit {rules.release_max_motor_current_a:g} A"
         )
     return reasons
+
+
+def release_valid_to(tested_on: dt.date, rules: Rules) -> dt.date:
+    """The last day a passed release test covers: the configured days from the test."""
+    return tested_on + dt.timedelta(days=rules.release_test_valid_days)
 
 
 @dataclass(frozen=True, slots=True)

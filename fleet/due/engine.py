@@ -43,7 +43,12 @@ from fleet.models import (
     UnitState,
 )
 
-from .acceptance import pressure_test_acceptance, release_test_failures, sensor_check_failures
+from .acceptance import (
+    pressure_test_acceptance,
+    release_test_failures,
+    release_valid_to,
+    sensor_check_failures,
+)
 from .days import add_days, add_months, days_between, local_day, start_of
 from .duty import Duty, charge_per_reply_as, duty_of
 from .items import DueItem, DueState, ItemKind, classify
@@ -368,10 +373,6 @@ def pressure_outcome(
         f"to {due}"
     )
     return Outcome(due, basis)
-
-
-def release_valid_to(tested_on: dt.date, rules: Rules) -> dt.date:
-    return tested_on + dt.timedelta(days=rules.release_test_valid_days)
 
 
 def release_outcome(state: UnitState | None, rules: Rules) -> Outcome:

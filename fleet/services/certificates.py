@@ -17,7 +17,7 @@ from django.core.exceptions import ValidationError
 from django.db import transaction
 from django.utils import timezone
 
-from fleet.due.acceptance import release_test_failures
+from fleet.due.acceptance import release_test_failures, release_valid_to
 from fleet.due.rules import rules_for
 from fleet.models import CertificateCounter, ReleaseCertificate, ReleaseTest
 
@@ -90,7 +90,7 @@ def certificate_issue(
         max_seconds=rules.release_max_seconds,
         max_motor_current_a=rules.release_max_motor_current_a,
         passed=True,
-        valid_until=test.tested_on + dt.timedelta(days=rules.release_test_valid_days),
+        valid_until=release_valid_to(test.tested_on, rules),
     )
     certificate.full_clean()
     certificate.save()

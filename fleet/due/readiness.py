@@ -44,7 +44,7 @@ from fleet.calc import ranging as calc_ranging
 from fleet.calc import seawater as calc_seawater
 from fleet.models import Deployment, Transponder
 
-from .condition import Condition, condition_of
+from .condition import Condition, annotate_condition, condition_of
 from .engine import (
     SENSOR_FLAGS,
     UnitEvaluation,
@@ -568,7 +568,9 @@ def plan_campaign(planned: PlannedDeployment, *, wanted: int, on: dt.date) -> Pl
     """Every active unit checked for the job; those that pass, most margin first."""
     clashes = address_clashes_at(planned.site.pk)
     results = []
-    for ev in evaluate_fleet(on=on):
+    # The condition comes with the units (one SQL expression), not one query per unit.
+    units = annotate_condition(Transponder.objects.all(), on)
+    for ev in evaluate_fleet(on=on, queryset=units):
         others = [s for s in clashes.get(ev.unit.acoustic_address, []) if s != ev.unit.serial]
         results.append(check_unit(ev, planned, address_clashes=others))
     candidates = sorted(

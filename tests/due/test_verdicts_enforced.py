@@ -205,3 +205,32 @@ def test_the_record_page_shows_each_tests_verdict_beside_it(unit, technician, as
     body = as_viewer.get(record.get_absolute_url()).content.decode()
     assert "verdict-fail" in body and "verdict-pass" in body
     assert "pressure fell 40.0 dbar (2.11 %), more than the allowed 1 %" in body
+
+
+def test_the_planner_reads_a_fleet_in_the_same_number_of_queries_for_more_units(
+    variant, workshop, site, technician, django_assert_num_queries
+):
+    from tests.builders import make_unit
+
+    def plan():
+        return plan_campaign(PlannedDeployment(site, ON, 30), wanted=2, on=ON)
+
+    for i in range(3):
+        serviced(
+            make_unit(serial=f"PQ-{i:04d}", acoustic_address=f"5{i:02d}", place=workshop),
+            technician,
+        )
+    # Expect 7 queries: the site's units in the water (their addresses); the units with
+    # variant, place, state and condition in one; anode states; seal states; the variants'
+    # anode positions, seal positions and reply charge steps.
+    with django_assert_num_queries(7):
+        small = plan()
+    for i in range(3, 12):
+        serviced(
+            make_unit(serial=f"PQ-{i:04d}", acoustic_address=f"5{i:02d}", place=workshop),
+            technician,
+        )
+    with django_assert_num_queries(7):
+        large = plan()
+    assert len(small.ready) + len(small.rejected) == 3
+    assert len(large.ready) + len(large.rejected) == 12

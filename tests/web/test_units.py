@@ -141,3 +141,19 @@ def test_the_history_flags_a_release_test_the_due_rules_fail(as_viewer, unit, te
     ReleaseTest.objects.update(seconds_to_release=limit + 1)
     body = as_viewer.get(reverse("unit-detail", args=[unit.serial])).content.decode()
     assert f"{limit + 1:g} s, <strong>fault noted</strong></li>" in body.split("<h2>History")[1]
+
+
+def test_a_deployed_unit_reads_in_the_water_at_its_site_not_at_its_last_place(
+    as_viewer, unit, site, technician
+):
+    from tests.due.test_engine import deploy, t
+
+    deploy(unit, site, technician, t(2026, 11, 1))
+    page = as_viewer.get(reverse("unit-detail", args=[unit.serial])).content.decode()
+    head = page.split('<div class="pagehead">')[1].split("</div>")[0]
+    assert "In the water" in head
+    assert f"at {site.name} since 2026-11-01" in head
+    assert f"at {unit.place}" not in head
+    # No action the gates would refuse: no new bench visit, no second deployment.
+    assert reverse("record-new", args=[unit.serial]) not in head
+    assert "?unit=" not in head

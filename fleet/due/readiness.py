@@ -42,7 +42,7 @@ from enum import StrEnum
 from fleet.calc import buoyancy as calc_buoyancy
 from fleet.calc import ranging as calc_ranging
 from fleet.calc import seawater as calc_seawater
-from fleet.models import Deployment, Transponder
+from fleet.models import Deployment, Site, Transponder
 
 from .condition import Condition, annotate_condition, condition_of
 from .engine import (
@@ -85,17 +85,14 @@ class CheckResult:
     source: str
 
 
-@dataclass(slots=True)
-class Readiness:
-    unit: Transponder
+class _OfAPlan:
+    """The planned site, start and days, read through from ``planned``."""
+
+    __slots__ = ()
     planned: PlannedDeployment
-    interrogations_per_day: int
-    power_step: int
-    checks: list[CheckResult] = field(default_factory=list)
-    margins: dict[str, float] = field(default_factory=dict)
 
     @property
-    def site(self):  # noqa: ANN201 - the planned site
+    def site(self) -> Site:
         return self.planned.site
 
     @property
@@ -105,6 +102,16 @@ class Readiness:
     @property
     def days(self) -> int:
         return self.planned.days
+
+
+@dataclass(slots=True)
+class Readiness(_OfAPlan):
+    unit: Transponder
+    planned: PlannedDeployment
+    interrogations_per_day: int
+    power_step: int
+    checks: list[CheckResult] = field(default_factory=list)
+    margins: dict[str, float] = field(default_factory=dict)
 
     @property
     def end(self) -> dt.date:
@@ -530,23 +537,11 @@ def readiness_for(unit: Transponder, planned: PlannedDeployment, *, on: dt.date)
 
 
 @dataclass(frozen=True, slots=True)
-class Plan:
+class Plan(_OfAPlan):
     planned: PlannedDeployment
     wanted: int
     ready: list[Readiness]
     rejected: list[Readiness]
-
-    @property
-    def site(self):  # noqa: ANN201 - the planned site
-        return self.planned.site
-
-    @property
-    def start(self) -> dt.date:
-        return self.planned.start
-
-    @property
-    def days(self) -> int:
-        return self.planned.days
 
     @property
     def shortfall(self) -> int:

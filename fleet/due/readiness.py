@@ -40,7 +40,7 @@ from enum import StrEnum
 from fleet.calc import buoyancy as calc_buoyancy
 from fleet.calc import ranging as calc_ranging
 from fleet.calc import seawater as calc_seawater
-from fleet.models import Deployment, Transponder
+from fleet.models import Deployment, Site, Transponder
 
 from .condition import Condition, condition_of
 from .engine import (
@@ -93,7 +93,7 @@ class Readiness:
     margins: dict[str, float] = field(default_factory=dict)
 
     @property
-    def site(self):  # noqa: ANN201 - the planned site
+    def site(self) -> Site:
         return self.planned.site
 
     @property
@@ -531,7 +531,7 @@ class Plan:
     rejected: list[Readiness]
 
     @property
-    def site(self):  # noqa: ANN201 - the planned site
+    def site(self) -> Site:
         return self.planned.site
 
     @property

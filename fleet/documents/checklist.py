@@ -9,7 +9,7 @@ from dataclasses import dataclass
 
 from django.utils import timezone
 from reportlab.lib.units import mm
-from reportlab.platypus import CondPageBreak, KeepTogether, Spacer, Table, TableStyle
+from reportlab.platypus import CondPageBreak, Flowable, KeepTogether, Spacer, Table, TableStyle
 
 from fleet.due.planned import PlannedDeployment
 from fleet.due.readiness import Verdict, readiness_for
@@ -185,7 +185,7 @@ def verdict_cell(label: str, icon: str) -> str:
     return f"{icon} {label}"
 
 
-def override_section(note: OverrideNote | None, width: float) -> list:
+def override_section(note: OverrideNote | None, width: float) -> list[Flowable]:
     """A boxed notice when the unit's open deployment went ahead against failed checks."""
     if note is None:
         return []

@@ -2,19 +2,18 @@
 
 import datetime as dt
 from collections.abc import Iterable, Sequence
-from typing import Any, cast
 
 from django.contrib.auth.models import User
 from django.contrib.contenttypes.models import ContentType
 from django.core.exceptions import ValidationError
 from django.db import transaction
-from django.db.models import Field, Model
+from django.db.models import Model
 from django.utils import timezone
 
 from fleet import roles
 from fleet.due.store import refresh_unit
 from fleet.models import Amendment, BatteryInstall, Deployment, ServiceRecord, Transponder, UnitHold
-from fleet.models.records import Entry, entry_kinds
+from fleet.models.records import Entry, amendable_field, entry_kinds
 
 # The record's own field an amendment may correct; each entry kind lists its own
 # (``Entry.amendable_fields``).
@@ -28,12 +27,6 @@ def amendable_fields(target: Model) -> tuple[str, ...]:
     if isinstance(target, Entry):
         return target.amendable_fields
     return ()
-
-
-def amendable_field(target: Model, field_name: str) -> Field[Any, Any]:
-    """The model field behind one of ``amendable_fields(target)``: always a concrete field,
-    which ``get_field`` cannot promise in general (it also returns relations)."""
-    return cast("Field[Any, Any]", target._meta.get_field(field_name))
 
 
 def _lock(record: ServiceRecord) -> ServiceRecord:

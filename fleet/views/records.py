@@ -9,10 +9,9 @@ from django.views.decorators.http import require_http_methods
 from fleet import roles
 from fleet.forms import AmendmentForm, CloseRecordForm, ServiceRecordForm, entry_formsets
 from fleet.models import ServiceRecord
-from fleet.models.records import Entry
+from fleet.models.records import Entry, amendable_field
 from fleet.selectors import record_amendments, record_sections
 from fleet.services.records import (
-    amendable_field,
     amendable_fields,
     amendable_targets,
     amendment_create,

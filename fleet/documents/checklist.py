@@ -142,6 +142,7 @@ def prepare_checklist(
             over_side_at=in_water.over_side_at,
             reason=in_water.override_reason,
             by=str(in_water.override_by),
+            # deployment_start sets the time together with the reason; the field allows null.
             at=in_water.override_at,  # type: ignore[arg-type]
             failed_checks=tuple(in_water.override_check_lines),
         )

@@ -220,7 +220,8 @@ def _photo_path(field: Any) -> str:
 
 
 def prepare_report(record: ServiceRecord) -> ReportDocument:
-    if not record.is_closed:
+    closed_at = record.closed_at
+    if closed_at is None:  # the record is open
         raise RecordOpenError("This record is still open; close it before printing a report.")
     sections = []
     photos = []
@@ -264,7 +265,7 @@ def prepare_report(record: ServiceRecord) -> ReportDocument:
         place=record.place.name,
         technician=display_name(record.technician),
         opened_at=record.opened_at,
-        closed_at=record.closed_at,  # type: ignore[arg-type]
+        closed_at=closed_at,
         closed_by=display_name(record.closed_by),
         created_at=record.created_at,
         created_by=display_name(record.created_by),

@@ -154,7 +154,7 @@ def deployment_start(
 def deployment_recover(
     *,
     deployment: Deployment,
-    recovered_at: object,
+    recovered_at: dt.datetime,
     replies_counted: int | None,
     place: Place | None,
     by: User,
@@ -165,7 +165,7 @@ def deployment_recover(
     current = Deployment.objects.select_for_update().get(pk=deployment.pk)
     if current.recovered_at is not None:
         raise ValidationError("This deployment is already recovered.")
-    current.recovered_at = recovered_at  # type: ignore[assignment]
+    current.recovered_at = recovered_at
     current.replies_counted = replies_counted
     current.full_clean()
     current.save(update_fields=["recovered_at", "replies_counted"])

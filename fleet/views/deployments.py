@@ -1,5 +1,6 @@
 from django.contrib import messages
 from django.core.exceptions import ValidationError
+from django.forms import BaseForm
 from django.http import HttpRequest, HttpResponse
 from django.shortcuts import redirect, render
 from django.utils import timezone
@@ -17,12 +18,12 @@ from fleet.tables import DeploymentTable, SiteTable
 from .guards import AuthenticatedRequest, get_deployment_for_user, get_site_for_user, require
 
 
-def _apply_errors(form: object, exc: ValidationError) -> None:
+def _apply_errors(form: BaseForm, exc: ValidationError) -> None:
     if hasattr(exc, "error_dict"):
         for name, errs in exc.message_dict.items():
-            form.add_error(name if name in form.fields else None, errs)  # type: ignore[attr-defined]
+            form.add_error(name if name in form.fields else None, errs)
     else:
-        form.add_error(None, exc.messages)  # type: ignore[attr-defined]
+        form.add_error(None, exc.messages)
 
 
 @require(roles.can_read)

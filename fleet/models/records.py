@@ -88,10 +88,6 @@ class ServiceRecord(models.Model):
     def is_closed(self) -> bool:
         return self.closed_at is not None
 
-    @property
-    def service_date(self) -> dt.date:
-        return timezone.localdate(self.opened_at)
-
     def clean(self) -> None:
         super().clean()
         if self.opened_at and self.opened_at > timezone.now():
@@ -377,10 +373,6 @@ class BatteryInstall(Entry):
         if self.removed_on:
             line += f", removed {self.removed_on:%Y-%m-%d}"
         return line
-
-    @property
-    def is_fitted(self) -> bool:
-        return self.removed_on is None
 
     def clean(self) -> None:
         super().clean()

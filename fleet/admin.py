@@ -2,33 +2,36 @@
 Service records are written through the workshop pages (they carry the audit trail), so the
 admin shows them read-only."""
 
-from typing import Any
+from typing import Any, TypeVar
 
 from django.contrib import admin
+from django.db.models import Model
 from django.http import HttpRequest
 from django.utils import timezone
 
 from . import models
 from .services.reference import site_save, unit_save, variant_changed
 
+_M = TypeVar("_M", bound=Model)
 
-class AnodePositionInline(admin.TabularInline):
+
+class AnodePositionInline(admin.TabularInline[models.AnodePosition, models.Variant]):
     model = models.AnodePosition
     extra = 0
 
 
-class SealPositionInline(admin.TabularInline):
+class SealPositionInline(admin.TabularInline[models.SealPosition, models.Variant]):
     model = models.SealPosition
     extra = 0
 
 
-class ReplyChargeStepInline(admin.TabularInline):
+class ReplyChargeStepInline(admin.TabularInline[models.ReplyChargeStep, models.Variant]):
     model = models.ReplyChargeStep
     extra = 0
 
 
 @admin.register(models.Variant)
-class VariantAdmin(admin.ModelAdmin):
+class VariantAdmin(admin.ModelAdmin[models.Variant]):
     list_display = ("name", "depth_rating_m", "housing_alloy", "release_fitted")
     inlines = [AnodePositionInline, SealPositionInline, ReplyChargeStepInline]
 
@@ -39,7 +42,7 @@ class VariantAdmin(admin.ModelAdmin):
 
 
 @admin.register(models.Transponder)
-class TransponderAdmin(admin.ModelAdmin):
+class TransponderAdmin(admin.ModelAdmin[models.Transponder]):
     list_display = ("serial", "variant", "hold", "place", "acoustic_address")
     list_filter = ("hold", "variant", "place")
     search_fields = ("serial", "acoustic_address")
@@ -56,19 +59,19 @@ class TransponderAdmin(admin.ModelAdmin):
 
 
 @admin.register(models.Place)
-class PlaceAdmin(admin.ModelAdmin):
+class PlaceAdmin(admin.ModelAdmin[models.Place]):
     list_display = ("name", "kind")
 
 
 @admin.register(models.Site)
-class SiteAdmin(admin.ModelAdmin):
+class SiteAdmin(admin.ModelAdmin[models.Site]):
     list_display = ("name", "latitude_deg", "longitude_deg", "water_depth_m")
 
     def save_model(self, request: HttpRequest, obj: Any, form: Any, change: bool) -> None:
         site_save(site=obj)
 
 
-class ReadOnlyAdmin(admin.ModelAdmin):
+class ReadOnlyAdmin(admin.ModelAdmin[_M]):
     def has_add_permission(self, request: object, obj: object = None) -> bool:
         return False
 
@@ -80,22 +83,22 @@ class ReadOnlyAdmin(admin.ModelAdmin):
 
 
 @admin.register(models.ServiceRecord)
-class ServiceRecordAdmin(ReadOnlyAdmin):
+class ServiceRecordAdmin(ReadOnlyAdmin[models.ServiceRecord]):
     list_display = ("unit", "opened_at", "closed_at", "technician")
 
 
 @admin.register(models.Deployment)
-class DeploymentAdmin(ReadOnlyAdmin):
+class DeploymentAdmin(ReadOnlyAdmin[models.Deployment]):
     list_display = ("unit", "site", "over_side_at", "recovered_at")
 
 
 @admin.register(models.Amendment)
-class AmendmentAdmin(ReadOnlyAdmin):
+class AmendmentAdmin(ReadOnlyAdmin[models.Amendment]):
     list_display = ("record", "field_name", "original_value", "corrected_value", "created_by")
 
 
 @admin.register(models.ReleaseCertificate)
-class ReleaseCertificateAdmin(ReadOnlyAdmin):
+class ReleaseCertificateAdmin(ReadOnlyAdmin[models.ReleaseCertificate]):
     """Issued and withdrawn from the record page (the service keeps numbering and supersession)."""
 
     list_display = ("number", "release_test", "status", "issued_at", "issued_by", "valid_until")

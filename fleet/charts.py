@@ -7,6 +7,7 @@ The unit page's two charts are assembled here from the ``fleet.due.history`` dat
 from __future__ import annotations
 
 import datetime as dt
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING
 from xml.sax.saxutils import escape
@@ -42,6 +43,88 @@ def _ticks(lo: float, hi: float, n: int = 5) -> list[float]:
     return [lo + i * step for i in range(n + 1)]
 
 
+def _axes(
+    chart: Chart,
+    d0: dt.date,
+    d1: dt.date,
+    y_range: tuple[float, float],
+    x: Callable[[dt.date], float],
+    y: Callable[[float], float],
+) -> list[str]:
+    """The plot frame, the value and date ticks, the value label and the "today" line."""
+    y_min, y_max = y_range
+    span_days = (d1 - d0).days
+    plot_w, plot_h = WIDTH - LEFT - RIGHT, HEIGHT - TOP - BOTTOM
+    out = [
+        f'<rect x="{LEFT}" y="{TOP}" width="{plot_w}" height="{plot_h}" fill="none" stroke="#000"/>'
+    ]
+    for value in _ticks(y_min, y_max):
+        yy = y(value)
+        out.append(f'<line x1="{LEFT - 4}" y1="{yy:.1f}" x2="{LEFT}" y2="{yy:.1f}" stroke="#000"/>')
+        out.append(f'<text x="{LEFT - 6}" y="{yy + 4:.1f}" text-anchor="end">{value:.0f}</text>')
+    for i in range(5):
+        day = d0 + dt.timedelta(days=round(span_days * i / 4))
+        xx = x(day)
+        anchor = "start" if i == 0 else "end" if i == 4 else "middle"
+        out.append(
+            f'<text x="{xx:.1f}" y="{HEIGHT - BOTTOM + 14}" text-anchor="{anchor}">'
+            f"{day.isoformat()}</text>"
+        )
+    out.append(
+        f'<text x="14" y="{TOP + plot_h / 2}" transform="rotate(-90 14 {TOP + plot_h / 2})" '
+        f'text-anchor="middle">{escape(chart.y_label)}</text>'
+    )
+    if chart.today and d0 <= chart.today <= d1:
+        tx = x(chart.today)
+        out.append(
+            f'<line x1="{tx:.1f}" y1="{TOP}" x2="{tx:.1f}" y2="{TOP + plot_h}" stroke="#000" '
+            'stroke-width="0.5"/>'
+            f'<text x="{tx + 3:.1f}" y="{TOP + 10}">today</text>'
+        )
+    return out
+
+
+def _plot_series(
+    s: Series, x: Callable[[dt.date], float], y: Callable[[float], float]
+) -> list[str]:
+    """One series' line (unless it is markers only) and its markers."""
+    out = []
+    coords = [(x(d), y(v)) for d, v in s.points]
+    dash = f' stroke-dasharray="{s.dash}"' if s.dash else ""
+    if s.line and len(coords) > 1:
+        path = " ".join(f"{cx:.1f},{cy:.1f}" for cx, cy in coords)
+        out.append(
+            f'<polyline points="{path}" fill="none" stroke="#000" stroke-width="1.6"{dash}/>'
+        )
+    for cx, cy in coords:
+        if s.marker == "circle":
+            out.append(f'<circle cx="{cx:.1f}" cy="{cy:.1f}" r="3.5" fill="#fff" stroke="#000"/>')
+        elif s.marker == "square":
+            out.append(
+                f'<rect x="{cx - 3:.1f}" y="{cy - 3:.1f}" width="6" height="6" fill="#000"/>'
+            )
+    return out
+
+
+def _legend_item(s: Series, legend_x: int) -> list[str]:
+    """One series' sample line, marker and label in the legend row under the plot."""
+    ly = HEIGHT - 8
+    dash = f' stroke-dasharray="{s.dash}"' if s.dash else ""
+    visibility = dash if s.line else ' stroke-opacity="0"'
+    out = [
+        f'<line x1="{legend_x}" y1="{ly - 4}" x2="{legend_x + 22}" y2="{ly - 4}" '
+        f'stroke="#000" stroke-width="1.6"{visibility}/>'
+    ]
+    if s.marker == "circle":
+        out.append(
+            f'<circle cx="{legend_x + 11}" cy="{ly - 4}" r="3.5" fill="#fff" stroke="#000"/>'
+        )
+    elif s.marker == "square":
+        out.append(f'<rect x="{legend_x + 8}" y="{ly - 7}" width="6" height="6" fill="#000"/>')
+    out.append(f'<text x="{legend_x + 26}" y="{ly}">{escape(s.label)}</text>')
+    return out
+
+
 def render(chart: Chart) -> str:
     points = [p for s in chart.series for p in s.points]
     out = [
@@ -72,64 +155,11 @@ def render(chart: Chart) -> str:
         clamped = min(max(value, y_min), y_max)
         return TOP + plot_h * (1 - (clamped - y_min) / (y_max - y_min))
 
-    out.append(
-        f'<rect x="{LEFT}" y="{TOP}" width="{plot_w}" height="{plot_h}" fill="none" stroke="#000"/>'
-    )
-    for value in _ticks(y_min, y_max):
-        yy = y(value)
-        out.append(f'<line x1="{LEFT - 4}" y1="{yy:.1f}" x2="{LEFT}" y2="{yy:.1f}" stroke="#000"/>')
-        out.append(f'<text x="{LEFT - 6}" y="{yy + 4:.1f}" text-anchor="end">{value:.0f}</text>')
-    for i in range(5):
-        day = d0 + dt.timedelta(days=round(span_days * i / 4))
-        xx = x(day)
-        anchor = "start" if i == 0 else "end" if i == 4 else "middle"
-        out.append(
-            f'<text x="{xx:.1f}" y="{HEIGHT - BOTTOM + 14}" text-anchor="{anchor}">'
-            f"{day.isoformat()}</text>"
-        )
-    out.append(
-        f'<text x="14" y="{TOP + plot_h / 2}" transform="rotate(-90 14 {TOP + plot_h / 2})" '
-        f'text-anchor="middle">{escape(chart.y_label)}</text>'
-    )
-    if chart.today and d0 <= chart.today <= d1:
-        tx = x(chart.today)
-        out.append(
-            f'<line x1="{tx:.1f}" y1="{TOP}" x2="{tx:.1f}" y2="{TOP + plot_h}" stroke="#000" '
-            'stroke-width="0.5"/>'
-            f'<text x="{tx + 3:.1f}" y="{TOP + 10}">today</text>'
-        )
+    out += _axes(chart, d0, d1, (y_min, y_max), x, y)
     legend_x = LEFT
     for s in chart.series:
-        coords = [(x(d), y(v)) for d, v in s.points]
-        dash = f' stroke-dasharray="{s.dash}"' if s.dash else ""
-        if s.line and len(coords) > 1:
-            path = " ".join(f"{cx:.1f},{cy:.1f}" for cx, cy in coords)
-            out.append(
-                f'<polyline points="{path}" fill="none" stroke="#000" stroke-width="1.6"{dash}/>'
-            )
-        for cx, cy in coords:
-            if s.marker == "circle":
-                out.append(
-                    f'<circle cx="{cx:.1f}" cy="{cy:.1f}" r="3.5" fill="#fff" stroke="#000"/>'
-                )
-            elif s.marker == "square":
-                out.append(
-                    f'<rect x="{cx - 3:.1f}" y="{cy - 3:.1f}" width="6" height="6" fill="#000"/>'
-                )
-        # legend
-        ly = HEIGHT - 8
-        visibility = dash if s.line else ' stroke-opacity="0"'
-        out.append(
-            f'<line x1="{legend_x}" y1="{ly - 4}" x2="{legend_x + 22}" y2="{ly - 4}" '
-            f'stroke="#000" stroke-width="1.6"{visibility}/>'
-        )
-        if s.marker == "circle":
-            out.append(
-                f'<circle cx="{legend_x + 11}" cy="{ly - 4}" r="3.5" fill="#fff" stroke="#000"/>'
-            )
-        elif s.marker == "square":
-            out.append(f'<rect x="{legend_x + 8}" y="{ly - 7}" width="6" height="6" fill="#000"/>')
-        out.append(f'<text x="{legend_x + 26}" y="{ly}">{escape(s.label)}</text>')
+        out += _plot_series(s, x, y)
+        out += _legend_item(s, legend_x)
         legend_x += 30 + 7 * len(s.label)
     out.append("</svg>")
     return "".join(out)

@@ -1,9 +1,16 @@
+from typing import TYPE_CHECKING, cast
+
 import django_filters
 from django.db.models import Q, QuerySet
 from django.utils import timezone
 
 from .due.condition import Condition, annotate_condition
 from .models import Place, Transponder, Variant
+
+if TYPE_CHECKING:
+    from django_stubs_ext import WithAnnotations
+
+    from .due.condition import ConditionColumn
 
 
 class UnitFilter(django_filters.FilterSet):
@@ -20,7 +27,9 @@ class UnitFilter(django_filters.FilterSet):
         model = Transponder
         fields = ["q", "condition", "place", "variant"]
 
-    def search(self, queryset: QuerySet, name: str, value: str) -> QuerySet:
+    def search(
+        self, queryset: QuerySet[Transponder], name: str, value: str
+    ) -> QuerySet[Transponder]:
         value = value.strip()
         if not value:
             return queryset
@@ -31,8 +40,13 @@ class UnitFilter(django_filters.FilterSet):
             | Q(variant__name__icontains=value)
         )
 
-    def by_condition(self, queryset: QuerySet, name: str, value: str) -> QuerySet:
+    def by_condition(
+        self, queryset: QuerySet[Transponder], name: str, value: str
+    ) -> QuerySet[Transponder]:
         """In SQL, on the ``condition`` annotation (added for today if the view did not)."""
-        if "condition" not in queryset.query.annotations:
-            queryset = annotate_condition(queryset, timezone.localdate())
-        return queryset.filter(condition=value)
+        if "condition" in queryset.query.annotations:
+            # The view annotated it already, which the checker cannot see.
+            annotated = cast("QuerySet[WithAnnotations[Transponder, ConditionColumn]]", queryset)
+        else:
+            annotated = annotate_condition(queryset, timezone.localdate())
+        return annotated.filter(condition=value)

@@ -2,12 +2,17 @@
 context a model cannot see on its own (which unit a record is for, who may be technician)."""
 
 import datetime as dt
+from collections.abc import Mapping
+from typing import Any, cast
 
 from django import forms
 from django.contrib.auth import get_user_model
+from django.contrib.auth.models import User
+from django.core.files.uploadedfile import UploadedFile
 from django.db.models import Model, Q, QuerySet
-from django.forms import BaseInlineFormSet, inlineformset_factory
+from django.forms import BaseForm, BaseInlineFormSet, inlineformset_factory
 from django.utils import timezone
+from django.utils.datastructures import MultiValueDict
 
 from . import roles
 from .due import planned as planned_limits
@@ -27,7 +32,7 @@ from .models import (
     UnitPhoto,
     Variant,
 )
-from .models.records import entry_kinds
+from .models.records import Entry, entry_kinds
 from .photos import clean_photo
 from .selectors import previous_anode_mass
 from .services.deployments import deploy_refusal
@@ -54,7 +59,17 @@ class DateTimeInput(forms.DateTimeInput):
         super().__init__(attrs=attrs, format="%Y-%m-%dT%H:%M")
 
 
-def _technicians() -> QuerySet:
+def _model_choice(form: BaseForm, name: str) -> forms.ModelChoiceField[Any]:
+    """The form's field ``name``, known to be a model choice: ``fields`` maps to plain ``Field``."""
+    return cast("forms.ModelChoiceField[Any]", form.fields[name])
+
+
+def _choice(form: BaseForm, name: str) -> forms.ChoiceField:
+    """The form's field ``name``, known to be a choice field."""
+    return cast(forms.ChoiceField, form.fields[name])
+
+
+def _technicians() -> QuerySet[User]:
     return (
         get_user_model()
         .objects.filter(
@@ -66,7 +81,7 @@ def _technicians() -> QuerySet:
     )
 
 
-class ServiceRecordForm(forms.ModelForm):
+class ServiceRecordForm(forms.ModelForm[ServiceRecord]):
     class Meta:
         model = ServiceRecord
         fields = ["opened_at", "technician", "place", "summary"]
@@ -83,11 +98,11 @@ class ServiceRecordForm(forms.ModelForm):
         required=False, min_value=0.0, max_value=300.0, label="Its open-circuit volts at removal"
     )
 
-    def __init__(self, *args: object, unit: Transponder, **kwargs: object) -> None:
+    def __init__(self, *args: Any, unit: Transponder, **kwargs: Any) -> None:
         super().__init__(*args, **kwargs)
         self.instance.unit = unit
-        self.fields["technician"].queryset = _technicians()
-        self.fields["place"].queryset = Place.objects.all()
+        _model_choice(self, "technician").queryset = _technicians()
+        _model_choice(self, "place").queryset = Place.objects.all()
         self.fitted_pack = BatteryInstall.objects.filter(unit=unit, removed_on__isnull=True).first()
         if self.fitted_pack is None:
             del self.fields["remove_pack_on"]
@@ -99,29 +114,28 @@ class ServiceRecordForm(forms.ModelForm):
                 f"Pack {self.fitted_pack.pack_serial}, installed {self.fitted_pack.installed_on}."
             )
 
-    def clean(self) -> dict[str, object]:
-        data = super().clean()
+    def clean(self) -> dict[str, Any]:
+        super().clean()
+        data = self.cleaned_data
         if self.fitted_pack is not None:
             if data.get("removed_pack_ocv_v") is not None and not data.get("remove_pack_on"):
                 self.add_error("remove_pack_on", "Give the removal date with the removal volts.")
         return data
 
     @property
-    def pack_removal(self) -> tuple[object, float | None] | None:
+    def pack_removal(self) -> tuple[dt.date, float | None] | None:
         if self.fitted_pack is None or not self.cleaned_data.get("remove_pack_on"):
             return None
         return self.cleaned_data["remove_pack_on"], self.cleaned_data.get("removed_pack_ocv_v")
 
 
-class EntryForm(forms.ModelForm):
+class EntryForm(forms.ModelForm[Entry]):
     """Attaches the (possibly unsaved) record so that model validation sees the unit.
 
     Each entry kind has one subclass naming the kind as ``Meta.model``; ``entry_forms()``
     finds it there."""
 
-    def __init__(
-        self, *args: object, record: ServiceRecord | None = None, **kwargs: object
-    ) -> None:
+    def __init__(self, *args: Any, record: ServiceRecord | None = None, **kwargs: Any) -> None:
         super().__init__(*args, **kwargs)
         if record is not None:
             self.instance.record = record
@@ -155,16 +169,15 @@ class AnodeReadingForm(EntryForm):
         label="Heavier than the last reading: weighed again, keep it",
     )
 
-    def __init__(
-        self, *args: object, record: ServiceRecord | None = None, **kwargs: object
-    ) -> None:
+    def __init__(self, *args: Any, record: ServiceRecord | None = None, **kwargs: Any) -> None:
         super().__init__(*args, record=record, **kwargs)
         self.record = record
         if record is not None:
-            self.fields["position"].queryset = record.unit.variant.anode_positions.all()
+            _model_choice(self, "position").queryset = record.unit.variant.anode_positions.all()
 
-    def clean(self) -> dict[str, object]:
-        data = super().clean()
+    def clean(self) -> dict[str, Any]:
+        super().clean()
+        data = self.cleaned_data
         mass, position = data.get("mass_g"), data.get("position")
         record = self.record
         if mass is None or position is None or record is None or not record.unit_id:
@@ -205,12 +218,10 @@ class SealChangeForm(EntryForm):
         fields = ["position", "material", "cure_date", "lot", "reason"]
         widgets = {"cure_date": DateInput()}
 
-    def __init__(
-        self, *args: object, record: ServiceRecord | None = None, **kwargs: object
-    ) -> None:
+    def __init__(self, *args: Any, record: ServiceRecord | None = None, **kwargs: Any) -> None:
         super().__init__(*args, record=record, **kwargs)
         if record is not None:
-            self.fields["position"].queryset = record.unit.variant.seal_positions.all()
+            _model_choice(self, "position").queryset = record.unit.variant.seal_positions.all()
 
     @classmethod
     def initial_rows(cls, variant: Variant) -> list[dict[str, object]]:
@@ -291,12 +302,19 @@ class HousingOpeningForm(EntryForm):
         widgets = {"opened_at": DateTimeInput(), "closed_at": DateTimeInput()}
 
 
-class EntryFormSet(BaseInlineFormSet):
-    def __init__(self, *args: object, record: ServiceRecord, **kwargs: object) -> None:
+class EntryFormSet(BaseInlineFormSet[Entry, ServiceRecord, EntryForm]):
+    def __init__(
+        self,
+        data: Mapping[str, Any] | None = None,
+        files: MultiValueDict[str, UploadedFile[Any]] | None = None,
+        *,
+        record: ServiceRecord,
+        **kwargs: Any,
+    ) -> None:
         self.record = record
-        super().__init__(*args, instance=record, **kwargs)
+        super().__init__(data, files, instance=record, **kwargs)
 
-    def get_form_kwargs(self, index: int | None) -> dict[str, object]:
+    def get_form_kwargs(self, index: int | None) -> dict[str, Any]:
         kwargs = super().get_form_kwargs(index)
         kwargs["record"] = self.record
         return kwargs
@@ -315,12 +333,14 @@ def entry_forms() -> dict[type[Model], type[EntryForm]]:
 
 
 def entry_formsets(
-    record: ServiceRecord, data: object = None, files: object = None
-) -> list[tuple[str, BaseInlineFormSet]]:
+    record: ServiceRecord,
+    data: Mapping[str, Any] | None = None,
+    files: MultiValueDict[str, UploadedFile[Any]] | None = None,
+) -> list[tuple[str, BaseInlineFormSet[Entry, ServiceRecord, EntryForm]]]:
     """One formset per entry kind. Anode and seal rows start one per position of the variant."""
     variant = record.unit.variant
     forms_by_model = entry_forms()
-    formsets = []
+    formsets: list[tuple[str, BaseInlineFormSet[Entry, ServiceRecord, EntryForm]]] = []
     for kind in entry_kinds():
         form = forms_by_model[kind]
         initial = form.initial_rows(variant)
@@ -358,12 +378,12 @@ class AmendmentForm(forms.Form):
     corrected_value = forms.CharField(max_length=200)
     reason = forms.CharField(widget=forms.Textarea(attrs={"rows": 2}))
 
-    def __init__(self, *args: object, choices: list[tuple[str, str]], **kwargs: object) -> None:
+    def __init__(self, *args: Any, choices: list[tuple[str, str]], **kwargs: Any) -> None:
         super().__init__(*args, **kwargs)
-        self.fields["target_field"].choices = choices
+        _choice(self, "target_field").choices = choices
 
 
-class DeploymentForm(forms.ModelForm):
+class DeploymentForm(forms.ModelForm[Deployment]):
     class Meta:
         model = Deployment
         fields = [
@@ -377,15 +397,14 @@ class DeploymentForm(forms.ModelForm):
         ]
         widgets = {"over_side_at": DateTimeInput(), "notes": forms.Textarea(attrs={"rows": 2})}
 
-    def __init__(self, *args: object, **kwargs: object) -> None:
+    def __init__(self, *args: Any, **kwargs: Any) -> None:
         super().__init__(*args, **kwargs)
-        self.fields["unit"].queryset = Transponder.objects.select_related("variant").order_by(
-            "serial"
-        )
+        units = Transponder.objects.select_related("variant").order_by("serial")
+        _model_choice(self, "unit").queryset = units
 
     def clean_unit(self) -> Transponder:
         """Held, in the water or on the bench: say so before anything else about the dates."""
-        unit = self.cleaned_data["unit"]
+        unit: Transponder = self.cleaned_data["unit"]
         refusal = deploy_refusal(unit, timezone.localdate())
         if refusal:
             raise forms.ValidationError(refusal)
@@ -413,7 +432,7 @@ class RecoveryForm(forms.Form):
     place = forms.ModelChoiceField(queryset=Place.objects.all(), required=False, label="Now at")
 
 
-class SiteForm(forms.ModelForm):
+class SiteForm(forms.ModelForm[Site]):
     class Meta:
         model = Site
         fields = [
@@ -447,9 +466,9 @@ class DueFilterForm(forms.Form):
     )
     kind = forms.ChoiceField(required=False)
 
-    def __init__(self, *args: object, kinds: list[tuple[str, str]], **kwargs: object) -> None:
+    def __init__(self, *args: Any, kinds: list[tuple[str, str]], **kwargs: Any) -> None:
         super().__init__(*args, **kwargs)
-        self.fields["kind"].choices = [("", "Any kind"), *kinds]
+        _choice(self, "kind").choices = [("", "Any kind"), *kinds]
 
 
 class PlannedDeploymentForm(forms.Form):
@@ -493,7 +512,7 @@ class PlannedDeploymentForm(forms.Form):
         help_text="Empty: the unit's setting.",
     )
 
-    def __init__(self, *args: object, today: dt.date, **kwargs: object) -> None:
+    def __init__(self, *args: Any, today: dt.date, **kwargs: Any) -> None:
         super().__init__(*args, **kwargs)
         self.today = today
 
@@ -523,12 +542,12 @@ class PlanForm(PlannedDeploymentForm):
 
     field_order = ["site", "start", "days", "wanted", "rate"]
 
-    def __init__(self, *args: object, **kwargs: object) -> None:
+    def __init__(self, *args: Any, **kwargs: Any) -> None:
         super().__init__(*args, **kwargs)
         del self.fields["step"]
 
 
-class UnitPhotoForm(forms.ModelForm):
+class UnitPhotoForm(forms.ModelForm[UnitPhoto]):
     class Meta:
         model = UnitPhoto
         fields = ["image", "caption"]

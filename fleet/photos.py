@@ -2,6 +2,7 @@
 
 import io
 import warnings
+from typing import Any
 
 from django.conf import settings
 from django.core.exceptions import ValidationError
@@ -13,7 +14,7 @@ MAX_PIXELS = 40_000_000
 MAX_EDGE_PX = 2400
 
 
-def clean_photo(upload: UploadedFile) -> ContentFile:
+def clean_photo(upload: UploadedFile[Any]) -> ContentFile[bytes]:
     """Return a JPEG re-encoded from ``upload`` or raise ValidationError with a code."""
     if upload.size is not None and upload.size > settings.PHOTO_MAX_BYTES:
         raise ValidationError(

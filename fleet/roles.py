@@ -7,14 +7,14 @@
 A superuser counts as a supervisor. A logged-in user in no group sees nothing but a 403.
 """
 
-from django.contrib.auth.models import AbstractBaseUser, AnonymousUser, Group, Permission
+from django.contrib.auth.models import AbstractUser, AnonymousUser, Group, Permission
 
 TECHNICIAN = "technician"
 SUPERVISOR = "supervisor"
 VIEWER = "viewer"
 ROLES = (TECHNICIAN, SUPERVISOR, VIEWER)
 
-User = AbstractBaseUser | AnonymousUser
+User = AbstractUser | AnonymousUser
 
 
 def role_names(user: User) -> frozenset[str]:
@@ -22,10 +22,11 @@ def role_names(user: User) -> frozenset[str]:
         return frozenset()
     cached = getattr(user, "_holdfast_roles", None)
     if cached is None:
-        cached = frozenset(user.groups.values_list("name", flat=True))  # type: ignore[union-attr]
-        if user.is_superuser:  # type: ignore[union-attr]
+        cached = frozenset(user.groups.values_list("name", flat=True))
+        if user.is_superuser:
             cached = cached | {SUPERVISOR}
-        user._holdfast_roles = cached  # type: ignore[union-attr]
+        # A per-request cache kept on the user object, which declares no such attribute.
+        user._holdfast_roles = cached  # type: ignore[attr-defined]
     return cached
 
 

@@ -2,6 +2,7 @@
 queries it makes; tests/test_selectors.py holds it to that."""
 
 import datetime as dt
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any
 
@@ -206,7 +207,7 @@ def record_amendments(*, record: ServiceRecord) -> list[Any]:
 class FleetCounts:
     by_condition: dict[Condition, int]  # every condition, in Condition order, zero where none
     total: int
-    by_place: list[dict[str, Any]]  # {"place__name": ..., "n": ...}, by place name
+    by_place: Sequence[Mapping[str, Any]]  # {"place__name": ..., "n": ...}, by place name
 
 
 def fleet_counts(*, on: dt.date) -> FleetCounts:

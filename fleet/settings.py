@@ -6,9 +6,14 @@ value that matters in production comes from an environment variable listed in RE
 
 import os
 from pathlib import Path
+from typing import Any
 
 import dj_database_url
+import django_stubs_ext
 from django.core.exceptions import ImproperlyConfigured
+
+# Lets classes such as ModelForm and ModelAdmin take the type arguments the stubs give them.
+django_stubs_ext.monkeypatch()
 
 BASE_DIR = Path(__file__).resolve().parent.parent
 
@@ -115,6 +120,7 @@ _SQLITE_OPTIONS = {
 }
 
 _database_url = os.environ.get("DATABASE_URL", "").strip()
+DATABASES: dict[str, Any]
 if _database_url:
     DATABASES = {"default": dj_database_url.parse(_database_url, conn_max_age=60)}
     if DATABASES["default"]["ENGINE"] == "django.db.backends.sqlite3":
@@ -169,7 +175,7 @@ DJANGO_TABLES2_TEMPLATE = "django_tables2/table.html"
 
 # Maintenance defaults used where a variant leaves a field empty. None of these comes from a
 # published standard; they are workshop practice and belong to the operator to set.
-HOLDFAST = {
+HOLDFAST: dict[str, Any] = {
     "DUE_SOON_DAYS": env_int("HOLDFAST_DUE_SOON_DAYS", 30, minimum=0),
     "PRESSURE_TEST_VALID_MONTHS": 12,
     "PROOF_FACTOR": 1.25,

@@ -3,7 +3,7 @@ from django.urls import reverse
 from django.utils.html import format_html
 
 from .due.condition import Condition
-from .due.engine import DueState, ItemKind
+from .due.items import DueState, ItemKind
 from .models import Deployment, Site, Transponder
 
 

@@ -14,7 +14,7 @@ from dataclasses import dataclass
 from typing import Any
 
 from django.contrib.auth import get_user_model
-from django.contrib.auth.models import AbstractUser, Group
+from django.contrib.auth.models import Group, User
 from django.db import transaction
 from django.db.models import ProtectedError
 
@@ -59,12 +59,12 @@ def demo_loaded() -> bool:
     return Variant.objects.filter(name__in=DEMO_VARIANT_NAMES).exists()
 
 
-def ensure_logins() -> dict[str, AbstractUser]:
+def ensure_logins() -> dict[str, User]:
     """The demo users, in their groups, with the demo password (set only when it differs)."""
     roles.ensure_groups()
     user_model = get_user_model()
     groups = {g.name: g for g in Group.objects.filter(name__in=roles.ROLES)}
-    users: dict[str, AbstractUser] = {}
+    users: dict[str, User] = {}
     wanted = [*LOGINS, *((name, roles.TECHNICIAN, False) for name in EXTRA_TECHNICIANS)]
     for username, group, staff in wanted:
         user, created = user_model.objects.get_or_create(username=username)
@@ -75,7 +75,7 @@ def ensure_logins() -> dict[str, AbstractUser]:
     return users
 
 
-def _sync_login(user: AbstractUser, *, staff: bool, created: bool) -> None:
+def _sync_login(user: User, *, staff: bool, created: bool) -> None:
     """Flags and password as the demo wants them; saves only when something differs."""
     changed = user.is_staff != staff or user.is_superuser or not user.is_active
     user.is_staff, user.is_superuser, user.is_active = staff, False, True
@@ -194,7 +194,7 @@ def _variant_children(variant: Variant, spec: VariantSpec) -> list[Any]:
     return children
 
 
-def _fleet_rows(users: dict[str, AbstractUser]) -> FleetRows:
+def _fleet_rows(users: dict[str, User]) -> FleetRows:
     places = _create_places()
     sites = _create_sites()
     variants = {spec.key: _create_variant(spec) for spec in VARIANTS}

@@ -31,7 +31,7 @@ from dataclasses import dataclass, field
 from types import MappingProxyType
 from typing import Any
 
-from django.contrib.auth.models import AbstractUser
+from django.contrib.auth.models import User
 from django.utils import timezone
 
 from fleet.calc import anodes as anode_calc
@@ -891,12 +891,12 @@ def _entry_models() -> dict[str, type[Any]]:
 class FleetRows:
     """The rows every unit's history points at, looked up once for the whole fleet."""
 
-    users: Mapping[str, AbstractUser]
+    users: Mapping[str, User]
     places: Mapping[str, Place]
     sites: Mapping[str, Site]
     variants: Mapping[str, Variant]  # by VariantSpec.key
-    anode_positions: Mapping[tuple[int, str], AnodePosition]  # (variant pk, name)
-    seal_positions: Mapping[tuple[int, str], SealPosition]  # (variant pk, name)
+    anode_positions: Mapping[tuple[int, str | None], AnodePosition]  # (variant pk, name)
+    seal_positions: Mapping[tuple[int, str | None], SealPosition]  # (variant pk, name)
 
 
 def write_unit(plan: UnitPlan, rows: FleetRows) -> int:

@@ -157,7 +157,7 @@ def grid_table(
     widths: Sequence[float],
     *,
     header: bool = True,
-    extra: Sequence[tuple] = (),
+    extra: Sequence[tuple[Any, ...]] = (),
 ) -> Table:
     """A ruled table; cells that are plain strings are wrapped in ``para`` (escaped)."""
     body = [
@@ -168,7 +168,7 @@ def grid_table(
         for i, r in enumerate(rows)
     ]
     table = Table(body, colWidths=list(widths), repeatRows=1 if header else 0)
-    style = [
+    style: list[tuple[Any, ...]] = [
         ("GRID", (0, 0), (-1, -1), 0.5, RULE),
         ("VALIGN", (0, 0), (-1, -1), "TOP"),
         ("LEFTPADDING", (0, 0), (-1, -1), 3),
@@ -211,7 +211,7 @@ def signature_table(roles: Sequence[str], width: float) -> Table:
     """One block per role: name, signature, date and time, with room to write by hand."""
     label_w = 26 * mm
     rows: list[list[Any]] = []
-    style: list[tuple] = [
+    style: list[tuple[Any, ...]] = [
         ("VALIGN", (0, 0), (-1, -1), "BOTTOM"),
         ("LEFTPADDING", (0, 0), (-1, -1), 3),
         ("BOX", (0, 0), (-1, -1), 0.75, INK),
@@ -295,13 +295,13 @@ def _numbered_canvas(title: str, reference: str, when: dt.datetime) -> type[rl_c
     class NumberedCanvas(rl_canvas.Canvas):
         def __init__(self, *args: Any, **kwargs: Any) -> None:
             super().__init__(*args, **kwargs)
-            self._pages: list[dict] = []
+            self._pages: list[dict[str, Any]] = []
             # The creation date is the document's own date, not the clock.
             self.setDateFormatter(lambda *_: stamp)
 
         def showPage(self) -> None:  # noqa: N802 (reportlab's name)
             self._pages.append(dict(self.__dict__))
-            self._startPage()
+            self._startPage()  # type: ignore[attr-defined]  # reportlab's own page reset, unstubbed
 
         def save(self) -> None:
             total = len(self._pages)
@@ -312,7 +312,7 @@ def _numbered_canvas(title: str, reference: str, when: dt.datetime) -> type[rl_c
             super().save()
 
         def _furniture(self, number: int, total: int) -> None:
-            width, height = self._pagesize
+            width, height = self._pagesize  # type: ignore[attr-defined]  # unstubbed page size
             self.saveState()
             self.setFont(FONT_BOLD, 8)
             self.setFillColor(INK)

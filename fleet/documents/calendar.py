@@ -79,4 +79,5 @@ def render_calendar(doc: CalendarDocument) -> bytes:
         event.add("description", item.description)
         event.add("url", item.url)
         calendar.add_component(event)
-    return calendar.to_ical()
+    ical: bytes = calendar.to_ical()
+    return ical

@@ -10,7 +10,7 @@ from dataclasses import dataclass
 
 from django.utils import timezone
 from reportlab.lib.units import mm
-from reportlab.platypus import KeepTogether, Spacer, Table, TableStyle
+from reportlab.platypus import Flowable, KeepTogether, Spacer, Table, TableStyle
 
 from fleet.models import ReleaseCertificate, ReleaseTest
 
@@ -159,7 +159,7 @@ def render_certificate(doc: CertificateDocument) -> bytes:
     head.setStyle(
         TableStyle([("VALIGN", (0, 0), (-1, -1), "TOP"), ("LEFTPADDING", (0, 0), (-1, -1), 0)])
     )
-    story: list = [head]
+    story: list[Flowable] = [head]
     if doc.status_note:
         banner = Table([[para_bold(doc.status_note, "verdict")]], colWidths=[width])
         banner.setStyle(

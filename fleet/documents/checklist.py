@@ -9,7 +9,7 @@ from dataclasses import dataclass
 
 from django.utils import timezone
 from reportlab.lib.units import mm
-from reportlab.platypus import CondPageBreak, KeepTogether, Spacer, Table, TableStyle
+from reportlab.platypus import CondPageBreak, Flowable, KeepTogether, Spacer, Table, TableStyle
 
 from fleet.due.planned import PlannedDeployment
 from fleet.due.readiness import Verdict, readiness_for
@@ -142,6 +142,7 @@ def prepare_checklist(
             over_side_at=in_water.over_side_at,
             reason=in_water.override_reason,
             by=str(in_water.override_by),
+            # deployment_start sets the time together with the reason; the field allows null.
             at=in_water.override_at,  # type: ignore[arg-type]
             failed_checks=tuple(in_water.override_check_lines),
         )
@@ -185,7 +186,7 @@ def verdict_cell(label: str, icon: str) -> str:
     return f"{icon} {label}"
 
 
-def override_section(note: OverrideNote | None, width: float) -> list:
+def override_section(note: OverrideNote | None, width: float) -> list[Flowable]:
     """A boxed notice when the unit's open deployment went ahead against failed checks."""
     if note is None:
         return []

@@ -7,6 +7,7 @@ faintly so plain paper can be cut and laminated.
 from __future__ import annotations
 
 import datetime as dt
+from collections.abc import Callable
 from dataclasses import dataclass
 
 from reportlab.lib.pagesizes import A4, LETTER
@@ -14,6 +15,8 @@ from reportlab.lib.units import mm
 from reportlab.lib.utils import simpleSplit
 from reportlab.pdfbase.pdfmetrics import stringWidth
 from reportlab.pdfgen.canvas import Canvas
+
+from fleet.models import Transponder
 
 from .base import FONT, FONT_BOLD, MARGIN, RULE, draw_pages, qr_drawing
 
@@ -47,7 +50,12 @@ class LabelSheet:
 
 
 def prepare_labels(
-    units: list, *, paper: str, variant_id: int | None, on: dt.date, url_for: object
+    units: list[Transponder],
+    *,
+    paper: str,
+    variant_id: int | None,
+    on: dt.date,
+    url_for: Callable[[Transponder], str],
 ) -> LabelSheet:
     """``units`` with their variant loaded; ``url_for(unit)`` gives the absolute unit address."""
     if paper not in PAPERS:
@@ -57,7 +65,7 @@ def prepare_labels(
         reference=f"HF-LB-{paper.upper()}-{scope}-{on.isoformat()}",
         paper=paper,
         printed_on=on,
-        labels=tuple(Label(u.serial, u.variant.name, url_for(u)) for u in units),  # type: ignore[operator]
+        labels=tuple(Label(u.serial, u.variant.name, url_for(u)) for u in units),
     )
 
 

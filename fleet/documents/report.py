@@ -16,7 +16,7 @@ from django.db import models
 from django.utils.text import capfirst
 from reportlab.lib.units import mm
 from reportlab.lib.utils import ImageReader
-from reportlab.platypus import CondPageBreak, Image, KeepTogether, Spacer
+from reportlab.platypus import CondPageBreak, Flowable, Image, KeepTogether, Spacer
 
 from fleet.models import (
     AnodeReading,
@@ -28,7 +28,7 @@ from fleet.models import (
     SensorCheck,
     ServiceRecord,
 )
-from fleet.models.records import Entry, entry_kinds
+from fleet.models.records import Entry, amendable_field, entry_kinds
 
 from .base import (
     CAUTIONS,
@@ -197,7 +197,7 @@ def _cell(field: Any, entry: Any) -> str:
 
 
 def _field_columns(kind: type[Entry]) -> tuple[Column, ...]:
-    fields = [kind._meta.get_field(name) for name in kind.amendable_fields]
+    fields = [amendable_field(kind, name) for name in kind.amendable_fields]
     return (
         ("#", lambda e: str(e.pk)),
         *((str(capfirst(f.verbose_name)), partial(_cell, f)) for f in fields),
@@ -220,7 +220,8 @@ def _photo_path(field: Any) -> str:
 
 
 def prepare_report(record: ServiceRecord) -> ReportDocument:
-    if not record.is_closed:
+    closed_at = record.closed_at
+    if closed_at is None:  # the record is open
         raise RecordOpenError("This record is still open; close it before printing a report.")
     sections = []
     photos = []
@@ -239,7 +240,7 @@ def prepare_report(record: ServiceRecord) -> ReportDocument:
             photos += [
                 PhotoLine(f"Anode reading #{e.pk}: {e.position.name}", _photo_path(e.photo))
                 for e in entries
-                if e.photo
+                if isinstance(e, AnodeReading) and e.photo
             ]
     amendments = tuple(
         AmendmentLine(
@@ -264,7 +265,7 @@ def prepare_report(record: ServiceRecord) -> ReportDocument:
         place=record.place.name,
         technician=display_name(record.technician),
         opened_at=record.opened_at,
-        closed_at=record.closed_at,  # type: ignore[arg-type]
+        closed_at=closed_at,
         closed_by=display_name(record.closed_by),
         created_at=record.created_at,
         created_by=display_name(record.created_by),
@@ -291,7 +292,7 @@ def _photo_flowable(photo: PhotoLine, max_w: float, max_h: float) -> Image | Non
 
 def render_report(doc: ReportDocument) -> bytes:
     width = frame_width()
-    story: list = [
+    story: list[Flowable] = [
         para(TITLE, "title"),
         para(f"Bench visit #{doc.record_id} for unit {doc.serial} ({doc.variant})"),
         Spacer(0, 3 * mm),

@@ -23,8 +23,10 @@ from __future__ import annotations
 
 import datetime as dt
 from enum import StrEnum
+from typing import TypedDict
 
 from django.db.models import Case, CharField, Exists, OuterRef, Q, QuerySet, Value, When
+from django_stubs_ext import WithAnnotations
 
 from fleet.models import Deployment, DueRow, ServiceRecord, Transponder, UnitHold
 
@@ -101,7 +103,15 @@ def condition_expression(on: dt.date) -> Case:
     )
 
 
-def annotate_condition(queryset: QuerySet[Transponder], on: dt.date) -> QuerySet[Transponder]:
+class ConditionColumn(TypedDict):
+    """The column ``annotate_condition`` adds: a ``Condition`` value."""
+
+    condition: str
+
+
+def annotate_condition(
+    queryset: QuerySet[Transponder], on: dt.date
+) -> QuerySet[WithAnnotations[Transponder, ConditionColumn]]:
     """``queryset`` with a ``condition`` column (a ``Condition`` value) computed in SQL."""
     return queryset.annotate(condition=condition_expression(on))
 

@@ -518,13 +518,13 @@ def evaluate_unit(
         )
     seal_rows = {r.position_id: r for r in unit.seal_states.all()}
     for seal in unit.variant.seal_positions.all():
-        row = seal_rows.get(seal.pk) or SealState(unit=unit, position=seal)
-        row.position = seal
+        seal_row = seal_rows.get(seal.pk) or SealState(unit=unit, position=seal)
+        seal_row.position = seal
         add(
             ItemKind.SEAL,
             f"seal:{seal.pk}",
             f"Seal: {seal.name} ({seal.size_label})",
-            seal_outcome(row, rules, duty),
+            seal_outcome(seal_row, rules, duty),
         )
     if state is not None:
         ev.battery = battery_projection(unit, state, rules, duty, ev.steps)

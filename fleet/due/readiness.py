@@ -550,12 +550,7 @@ class Plan(_OfAPlan):
     @property
     def blockers(self) -> list[tuple[str, int]]:
         """What keeps units back, most common first: the work that would free the most."""
-        counts = Counter(
-            c.name.split(":")[0]
-            for r in self.rejected
-            for c in r.checks
-            if c.verdict == Verdict.FAIL
-        )
+        counts = Counter(c.name.split(":")[0] for r in self.rejected for c in r.failures)
         return counts.most_common()
 
 

@@ -6,6 +6,7 @@ that knows them.
 """
 
 from dataclasses import dataclass
+from typing import TypeVar
 
 from django.conf import settings
 
@@ -44,7 +45,10 @@ class Rules:
     default_latitude_deg: float
 
 
-def _pick(value: object, default: object) -> object:
+_T = TypeVar("_T")
+
+
+def _pick(value: _T | None, default: _T) -> _T:
     return default if value is None else value
 
 
@@ -55,32 +59,32 @@ def rules_for(variant: Variant) -> Rules:
         due_soon_days=d["DUE_SOON_DAYS"],
         pressure_test_valid_months=_pick(
             variant.pressure_test_valid_months, d["PRESSURE_TEST_VALID_MONTHS"]
-        ),  # type: ignore[arg-type]
-        proof_factor=_pick(variant.proof_factor, d["PROOF_FACTOR"]),  # type: ignore[arg-type]
+        ),
+        proof_factor=_pick(variant.proof_factor, d["PROOF_FACTOR"]),
         hold_min_minutes=d["PRESSURE_HOLD_MIN_MINUTES"],
         allowable_drop_percent=d["PRESSURE_ALLOWABLE_DROP_PERCENT"],
         gauge_tolerance_percent=d["PRESSURE_GAUGE_TOLERANCE_PERCENT"],
         release_test_valid_days=_pick(
             variant.release_test_valid_days, d["RELEASE_TEST_VALID_DAYS"]
-        ),  # type: ignore[arg-type]
-        release_max_seconds=_pick(variant.release_max_seconds, d["RELEASE_MAX_SECONDS"]),  # type: ignore[arg-type]
+        ),
+        release_max_seconds=_pick(variant.release_max_seconds, d["RELEASE_MAX_SECONDS"]),
         release_max_motor_current_a=_pick(
             variant.release_max_motor_current_a, d["RELEASE_MAX_MOTOR_CURRENT_A"]
-        ),  # type: ignore[arg-type]
+        ),
         sensor_check_interval_months=_pick(
             variant.sensor_check_interval_months, d["SENSOR_CHECK_INTERVAL_MONTHS"]
-        ),  # type: ignore[arg-type]
+        ),
         temperature_tolerance_c=tol["temperature"],
         pressure_tolerance_fraction_of_rating=tol["pressure_fraction_of_rating"],
         tilt_tolerance_deg=tol["tilt"],
         pt100_class=d["PT100_CLASS"],
         bond_resistance_limit_ohm=_pick(
             variant.bond_resistance_limit_ohm, d["BOND_RESISTANCE_LIMIT_OHM"]
-        ),  # type: ignore[arg-type]
+        ),
         wear_flag_factor=d["WEAR_FLAG_FACTOR"],
         battery_reserve_fraction=_pick(
             variant.battery_reserve_fraction, d["BATTERY_RESERVE_FRACTION"]
-        ),  # type: ignore[arg-type]
+        ),
         battery_default_temperature_c=d["BATTERY_DEFAULT_TEMPERATURE_C"],
         seal_shelf_standard=d["SEAL_SHELF_STANDARD"],
         depth_margin_fraction=d["DEPTH_MARGIN_FRACTION"],

@@ -39,12 +39,16 @@ _SEAL_FIELDS = ("fitted_at", "cure_date", "material", "openings_since_fit")
 _DUE_FIELDS = ("kind", "item", "due_on", "basis", "flags", "failed", "position")
 
 
+# One row per key: ("unit", id), ("anode", unit id, position id), ("due", unit id, key)...
+Snapshot = dict[tuple[object, ...], tuple[object, ...]]
+
+
 def _norm(value: object) -> object:
     return float(f"{value:.9g}") if isinstance(value, float) else value
 
 
-def state_snapshot() -> dict[tuple, tuple]:
-    snapshot: dict[tuple, tuple] = {}
+def state_snapshot() -> Snapshot:
+    snapshot: Snapshot = {}
     for row in UnitState.objects.values("unit_id", *_UNIT_FIELDS):
         snapshot[("unit", row["unit_id"])] = tuple(_norm(row[f]) for f in _UNIT_FIELDS)
     for row in AnodeState.objects.values("unit_id", "position_id", *_ANODE_FIELDS):
@@ -58,7 +62,7 @@ def state_snapshot() -> dict[tuple, tuple]:
     return snapshot
 
 
-def differences(before: dict[tuple, tuple], after: dict[tuple, tuple]) -> list[str]:
+def differences(before: Snapshot, after: Snapshot) -> list[str]:
     """One line per row that differs, missing or extra, in key order."""
     lines = []
     for key in sorted(set(before) | set(after), key=str):

@@ -59,21 +59,15 @@ def test_moment(test: PressureTest) -> dt.datetime:
     return timezone.make_aware(dt.datetime.combine(test.tested_on, test.hold_ended_at))
 
 
-@transaction.atomic
-def refresh_unit_state(unit: Transponder, *, at: dt.datetime) -> UnitState:
-    variant = unit.variant
-    deployments = list(
-        Deployment.objects.filter(unit=unit).select_related("site").order_by("over_side_at")
-    )
-    intervals = [(d.over_side_at, d.recovered_at) for d in deployments]
-    closed = [d for d in deployments if d.recovered_at is not None]
-    open_deployment = next((d for d in deployments if d.recovered_at is None), None)
+def _refresh_anodes(
+    unit: Transponder, intervals: list[tuple[dt.datetime, dt.datetime | None]]
+) -> None:
+    """Step 2: rewrite the unit's anode rows from its readings."""
 
     def x_at(moment: dt.datetime) -> float:
         return immersed_days(intervals, moment)
 
-    # Anodes
-    positions = {p.pk: p for p in variant.anode_positions.all()}
+    positions = {p.pk: p for p in unit.variant.anode_positions.all()}
     readings = (
         AnodeReading.objects.filter(record__unit=unit, position__in=list(positions))
         .select_related("record")
@@ -112,13 +106,11 @@ def refresh_unit_state(unit: Transponder, *, at: dt.datetime) -> UnitState:
     AnodeState.objects.filter(unit=unit).delete()
     AnodeState.objects.bulk_create(anode_rows.values())
 
-    # Seals
-    openings = list(
-        HousingOpening.objects.filter(record__unit=unit)
-        .select_related("record")
-        .order_by("opened_at")
-    )
-    seal_positions = list(variant.seal_positions.all())
+
+def _refresh_seals(unit: Transponder, openings: list[HousingOpening]) -> None:
+    """Step 3: rewrite the unit's seal rows: the last change per position and the openings
+    since it."""
+    seal_positions = list(unit.variant.seal_positions.all())
     latest_change: dict[int, SealChange] = {}
     for change in (
         SealChange.objects.filter(record__unit=unit)
@@ -128,20 +120,26 @@ def refresh_unit_state(unit: Transponder, *, at: dt.datetime) -> UnitState:
         latest_change[change.position_id] = change
     seal_rows = []
     for position in seal_positions:
-        change = latest_change.get(position.pk)
+        fitted_change = latest_change.get(position.pk)
         row = SealState(unit=unit, position=position)
-        if change is not None:
-            fitted = change.record.opened_at
+        if fitted_change is not None:
+            fitted = fitted_change.record.opened_at
             row.fitted_at = fitted
-            row.cure_date = change.cure_date
-            row.material = change.material
+            row.cure_date = fitted_change.cure_date
+            row.material = fitted_change.material
             # Openings during the fitting visit came before the new ring went in.
             row.openings_since_fit = sum(1 for o in openings if o.record.opened_at > fitted)
         seal_rows.append(row)
     SealState.objects.filter(unit=unit).delete()
     SealState.objects.bulk_create(seal_rows)
 
-    # Battery
+
+def _pack_tally(
+    unit: Transponder, recovered: list[tuple[Deployment, dt.datetime]]
+) -> tuple[BatteryInstall | None, float, int]:
+    """Step 4: the fitted pack, its charge used (A h) and its release operations, over the
+    recovered deployments since it went in."""
+    variant = unit.variant
     steps = {s.step: s.charge_per_reply_as for s in variant.reply_steps.all()}
     pack = BatteryInstall.objects.filter(unit=unit, removed_on__isnull=True).first()
     pack_charge = 0.0
@@ -150,8 +148,8 @@ def refresh_unit_state(unit: Transponder, *, at: dt.datetime) -> UnitState:
         fitted_from = start_of(pack.installed_on)
         hours = 0.0
         replies_charge = 0.0
-        for d in closed:
-            days = overlap_days(d.over_side_at, d.recovered_at, fitted_from, OPEN_END)
+        for d, recovered_at in recovered:
+            days = overlap_days(d.over_side_at, recovered_at, fitted_from, OPEN_END)
             if days <= 0:
                 continue
             hours += days * 24.0
@@ -159,7 +157,7 @@ def refresh_unit_state(unit: Transponder, *, at: dt.datetime) -> UnitState:
             replies_charge += charge_used_ah(
                 0.0, 0.0, n, charge_per_reply_as(steps, d.transmit_power_step)
             )
-            if variant.release_fitted and d.recovered_at >= fitted_from:
+            if variant.release_fitted and recovered_at >= fitted_from:
                 pack_releases += 1  # the release fired to bring the unit up
         pack_releases += ReleaseTest.objects.filter(
             record__unit=unit, tested_on__gte=pack.installed_on
@@ -170,6 +168,27 @@ def refresh_unit_state(unit: Transponder, *, at: dt.datetime) -> UnitState:
             )
             + replies_charge
         )
+    return pack, pack_charge, pack_releases
+
+
+@transaction.atomic
+def refresh_unit_state(unit: Transponder, *, at: dt.datetime) -> UnitState:
+    deployments = list(
+        Deployment.objects.filter(unit=unit).select_related("site").order_by("over_side_at")
+    )
+    intervals = [(d.over_side_at, d.recovered_at) for d in deployments]
+    closed = [d for d in deployments if d.recovered_at is not None]
+    recovered = [(d, d.recovered_at) for d in deployments if d.recovered_at is not None]
+    open_deployment = next((d for d in deployments if d.recovered_at is None), None)
+
+    _refresh_anodes(unit, intervals)
+    openings = list(
+        HousingOpening.objects.filter(record__unit=unit)
+        .select_related("record")
+        .order_by("opened_at")
+    )
+    _refresh_seals(unit, openings)
+    pack, pack_charge, pack_releases = _pack_tally(unit, recovered)
 
     # Tests and checks
     last_test = (
@@ -192,7 +211,7 @@ def refresh_unit_state(unit: Transponder, *, at: dt.datetime) -> UnitState:
     for check in SensorCheck.objects.filter(record__unit=unit).order_by("checked_on", "pk"):
         latest_check[check.sensor] = check
 
-    events = [d.over_side_at for d in deployments] + [d.recovered_at for d in closed]
+    events = [d.over_side_at for d in deployments] + [back for _, back in recovered]
     events += ServiceRecord.objects.filter(unit=unit).values_list("opened_at", flat=True)
     duty = open_deployment or (closed[-1] if closed else None)
     state, _ = UnitState.objects.update_or_create(

@@ -14,6 +14,7 @@ from __future__ import annotations
 import datetime as dt
 from collections.abc import Iterator
 from dataclasses import dataclass
+from typing import TYPE_CHECKING, TypedDict
 
 from django.db import transaction
 from django.db.models import Case, Count, IntegerField, Q, QuerySet, Value, When
@@ -23,7 +24,11 @@ from fleet.models import DueRow, Transponder
 
 from .engine import INACTIVE, evaluate_unit, fleet_queryset
 from .items import DueItem, DueState, ItemKind, classify
+from .rules import Rules
 from .state import refresh_unit_state
+
+if TYPE_CHECKING:
+    from django_stubs_ext import WithAnnotations
 
 _ROW_FIELDS = ("unit_id", "kind", "key", "item", "due_on", "basis", "flags", "failed", "position")
 
@@ -35,7 +40,7 @@ def derived_rows(unit_ids: list[int] | None = None) -> Iterator[DueRow]:
         if unit_ids is None
         else Transponder.objects.filter(pk__in=unit_ids)
     )
-    cache: dict = {}
+    cache: dict[int, Rules] = {}
     today = timezone.localdate()
     for unit in fleet_queryset(units.order_by("pk")).iterator(chunk_size=500):
         evaluation = evaluate_unit(unit, on=today, rules_cache=cache)
@@ -131,6 +136,17 @@ def due_totals(
     return DueTotals(totals["overdue"], totals["due_soon"], totals["units_overdue"])
 
 
+class StateRankColumn(TypedDict):
+    """The column ``due_queryset`` adds: ``state_rank``, most urgent lowest."""
+
+    state_rank: int
+
+
+if TYPE_CHECKING:
+    # Only for the checker: at run time the alias cannot take the column's type.
+    RankedDueRow = WithAnnotations[DueRow, StateRankColumn]
+
+
 def due_queryset(
     *,
     on: dt.date,
@@ -138,7 +154,7 @@ def due_queryset(
     show: str = "attention",
     units: QuerySet[Transponder] | None = None,
     kind: str = "",
-) -> QuerySet[DueRow]:
+) -> QuerySet[RankedDueRow]:
     """Stored due items with their state rank, most urgent first; filtered and sorted in SQL.
 
     ``show``: "attention" (overdue, due soon, or flagged), "overdue", or "all".
@@ -206,7 +222,7 @@ def unit_due_items(unit: Transponder, *, on: dt.date, soon_days: int) -> list[Du
 EXPORT_HEADER = ("State", "Unit", "Variant", "Place", "Kind", "Item", "Due", "Basis", "Flags")
 
 
-def export_rows(rows: QuerySet[DueRow]) -> Iterator[tuple[object, ...]]:
+def export_rows(rows: QuerySet[RankedDueRow]) -> Iterator[tuple[object, ...]]:
     """The rows of ``due_queryset`` as plain cells for a CSV export, header first; reads the
     values straight from the query (no model instances), so a whole fleet exports quickly."""
     yield EXPORT_HEADER

@@ -71,10 +71,6 @@ class Deployment(models.Model):
         return f"{self.unit} at {self.site} from {self.over_side_at:%Y-%m-%d}"
 
     @property
-    def is_open(self) -> bool:
-        return self.recovered_at is None
-
-    @property
     def overridden(self) -> bool:
         return bool(self.override_reason)
 

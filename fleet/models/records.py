@@ -8,7 +8,7 @@ engine reads them from here.
 
 import datetime as dt
 import math
-from typing import ClassVar
+from typing import Any, ClassVar, Self, cast
 
 from django.apps import apps
 from django.conf import settings
@@ -88,10 +88,6 @@ class ServiceRecord(models.Model):
     def is_closed(self) -> bool:
         return self.closed_at is not None
 
-    @property
-    def service_date(self) -> dt.date:
-        return timezone.localdate(self.opened_at)
-
     def clean(self) -> None:
         super().clean()
         if self.opened_at and self.opened_at > timezone.now():
@@ -152,7 +148,8 @@ class Entry(models.Model):
     @classmethod
     def related_name(cls) -> str:
         """The name of this kind's entries on a ServiceRecord (``record.<related_name>``)."""
-        return str(cls._meta.get_field("record").remote_field.related_name)
+        record = cast("models.ForeignKey[Any, Any]", cls._meta.get_field("record"))
+        return str(record.remote_field.related_name)
 
     @classmethod
     def plural_title(cls) -> str:
@@ -163,7 +160,7 @@ class Entry(models.Model):
         return cls.bench_title or cls.plural_title()
 
     @classmethod
-    def with_list_related(cls, queryset: "QuerySet | None" = None) -> QuerySet:
+    def with_list_related(cls, queryset: QuerySet[Self] | None = None) -> QuerySet[Self]:
         """``queryset`` (default: all of this kind) with the keys its lines read."""
         queryset = cls._default_manager.all() if queryset is None else queryset
         if cls.list_select_related:
@@ -376,10 +373,6 @@ class BatteryInstall(Entry):
         if self.removed_on:
             line += f", removed {self.removed_on:%Y-%m-%d}"
         return line
-
-    @property
-    def is_fitted(self) -> bool:
-        return self.removed_on is None
 
     def clean(self) -> None:
         super().clean()
@@ -657,7 +650,7 @@ class SensorCheck(Entry):
         _not_future_date(self.checked_on, "checked_on", errors)
         if self.raw_resistance_ohm is not None and self.sensor != self.Sensor.TEMPERATURE:
             errors["raw_resistance_ohm"] = "Raw resistance applies to temperature checks only."
-        ranges = {
+        ranges: dict[str, tuple[float, float]] = {
             self.Sensor.TEMPERATURE: (-5.0, 50.0),
             self.Sensor.PRESSURE: (0.0, 12000.0),
             self.Sensor.TILT: (-90.0, 90.0),
@@ -715,6 +708,15 @@ class HousingOpening(Entry):
                 errors["closed_at"] = "The housing must be closed after it was opened."
         if errors:
             raise ValidationError(errors)
+
+
+def amendable_field(
+    target: models.Model | type[models.Model], field_name: str
+) -> models.Field[Any, Any]:
+    """The model field behind an amendable field name (``Entry.amendable_fields``, the
+    record's summary): always a concrete field, which ``get_field`` cannot promise in
+    general (it also returns relations)."""
+    return cast("models.Field[Any, Any]", target._meta.get_field(field_name))
 
 
 def entry_kinds() -> tuple[type[Entry], ...]:

@@ -113,4 +113,4 @@ class UnitPhoto(models.Model):
         ordering = ["-uploaded_at"]
 
     def __str__(self) -> str:
-        return self.caption or self.image.name
+        return self.caption or self.image.name or ""

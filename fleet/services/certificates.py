@@ -12,7 +12,7 @@ constraints on (year, sequence) and on the number are the backstop.
 
 import datetime as dt
 
-from django.contrib.auth.models import AbstractBaseUser
+from django.contrib.auth.models import User
 from django.core.exceptions import ValidationError
 from django.db import transaction
 from django.utils import timezone
@@ -31,7 +31,7 @@ def _next_number(year: int) -> tuple[int, str]:
 
 @transaction.atomic
 def certificate_issue(
-    *, release_test: ReleaseTest, by: AbstractBaseUser, at: dt.datetime
+    *, release_test: ReleaseTest, by: User, at: dt.datetime
 ) -> ReleaseCertificate:
     """Issue a certificate for a passing release test on a closed record.
 
@@ -68,7 +68,7 @@ def certificate_issue(
     for old in previous:
         old.status = ReleaseCertificate.Status.SUPERSEDED
         old.status_changed_at = at
-        old.status_changed_by = by  # type: ignore[assignment]
+        old.status_changed_by = by
         old.save(update_fields=["status", "status_changed_at", "status_changed_by"])
 
     year = timezone.localdate(at).year
@@ -103,7 +103,7 @@ def certificate_issue(
 
 @transaction.atomic
 def certificate_withdraw(
-    *, certificate: ReleaseCertificate, reason: str, by: AbstractBaseUser, at: dt.datetime
+    *, certificate: ReleaseCertificate, reason: str, by: User, at: dt.datetime
 ) -> ReleaseCertificate:
     current = ReleaseCertificate.objects.select_for_update().get(pk=certificate.pk)
     if current.status != ReleaseCertificate.Status.ISSUED:
@@ -119,7 +119,7 @@ def certificate_withdraw(
     current.status = ReleaseCertificate.Status.WITHDRAWN
     current.status_reason = reason.strip()
     current.status_changed_at = at
-    current.status_changed_by = by  # type: ignore[assignment]
+    current.status_changed_by = by
     current.full_clean()
     current.save(
         update_fields=["status", "status_reason", "status_changed_at", "status_changed_by"]

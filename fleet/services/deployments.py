@@ -21,7 +21,7 @@ the fact is judged at least as strictly as one entered on the day, never more le
 
 import datetime as dt
 
-from django.contrib.auth.models import AbstractBaseUser
+from django.contrib.auth.models import User
 from django.core.exceptions import ValidationError
 from django.db import transaction
 from django.utils import timezone
@@ -85,7 +85,7 @@ def deploy_refusal(unit: Transponder, on: dt.date) -> str:
 def deployment_start(
     *,
     deployment: Deployment,
-    by: AbstractBaseUser,
+    by: User,
     override_reason: str = "",
     check_readiness: bool = True,
 ) -> Deployment:
@@ -105,7 +105,7 @@ def deployment_start(
     if refusal:
         raise ValidationError({"unit": refusal})
     deployment.unit = unit
-    deployment.created_by = by  # type: ignore[assignment]
+    deployment.created_by = by
     deployment.full_clean()
     reason = override_reason.strip()
     if check_readiness:
@@ -142,7 +142,7 @@ def deployment_start(
                     override_error=refused,
                 )
             deployment.override_reason = reason
-            deployment.override_by = by  # type: ignore[assignment]
+            deployment.override_by = by
             deployment.override_at = at
             deployment.override_checks = "\n".join(f"{c.name}: {c.numbers}" for c in failures)
     deployment.save()
@@ -154,10 +154,10 @@ def deployment_start(
 def deployment_recover(
     *,
     deployment: Deployment,
-    recovered_at: object,
+    recovered_at: dt.datetime,
     replies_counted: int | None,
     place: Place | None,
-    by: AbstractBaseUser,
+    by: User,
 ) -> Deployment:
     """Bring a unit back. Its condition follows the records (no longer in the water); a
     recovered unit goes to the bench before anything else: it may hold pressure or water."""
@@ -165,7 +165,7 @@ def deployment_recover(
     current = Deployment.objects.select_for_update().get(pk=deployment.pk)
     if current.recovered_at is not None:
         raise ValidationError("This deployment is already recovered.")
-    current.recovered_at = recovered_at  # type: ignore[assignment]
+    current.recovered_at = recovered_at
     current.replies_counted = replies_counted
     current.full_clean()
     current.save(update_fields=["recovered_at", "replies_counted"])

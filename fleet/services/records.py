@@ -3,7 +3,7 @@
 import datetime as dt
 from collections.abc import Iterable, Sequence
 
-from django.contrib.auth.models import AbstractBaseUser
+from django.contrib.auth.models import User
 from django.contrib.contenttypes.models import ContentType
 from django.core.exceptions import ValidationError
 from django.db import transaction
@@ -13,7 +13,7 @@ from django.utils import timezone
 from fleet import roles
 from fleet.due.store import refresh_unit
 from fleet.models import Amendment, BatteryInstall, Deployment, ServiceRecord, Transponder, UnitHold
-from fleet.models.records import Entry, entry_kinds
+from fleet.models.records import Entry, amendable_field, entry_kinds
 
 # The record's own field an amendment may correct; each entry kind lists its own
 # (``Entry.amendable_fields``).
@@ -112,7 +112,7 @@ def service_record_save(
     record: ServiceRecord,
     entries: Sequence[Entry] = (),
     delete: Iterable[Entry] = (),
-    by: AbstractBaseUser,
+    by: User,
     expected_version: int | None = None,
     pack_removal: tuple[dt.date, float | None] | None = None,
 ) -> ServiceRecord:
@@ -132,11 +132,11 @@ def service_record_save(
                 "Reload the page to see their changes, then enter yours again."
             )
         record.version = current.version + 1
-        record.updated_by = by  # type: ignore[assignment]
+        record.updated_by = by
     else:
         unit = Transponder.objects.select_for_update().get(pk=record.unit_id)
         check_can_open_record(unit)
-        record.created_by = by  # type: ignore[assignment]
+        record.created_by = by
         record.version = 1
     record.full_clean()
     record.save()
@@ -160,7 +160,7 @@ def service_record_save(
 
 
 @transaction.atomic
-def service_record_close(*, record: ServiceRecord, by: AbstractBaseUser, at: dt.datetime) -> None:
+def service_record_close(*, record: ServiceRecord, by: User, at: dt.datetime) -> None:
     current = _lock(record)
     if current.is_closed:
         raise ValidationError("This record is already closed.")
@@ -178,18 +178,18 @@ def service_record_close(*, record: ServiceRecord, by: AbstractBaseUser, at: dt.
             "This record has no entries, so there is nothing to close; discard the visit instead."
         )
     record.closed_at = at
-    record.closed_by = by  # type: ignore[assignment]
+    record.closed_by = by
     record.version = current.version + 1
     record.save(update_fields=["closed_at", "closed_by", "version", "updated_at"])
 
 
-def can_discard(record: ServiceRecord, user: AbstractBaseUser) -> bool:
+def can_discard(record: ServiceRecord, user: User) -> bool:
     """Who may discard an open visit: its technician or a supervisor."""
     return record.technician_id == user.pk or roles.can_supervise(user)
 
 
 @transaction.atomic
-def service_record_discard(*, record: ServiceRecord, by: AbstractBaseUser) -> None:
+def service_record_discard(*, record: ServiceRecord, by: User) -> None:
     """Delete an open bench visit that has no entries (opened by mistake or never started)."""
     Transponder.objects.select_for_update().filter(pk=record.unit_id).get()
     current = _lock(record)
@@ -221,7 +221,7 @@ def amendment_create(
     field_name: str,
     corrected_value: str,
     reason: str,
-    by: AbstractBaseUser,
+    by: User,
 ) -> Amendment:
     """Correct one field of a closed record, keeping the original value in the amendment."""
     current = _lock(record)
@@ -235,15 +235,15 @@ def amendment_create(
     if owner != record.pk:
         raise ValidationError({"target": "That entry belongs to another record."})
 
-    field = target._meta.get_field(field_name)
-    original = field.value_to_string(target)  # type: ignore[union-attr]
+    field = amendable_field(target, field_name)
+    original = field.value_to_string(target)
     raw = corrected_value.strip()
     try:
-        value = field.to_python(raw) if raw != "" else None  # type: ignore[union-attr]
+        value = field.to_python(raw) if raw != "" else None
     except ValidationError as exc:
         raise ValidationError({"corrected_value": exc.messages}) from exc
-    if value is None and not field.null:  # type: ignore[union-attr]
-        if field.get_internal_type() in ("CharField", "TextField"):  # type: ignore[union-attr]
+    if value is None and not field.null:
+        if field.get_internal_type() in ("CharField", "TextField"):
             value = ""
         else:
             raise ValidationError({"corrected_value": "This value cannot be empty."})
@@ -253,7 +253,7 @@ def amendment_create(
     except ValidationError as exc:
         messages = exc.message_dict.get(field_name) or exc.messages
         raise ValidationError({"corrected_value": messages}) from exc
-    corrected = field.value_to_string(target)  # type: ignore[union-attr]
+    corrected = field.value_to_string(target)
     if corrected == original:
         raise ValidationError({"corrected_value": "That is the value already recorded."})
     target.save()

@@ -1,5 +1,6 @@
 from django.contrib import messages
 from django.core.exceptions import ValidationError
+from django.forms import BaseForm
 from django.http import HttpRequest, HttpResponse
 from django.shortcuts import redirect, render
 from django.utils import timezone
@@ -14,15 +15,15 @@ from fleet.services.deployments import ReadinessError, deployment_recover, deplo
 from fleet.services.reference import site_save
 from fleet.tables import DeploymentTable, SiteTable
 
-from .guards import get_deployment_for_user, get_site_for_user, require
+from .guards import AuthenticatedRequest, get_deployment_for_user, get_site_for_user, require
 
 
-def _apply_errors(form: object, exc: ValidationError) -> None:
+def _apply_errors(form: BaseForm, exc: ValidationError) -> None:
     if hasattr(exc, "error_dict"):
         for name, errs in exc.message_dict.items():
-            form.add_error(name if name in form.fields else None, errs)  # type: ignore[attr-defined]
+            form.add_error(name if name in form.fields else None, errs)
     else:
-        form.add_error(None, exc.messages)  # type: ignore[attr-defined]
+        form.add_error(None, exc.messages)
 
 
 @require(roles.can_read)
@@ -39,8 +40,8 @@ def deployment_list(request: HttpRequest) -> HttpResponse:
 
 @require(roles.can_record)
 @require_http_methods(["GET", "POST"])
-def deployment_new(request: HttpRequest) -> HttpResponse:
-    initial = {"over_side_at": timezone.now().replace(second=0, microsecond=0)}
+def deployment_new(request: AuthenticatedRequest) -> HttpResponse:
+    initial: dict[str, object] = {"over_side_at": timezone.now().replace(second=0, microsecond=0)}
     serial = request.GET.get("unit")
     if serial:
         unit = Transponder.objects.filter(serial=serial).first()
@@ -91,7 +92,7 @@ def deployment_new(request: HttpRequest) -> HttpResponse:
 
 
 @require_http_methods(["GET", "POST"])
-def deployment_recover_view(request: HttpRequest, pk: int) -> HttpResponse:
+def deployment_recover_view(request: AuthenticatedRequest, pk: int) -> HttpResponse:
     deployment = get_deployment_for_user(request, pk, write=True)
     form = RecoveryForm(
         request.POST or None,

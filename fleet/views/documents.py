@@ -1,6 +1,8 @@
 """PDF documents and certificate actions. Each view parses the request, guards, calls a
 ``fleet.documents`` prepare function or service, and serves the bytes."""
 
+from typing import Literal, overload
+
 from django.contrib import messages
 from django.contrib.auth.decorators import login_not_required
 from django.core.exceptions import ValidationError
@@ -21,6 +23,7 @@ from fleet.models import ReleaseCertificate, Site, Transponder, Variant
 from fleet.services.certificates import certificate_issue, certificate_withdraw
 
 from .guards import (
+    AuthenticatedRequest,
     get_certificate_for_user,
     get_record_for_user,
     get_release_test_for_user,
@@ -38,6 +41,18 @@ def _pdf(data: bytes, filename: str) -> HttpResponse:
 
 def _bad(message: str) -> HttpResponse:
     return HttpResponseBadRequest(message, content_type="text/plain; charset=utf-8")
+
+
+@overload
+def _int_param(
+    request: HttpRequest, name: str, lo: int, hi: int, *, required: Literal[True]
+) -> int: ...
+
+
+@overload
+def _int_param(
+    request: HttpRequest, name: str, lo: int, hi: int, *, required: bool
+) -> int | None: ...
 
 
 def _int_param(request: HttpRequest, name: str, lo: int, hi: int, *, required: bool) -> int | None:
@@ -62,7 +77,9 @@ def checklist_pdf(request: HttpRequest, serial: str) -> HttpResponse:
     now = timezone.now()
     form = PlannedDeploymentForm(request.GET, today=timezone.localdate(now))
     if not form.is_valid():
-        problems = "; ".join(f"{name}: {' '.join(errors)}" for name, errors in form.errors.items())
+        problems = "; ".join(
+            f"{name}: {' '.join(str(e) for e in errors)}" for name, errors in form.errors.items()
+        )
         return _bad(f"Cannot prepare the checklist: {problems}")
     doc = prepare_checklist(
         unit,
@@ -134,7 +151,7 @@ def _back(request: HttpRequest, fallback: str) -> HttpResponse:
 
 
 @require_POST
-def certificate_issue_view(request: HttpRequest, pk: int) -> HttpResponse:
+def certificate_issue_view(request: AuthenticatedRequest, pk: int) -> HttpResponse:
     test = get_release_test_for_user(request, pk)
     try:
         certificate = certificate_issue(release_test=test, by=request.user, at=timezone.now())
@@ -146,7 +163,7 @@ def certificate_issue_view(request: HttpRequest, pk: int) -> HttpResponse:
 
 
 @require_POST
-def certificate_withdraw_view(request: HttpRequest, number: str) -> HttpResponse:
+def certificate_withdraw_view(request: AuthenticatedRequest, number: str) -> HttpResponse:
     certificate = get_certificate_for_user(request, number, supervise=True)
     try:
         certificate_withdraw(
@@ -181,7 +198,7 @@ def certificate_verify(request: HttpRequest, code: str) -> HttpResponse:
         .filter(verification_code=code)
         .first()
     )
-    context = {"certificate": certificate, "code": code[:40]}
+    context: dict[str, object] = {"certificate": certificate, "code": code[:40]}
     if certificate is None:
         return render(request, "fleet/documents/verify.html", context, status=404)
     today = timezone.localdate()

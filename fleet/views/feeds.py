@@ -15,12 +15,12 @@ from fleet.due.store import due_items_stored
 from fleet.models import CalendarFeed
 from fleet.models.feeds import new_feed_token
 
-from .guards import get_calendar_feed_for_token, require
+from .guards import AuthenticatedRequest, get_calendar_feed_for_token, require
 
 
 @require(roles.can_read)
 @require_http_methods(["GET", "POST"])
-def feed_settings(request: HttpRequest) -> HttpResponse:
+def feed_settings(request: AuthenticatedRequest) -> HttpResponse:
     feed = CalendarFeed.objects.filter(user=request.user).first()
     if request.method == "POST":
         action = request.POST.get("action")

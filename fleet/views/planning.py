@@ -5,7 +5,7 @@ from django.shortcuts import render
 from django.utils import timezone
 
 from fleet import charts, roles
-from fleet.due.engine import evaluate_unit, fleet_queryset
+from fleet.due.engine import UnitEvaluation, evaluate_unit, fleet_queryset
 from fleet.due.history import anode_history, battery_history
 from fleet.due.readiness import plan_campaign, readiness_for
 from fleet.forms import PlanForm, PlannedDeploymentForm
@@ -56,7 +56,7 @@ def plan(request: HttpRequest) -> HttpResponse:
     )
 
 
-def _evaluation(request: HttpRequest, serial: str):
+def _evaluation(request: HttpRequest, serial: str) -> tuple[UnitEvaluation, dt.date]:
     unit = get_unit_for_user(request, serial)
     on = _today()
     loaded = fleet_queryset(Transponder.objects.filter(pk=unit.pk)).get()

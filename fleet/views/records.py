@@ -1,7 +1,7 @@
 from django.contrib import messages
 from django.core.exceptions import PermissionDenied, ValidationError
 from django.db.models import Model
-from django.http import HttpRequest, HttpResponse
+from django.http import HttpResponse
 from django.shortcuts import redirect, render
 from django.utils import timezone
 from django.views.decorators.http import require_http_methods
@@ -10,6 +10,7 @@ from fleet import roles
 from fleet.due.rules import rules_for
 from fleet.forms import AmendmentForm, CloseRecordForm, ServiceRecordForm, entry_formsets
 from fleet.models import ServiceRecord
+from fleet.models.records import Entry, amendable_field
 from fleet.selectors import record_amendments, record_sections
 from fleet.services.records import (
     amendable_fields,
@@ -23,10 +24,12 @@ from fleet.services.records import (
     service_record_save,
 )
 
-from .guards import get_record_for_user, get_unit_for_user
+from .guards import AuthenticatedRequest, get_record_for_user, get_unit_for_user
 
 
-def _edit(request: HttpRequest, record: ServiceRecord, template_title: str) -> HttpResponse:
+def _edit(
+    request: AuthenticatedRequest, record: ServiceRecord, template_title: str
+) -> HttpResponse:
     data = request.POST if request.method == "POST" else None
     files = request.FILES if request.method == "POST" else None
     form = ServiceRecordForm(data, instance=record, unit=record.unit)
@@ -80,7 +83,7 @@ def _edit(request: HttpRequest, record: ServiceRecord, template_title: str) -> H
 
 
 @require_http_methods(["GET", "POST"])
-def record_new(request: HttpRequest, serial: str) -> HttpResponse:
+def record_new(request: AuthenticatedRequest, serial: str) -> HttpResponse:
     unit = get_unit_for_user(request, serial, write=True)
     try:
         check_can_open_record(unit)
@@ -98,7 +101,7 @@ def record_new(request: HttpRequest, serial: str) -> HttpResponse:
 
 
 @require_http_methods(["GET", "POST"])
-def record_edit(request: HttpRequest, pk: int) -> HttpResponse:
+def record_edit(request: AuthenticatedRequest, pk: int) -> HttpResponse:
     record = get_record_for_user(request, pk, write=True)
     if record.is_closed:
         messages.error(request, "This record is closed. Correct it with an amendment.")
@@ -107,12 +110,12 @@ def record_edit(request: HttpRequest, pk: int) -> HttpResponse:
 
 
 def _target_label(target: Model) -> str:
-    if isinstance(target, ServiceRecord):
-        return "Record"
-    return f"{target.kind_label.capitalize()} #{target.pk}: {target}"  # type: ignore[attr-defined]
+    if isinstance(target, Entry):
+        return f"{target.kind_label.capitalize()} #{target.pk}: {target}"
+    return "Record"
 
 
-def record_detail(request: HttpRequest, pk: int) -> HttpResponse:
+def record_detail(request: AuthenticatedRequest, pk: int) -> HttpResponse:
     record = get_record_for_user(request, pk)
     sections = record_sections(record=record, rules=rules_for(record.unit.variant))
     empty = not any(entries for _, entries in sections)
@@ -134,7 +137,7 @@ def record_detail(request: HttpRequest, pk: int) -> HttpResponse:
 
 
 @require_http_methods(["POST"])
-def record_close(request: HttpRequest, pk: int) -> HttpResponse:
+def record_close(request: AuthenticatedRequest, pk: int) -> HttpResponse:
     record = get_record_for_user(request, pk, supervise=True)
     form = CloseRecordForm(request.POST)
     if not form.is_valid():
@@ -150,7 +153,7 @@ def record_close(request: HttpRequest, pk: int) -> HttpResponse:
 
 
 @require_http_methods(["POST"])
-def record_discard(request: HttpRequest, pk: int) -> HttpResponse:
+def record_discard(request: AuthenticatedRequest, pk: int) -> HttpResponse:
     record = get_record_for_user(request, pk, write=True)
     if not can_discard(record, request.user):
         raise PermissionDenied
@@ -165,7 +168,7 @@ def record_discard(request: HttpRequest, pk: int) -> HttpResponse:
 
 
 @require_http_methods(["GET", "POST"])
-def record_amend(request: HttpRequest, pk: int) -> HttpResponse:
+def record_amend(request: AuthenticatedRequest, pk: int) -> HttpResponse:
     record = get_record_for_user(request, pk, write=True)
     if not record.is_closed:
         return redirect("record-edit", pk=record.pk)
@@ -173,9 +176,9 @@ def record_amend(request: HttpRequest, pk: int) -> HttpResponse:
     choices = []
     for key, target in targets.items():
         for field_name in amendable_fields(target):
-            field = target._meta.get_field(field_name)
-            current = field.value_to_string(target)  # type: ignore[union-attr]
-            label = f"{_target_label(target)} — {field.verbose_name} (now: {current or 'empty'})"  # type: ignore[union-attr]
+            field = amendable_field(target, field_name)
+            current = field.value_to_string(target)
+            label = f"{_target_label(target)} — {field.verbose_name} (now: {current or 'empty'})"
             choices.append((f"{key}:{field_name}", label))
     form = AmendmentForm(request.POST or None, choices=choices)
     status = 200

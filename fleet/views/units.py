@@ -18,11 +18,11 @@ from fleet.models import Transponder
 from fleet.selectors import unit_page
 from fleet.tables import UnitTable, condition_badge
 
-from .guards import get_unit_for_user, require
+from .guards import AuthenticatedRequest, get_unit_for_user, require
 
 
 @require_http_methods(["POST"])
-def unit_photo_add(request: HttpRequest, serial: str) -> HttpResponse:
+def unit_photo_add(request: AuthenticatedRequest, serial: str) -> HttpResponse:
     unit = get_unit_for_user(request, serial, write=True)
     form = UnitPhotoForm(request.POST, request.FILES)
     if form.is_valid():

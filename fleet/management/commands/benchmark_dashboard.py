@@ -18,11 +18,14 @@ import datetime as dt
 import random
 import statistics
 import time
+from collections.abc import Callable
+from typing import Any
 
 from django.contrib.auth import get_user_model
 from django.contrib.auth.models import Group
-from django.core.management.base import BaseCommand, CommandError
+from django.core.management.base import BaseCommand, CommandError, CommandParser
 from django.db import connection, transaction
+from django.db.models import Model
 from django.test import Client
 from django.utils import timezone
 
@@ -55,7 +58,7 @@ RAW_SQL = (
 )
 
 
-def _median_seconds(fn, repeat: int) -> float:
+def _median_seconds(fn: Callable[[], object], repeat: int) -> float:
     times = []
     for _ in range(repeat):
         start = time.perf_counter()
@@ -67,13 +70,15 @@ def _median_seconds(fn, repeat: int) -> float:
 class Command(BaseCommand):
     help = "Build a synthetic fleet in an empty database and time the overview."
 
-    def add_arguments(self, parser):
+    def add_arguments(self, parser: CommandParser) -> None:
         parser.add_argument("--units", type=int, default=5000)
         parser.add_argument("--readings", type=int, default=1_000_000)
         parser.add_argument("--repeat", type=int, default=3)
         parser.add_argument("--seed", type=int, default=7)
 
-    def handle(self, *args, units: int, readings: int, repeat: int, seed: int, **options):
+    def handle(
+        self, *args: Any, units: int, readings: int, repeat: int, seed: int, **options: Any
+    ) -> None:
         if units < 1 or readings < 0 or repeat < 1:
             raise CommandError("units and repeat must be at least 1, readings at least 0")
         if Transponder.objects.exists():
@@ -90,7 +95,7 @@ class Command(BaseCommand):
         derived = time.perf_counter() - t0
         rows = sum(self._count(sql) for sql in RAW_SQL)
 
-        def raw():
+        def raw() -> None:
             with connection.cursor() as cursor:
                 for sql in RAW_SQL:
                     cursor.execute(sql)
@@ -98,13 +103,13 @@ class Command(BaseCommand):
 
         on = timezone.localdate(now)
 
-        def engine():
+        def engine() -> None:
             due_items(evaluate_fleet(on=on))
 
         client = Client(HTTP_HOST="localhost")
         client.force_login(get_user_model().objects.get(username="bench-viewer"))
 
-        def page():
+        def page() -> None:
             response = client.get("/")
             if response.status_code != 200:
                 raise CommandError(f"the overview answered {response.status_code}")
@@ -221,7 +226,7 @@ class Command(BaseCommand):
         ):
             by_unit.setdefault(record.unit_id, []).append(record)
         batch: list[AnodeReading] = []
-        others: dict[type, list] = {}
+        others: dict[type[Model], list[Model]] = {}
         for unit in units:
             unit_records = by_unit[unit.pk]
             rate = rng.uniform(0.05, 0.3)  # g per visit
@@ -303,4 +308,4 @@ class Command(BaseCommand):
             )
         AnodeReading.objects.bulk_create(batch)
         for model, rows in others.items():
-            model.objects.bulk_create(rows, batch_size=5000)
+            model._default_manager.bulk_create(rows, batch_size=5000)

@@ -3,7 +3,9 @@ tests) and its stored due items from the records. The write services keep both c
 run this after a bulk import, a restore or a change of the settings' rules, or to prove
 nothing differs (``--check``: exits non-zero on any difference)."""
 
-from django.core.management.base import BaseCommand, CommandError
+from typing import Any
+
+from django.core.management.base import BaseCommand, CommandError, CommandParser
 from django.utils import timezone
 
 from fleet.due.snapshot import differences, state_snapshot
@@ -13,14 +15,14 @@ from fleet.due.store import rebuild_all
 class Command(BaseCommand):
     help = "Recompute derived maintenance state from the records."
 
-    def add_arguments(self, parser):
+    def add_arguments(self, parser: CommandParser) -> None:
         parser.add_argument(
             "--check",
             action="store_true",
             help="Rebuild inside a transaction that is rolled back, and fail if anything differs.",
         )
 
-    def handle(self, *args, check: bool = False, **options):
+    def handle(self, *args: Any, check: bool = False, **options: Any) -> None:
         from django.db import transaction
 
         at = timezone.now()

@@ -99,7 +99,7 @@ def ensure_logins() -> DemoLogins:
 def _has_own_password(user: AbstractUser) -> bool:
     # Hashing is slow on purpose: one check per existing sign-in user.
     if user.username in EXTRA_TECHNICIANS:
-        return user.has_usable_password()
+        return bool(user.has_usable_password())
     return not user.check_password(DEMO_PASSWORD)
 
 

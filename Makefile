@@ -3,9 +3,10 @@ PYTHON ?= python3
 VENV ?= .venv
 BIN := $(VENV)/bin
 PORT ?= 8000
+WORKERS ?= 3
 STAMP := $(VENV)/.installed-stamp
 
-.PHONY: demo test install lint format migrations-check clean
+.PHONY: demo serve test install lint format migrations-check deploy-check clean
 
 $(BIN)/python:
 	$(PYTHON) -m venv $(VENV)
@@ -26,6 +27,15 @@ demo: install
 	@echo ""
 	DEBUG=true $(BIN)/python manage.py runserver 127.0.0.1:$(PORT)
 
+# Serve it for real: DEBUG off, gunicorn on loopback behind your TLS proxy. Needs SECRET_KEY
+# (a long random string) in the environment; see README "Running it for real".
+serve: install
+	@test -n "$$SECRET_KEY" || { echo "make serve: set SECRET_KEY in the environment (a long random string)"; exit 1; }
+	DEBUG=false $(BIN)/python manage.py migrate --noinput
+	DEBUG=false $(BIN)/python manage.py collectstatic --noinput
+	DEBUG=false $(BIN)/gunicorn fleet.wsgi:application --bind 127.0.0.1:$(PORT) \
+		--workers $(WORKERS) --access-logfile - --forwarded-allow-ips 127.0.0.1
+
 lint: install
 	$(BIN)/ruff check .
 	$(BIN)/ruff format --check .
@@ -38,8 +48,14 @@ format: install
 migrations-check: install
 	SECRET_KEY=migrations-check $(BIN)/python manage.py makemigrations --check --dry-run
 
-test: lint migrations-check
+# Django's deployment checks with production-like settings; any warning fails.
+deploy-check: install
+	DEBUG=false HTTPS=true ALLOWED_HOSTS=example.invalid \
+		SECRET_KEY=deploy-check-$$($(BIN)/python -c "import secrets; print(secrets.token_urlsafe(48))") \
+		$(BIN)/python manage.py check --deploy --fail-level WARNING
+
+test: lint migrations-check deploy-check
 	$(BIN)/pytest
 
 clean:
-	rm -rf $(VENV) db.sqlite3 db.sqlite3-* test-db*.sqlite3*
+	rm -rf $(VENV) db.sqlite3 db.sqlite3-* test-db*.sqlite3* staticfiles

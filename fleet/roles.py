@@ -8,6 +8,7 @@ A superuser counts as a supervisor. A logged-in user in no group sees nothing bu
 """
 
 from django.contrib.auth.models import AbstractUser, AnonymousUser, Group, Permission
+from django.db.models import Q
 
 TECHNICIAN = "technician"
 SUPERVISOR = "supervisor"
@@ -49,7 +50,16 @@ def ensure_groups() -> None:
     for name in ROLES:
         Group.objects.get_or_create(name=name)
     supervisor = Group.objects.get(name=SUPERVISOR)
-    supervisor.permissions.set(Permission.objects.filter(content_type__app_label="fleet"))
+    # Supervisors also see and clear sign-in locks (django-axes' access attempts).
+    supervisor.permissions.set(
+        Permission.objects.filter(
+            Q(content_type__app_label="fleet")
+            | Q(
+                content_type__app_label="axes",
+                codename__in=["view_accessattempt", "delete_accessattempt"],
+            )
+        )
+    )
     viewer = Group.objects.get(name=VIEWER)
     viewer.permissions.set(
         Permission.objects.filter(content_type__app_label="fleet", codename__startswith="view_")

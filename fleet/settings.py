@@ -4,12 +4,14 @@ Zero configuration gives a working local setup (a SQLite file in the project fol
 value that matters in production comes from an environment variable listed in README.md.
 """
 
+import datetime as dt
 import os
 from pathlib import Path
 from typing import Any
 
 import dj_database_url
 import django_stubs_ext
+from csp.constants import NONE, SELF
 from django.core.exceptions import ImproperlyConfigured
 
 # Lets classes such as ModelForm and ModelAdmin take the type arguments the stubs give them.
@@ -77,11 +79,15 @@ INSTALLED_APPS = [
     "django.contrib.staticfiles",
     "django_tables2",
     "django_filters",
+    "csp",
+    # Before fleet: its permissions exist when fleet's post-migrate hook gives them to supervisors.
+    "axes",
     "fleet",
 ]
 
 MIDDLEWARE = [
     "django.middleware.security.SecurityMiddleware",
+    "whitenoise.middleware.WhiteNoiseMiddleware",
     "django.contrib.sessions.middleware.SessionMiddleware",
     "django.middleware.common.CommonMiddleware",
     "django.middleware.csrf.CsrfViewMiddleware",
@@ -89,6 +95,15 @@ MIDDLEWARE = [
     "django.contrib.auth.middleware.LoginRequiredMiddleware",
     "django.contrib.messages.middleware.MessageMiddleware",
     "django.middleware.clickjacking.XFrameOptionsMiddleware",
+    "fleet.security.PageCSPMiddleware",
+    # Last, as axes asks: it turns a locked-out sign-in into the lockout page.
+    "axes.middleware.AxesMiddleware",
+]
+
+# The first backend refuses a locked-out user before the second checks the password.
+AUTHENTICATION_BACKENDS = [
+    "axes.backends.AxesStandaloneBackend",
+    "django.contrib.auth.backends.ModelBackend",
 ]
 
 ROOT_URLCONF = "fleet.urls"
@@ -158,6 +173,13 @@ USE_TZ = True
 STATIC_URL = "static/"
 STATICFILES_DIRS = [BASE_DIR / "static"]
 STATIC_ROOT = BASE_DIR / "staticfiles"
+# WhiteNoise serves the collected files with hashed names, compressed, cached for ever. The
+# manifest exists only after collectstatic (make serve runs it); the test suite switches back to
+# plain names (tests/conftest.py) and DEBUG uses plain names anyway.
+STORAGES = {
+    "default": {"BACKEND": "django.core.files.storage.FileSystemStorage"},
+    "staticfiles": {"BACKEND": "whitenoise.storage.CompressedManifestStaticFilesStorage"},
+}
 MEDIA_URL = "media/"
 MEDIA_ROOT = Path(os.environ.get("MEDIA_ROOT", str(BASE_DIR / "media")))
 
@@ -166,10 +188,62 @@ FILE_UPLOAD_MAX_MEMORY_SIZE = 10 * 1024 * 1024
 DATA_UPLOAD_MAX_MEMORY_SIZE = 12 * 1024 * 1024
 PHOTO_MAX_BYTES = env_int("PHOTO_MAX_BYTES", 12 * 1024 * 1024, minimum=1024)
 
-SESSION_COOKIE_HTTPONLY = True
-SESSION_COOKIE_SECURE = env_bool("SECURE_COOKIES", False)
+# HTTPS: one switch for a site served over TLS, normally by a proxy in front of gunicorn.
+# It turns on the redirect to https, HSTS and secure cookies, and (unless
+# TRUST_X_FORWARDED_PROTO=false, for a server that terminates TLS itself) trusts the proxy's
+# X-Forwarded-Proto header, so that addresses the site prints (the verification link on a
+# certificate) start with https://. Only trust that header when the proxy sets it on every
+# request and no client can reach the app server directly.
+HTTPS = env_bool("HTTPS", False)
+if env_bool("TRUST_X_FORWARDED_PROTO", HTTPS):
+    SECURE_PROXY_SSL_HEADER = ("HTTP_X_FORWARDED_PROTO", "https")
+SECURE_SSL_REDIRECT = HTTPS
+SECURE_HSTS_SECONDS = env_int("HSTS_SECONDS", 365 * 24 * 3600, minimum=0) if HTTPS else 0
+SECURE_HSTS_INCLUDE_SUBDOMAINS = HTTPS
+# Preloading is a promise the domain's owner makes to browser makers, not this app's choice:
+# the header never asks for it, and the deploy check's reminder (W021) is silenced.
+SECURE_HSTS_PRELOAD = False
+SILENCED_SYSTEM_CHECKS = ["security.W021"]
+SESSION_COOKIE_SECURE = env_bool("SECURE_COOKIES", HTTPS)
 CSRF_COOKIE_SECURE = SESSION_COOKIE_SECURE
+SESSION_COOKIE_HTTPONLY = True
+# A workshop shift, not two weeks: a tablet left signed in on the bench signs itself out.
+SESSION_COOKIE_AGE = env_int("SESSION_HOURS", 12, minimum=1) * 3600
 X_FRAME_OPTIONS = "DENY"
+
+# Content-Security-Policy (django-csp 4): everything from this site only, no inline script or
+# style (templates link holdfast.css; charts are <img> of SVG files), no plugins, no framing.
+# PDFs go without it (fleet.security.PageCSPMiddleware): Chrome's PDF viewer breaks under it.
+CONTENT_SECURITY_POLICY = {
+    "DIRECTIVES": {
+        "default-src": [SELF],
+        "script-src": [SELF],
+        "style-src": [SELF],
+        "img-src": [SELF],
+        "font-src": [SELF],
+        "connect-src": [SELF],
+        "object-src": [NONE],
+        "base-uri": [NONE],
+        "form-action": [SELF],
+        "frame-ancestors": [NONE],
+        **({"upgrade-insecure-requests": True} if HTTPS else {}),
+    },
+}
+
+# Sign-in throttling (django-axes): after LOGIN_FAILURE_LIMIT failed sign-ins for one user
+# name, or from one address, that user name or address is refused for LOGIN_COOLOFF_MINUTES
+# (each further failure during the lock restarts it); a supervisor can clear the lock in the
+# admin (Access attempts). A right password resets the count for that user and address.
+AXES_FAILURE_LIMIT = env_int("LOGIN_FAILURE_LIMIT", 5, minimum=1)
+AXES_COOLOFF_TIME = dt.timedelta(minutes=env_int("LOGIN_COOLOFF_MINUTES", 15, minimum=1))
+AXES_LOCKOUT_PARAMETERS = ["username", "ip_address"]  # each on its own, not the pair
+AXES_RESET_ON_SUCCESS = True
+AXES_LOCKOUT_CALLABLE = "fleet.views.signin.lockout_response"
+AXES_CLIENT_IP_CALLABLE = "fleet.security.client_ip"
+# Behind N proxies that each append to X-Forwarded-For, the client is the Nth address from
+# the right; 0 (no proxy) uses the connection's own address. Without it, every sign-in
+# behind a proxy comes "from" the proxy, and one user's typos would lock out everybody.
+TRUSTED_PROXY_COUNT = env_int("TRUSTED_PROXY_COUNT", 0, minimum=0)
 
 DJANGO_TABLES2_TEMPLATE = "django_tables2/table.html"
 

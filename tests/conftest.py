@@ -86,3 +86,15 @@ def _fast_password_hashing(request):
         return
     settings = request.getfixturevalue("settings")
     settings.PASSWORD_HASHERS = ["django.contrib.auth.hashers.MD5PasswordHasher"]
+
+
+@pytest.fixture(autouse=True)
+def _plain_static_names(request):
+    # Production serves hashed names from collectstatic's manifest; the suite runs without it.
+    if not request.config.pluginmanager.hasplugin("django"):
+        return
+    settings = request.getfixturevalue("settings")
+    settings.STORAGES = {
+        **settings.STORAGES,
+        "staticfiles": {"BACKEND": "django.contrib.staticfiles.storage.StaticFilesStorage"},
+    }

@@ -13,6 +13,7 @@ The names below are what the management command and the tests use.
 """
 
 from fleet.demo.loading import (
+    DemoLogins,
     LoadSummary,
     delete_demo,
     demo_loaded,
@@ -37,6 +38,7 @@ __all__ = [
     "EXTRA_TECHNICIANS",
     "LOGINS",
     "ROSTER",
+    "DemoLogins",
     "LoadSummary",
     "UnitPlan",
     "delete_demo",

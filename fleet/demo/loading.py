@@ -59,33 +59,59 @@ def demo_loaded() -> bool:
     return Variant.objects.filter(name__in=DEMO_VARIANT_NAMES).exists()
 
 
-def ensure_logins() -> dict[str, User]:
-    """The demo users, in their groups, with the demo password (set only when it differs)."""
+@dataclass(frozen=True, slots=True)
+class DemoLogins:
+    """The demo users, which of them this run created, and which keep a password of their own."""
+
+    users: dict[str, User]
+    created: tuple[str, ...]
+    own_password: tuple[str, ...]
+
+
+def ensure_logins() -> DemoLogins:
+    """The demo users in their groups. Only a user created here gets a password.
+
+    A missing sign-in user is created with the published demo password, a missing extra
+    technician with none (it appears in records only). An existing user's password is never
+    touched: one that no longer matches what the demo would give it is listed in
+    ``own_password`` so that the command can say so.
+    """
     roles.ensure_groups()
     user_model = get_user_model()
     groups = {g.name: g for g in Group.objects.filter(name__in=roles.ROLES)}
     users: dict[str, User] = {}
+    created_names: list[str] = []
+    own_password: list[str] = []
     wanted = [*LOGINS, *((name, roles.TECHNICIAN, False) for name in EXTRA_TECHNICIANS)]
     for username, group, staff in wanted:
         user, created = user_model.objects.get_or_create(username=username)
+        if created:
+            created_names.append(username)
+        elif _has_own_password(user):
+            own_password.append(username)
         _sync_login(user, staff=staff, created=created)
         if list(user.groups.values_list("name", flat=True)) != [group]:
             user.groups.set([groups[group]])
         users[username] = user
-    return users
+    return DemoLogins(users=users, created=tuple(created_names), own_password=tuple(own_password))
+
+
+def _has_own_password(user: User) -> bool:
+    # Hashing is slow on purpose: one check per existing sign-in user.
+    if user.username in EXTRA_TECHNICIANS:
+        return bool(user.has_usable_password())
+    return not user.check_password(DEMO_PASSWORD)
 
 
 def _sync_login(user: User, *, staff: bool, created: bool) -> None:
-    """Flags and password as the demo wants them; saves only when something differs."""
+    """Flags as the demo wants them, and a password for a new user only; saves on a change."""
     changed = user.is_staff != staff or user.is_superuser or not user.is_active
     user.is_staff, user.is_superuser, user.is_active = staff, False, True
-    if user.username in EXTRA_TECHNICIANS:
-        if user.has_usable_password():
+    if created:
+        if user.username in EXTRA_TECHNICIANS:
             user.set_unusable_password()
-            changed = True
-    # Hashing is slow on purpose: check an existing password only, set a new one once.
-    elif created or not user.check_password(DEMO_PASSWORD):
-        user.set_password(DEMO_PASSWORD)
+        else:
+            user.set_password(DEMO_PASSWORD)
         changed = True
     if changed:
         user.save()
@@ -225,12 +251,14 @@ class LoadSummary:
     open_records: int
     entries: int
     conditions: dict[str, int]
+    own_password: tuple[str, ...]
 
 
 @transaction.atomic
 def load_demo(*, today: dt.date) -> LoadSummary:
     """Create the demo fleet. The caller checks ``demo_loaded()`` first."""
-    rows = _fleet_rows(ensure_logins())
+    logins = ensure_logins()
+    rows = _fleet_rows(logins.users)
     entries = 0
     for plan in plan_fleet(today):
         entries += write_unit(plan, rows)
@@ -251,6 +279,7 @@ def load_demo(*, today: dt.date) -> LoadSummary:
         open_records=records.filter(closed_at__isnull=True).count(),
         entries=entries,
         conditions=dict(sorted(conditions.items())),
+        own_password=logins.own_password,
     )
 
 

@@ -54,7 +54,8 @@ def not_before_1980(value: dt.date | dt.datetime | None) -> None:
 
 def latest_entry_date() -> dt.date:
     """The last date any typed date may take: today plus the planning horizon."""
-    return timezone.localdate() + dt.timedelta(days=PLANNING_HORIZON_DAYS)
+    today: dt.date = timezone.localdate()
+    return today + dt.timedelta(days=PLANNING_HORIZON_DAYS)
 
 
 def not_beyond_horizon(value: dt.date | dt.datetime | None) -> None:

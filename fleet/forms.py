@@ -8,6 +8,7 @@ from typing import Any, cast
 from django import forms
 from django.contrib.auth import get_user_model
 from django.contrib.auth.models import User
+from django.core.exceptions import ValidationError
 from django.core.files.uploadedfile import UploadedFile
 from django.db.models import Model, Q, QuerySet
 from django.forms import BaseForm, BaseInlineFormSet, inlineformset_factory
@@ -33,6 +34,7 @@ from .models import (
     Variant,
 )
 from .models.records import Entry, entry_kinds
+from .models.validators import DATE_VALIDATORS, REASON_MAX_CHARS, SUMMARY_MAX_CHARS
 from .photos import clean_photo
 from .selectors import previous_anode_mass
 from .services.deployments import deploy_refusal
@@ -69,6 +71,19 @@ def _choice(form: BaseForm, name: str) -> forms.ChoiceField:
     return cast(forms.ChoiceField, form.fields[name])
 
 
+def bound_dates(form: forms.BaseForm) -> None:
+    """Hold every date and date-time the form takes to 1980 … today + the planning horizon.
+
+    A form field parses "0001-01-01" or "9999-12-31T23:59" without complaint; shifting such a
+    value to UTC or querying with it overflows. Refusing it here, as a field error, keeps it
+    away from the model's ``clean()`` and the database; the model's own validators and
+    ``clean()`` then apply their stricter limits (no future visit, no future test).
+    """
+    for field in form.fields.values():
+        if isinstance(field, forms.DateField | forms.DateTimeField):
+            field.validators = [*field.validators, *DATE_VALIDATORS]
+
+
 def _technicians() -> QuerySet[User]:
     return (
         get_user_model()
@@ -100,6 +115,7 @@ class ServiceRecordForm(forms.ModelForm[ServiceRecord]):
 
     def __init__(self, *args: Any, unit: Transponder, **kwargs: Any) -> None:
         super().__init__(*args, **kwargs)
+        bound_dates(self)
         self.instance.unit = unit
         _model_choice(self, "technician").queryset = _technicians()
         _model_choice(self, "place").queryset = Place.objects.all()
@@ -137,6 +153,7 @@ class EntryForm(forms.ModelForm[Entry]):
 
     def __init__(self, *args: Any, record: ServiceRecord | None = None, **kwargs: Any) -> None:
         super().__init__(*args, **kwargs)
+        bound_dates(self)
         if record is not None:
             self.instance.record = record
             if isinstance(self.instance, BatteryInstall):
@@ -367,6 +384,49 @@ def entry_formsets(
     return formsets
 
 
+_YES = frozenset({"yes", "y", "true", "1", "on"})
+_NO = frozenset({"no", "n", "false", "0", "off"})
+
+
+def amendment_form_field(target: Model, field_name: str) -> forms.Field:
+    """The form field the record's or entry's own form uses for ``field_name``: the same
+    parsing, localisation, time zone, choices, length and date limits as at entry."""
+    form: forms.BaseForm
+    if isinstance(target, ServiceRecord):
+        form = ServiceRecordForm(instance=target, unit=target.unit)
+    elif isinstance(target, Entry):
+        form = entry_forms()[type(target)](instance=target, record=target.record)
+    else:
+        raise ValidationError({"field_name": f"{field_name} cannot be amended."})
+    if field_name not in form.fields:
+        raise ValidationError({"field_name": f"{field_name} cannot be amended."})
+    return form.fields[field_name]
+
+
+def parse_amendment_value(target: Model, field_name: str, raw: str) -> object:
+    """The typed correction ``raw`` as the entry form would have cleaned it, or a
+    ``ValidationError`` on ``corrected_value`` with the form's message.
+
+    A checkbox cannot be typed, so a yes/no field takes yes or no (true/false, 1/0) and then
+    goes through the same form field. A naive date-time is read in the workshop's time zone,
+    as the entry form reads it, and kept in UTC like every stored time.
+    """
+    field = amendment_form_field(target, field_name)
+    text = raw.strip()
+    value: object = text
+    if isinstance(field, forms.BooleanField):
+        if text.lower() not in _YES | _NO:
+            raise ValidationError({"corrected_value": "Enter yes or no."})
+        value = text.lower() in _YES
+    try:
+        cleaned = field.clean(value)
+    except ValidationError as exc:
+        raise ValidationError({"corrected_value": exc.messages}) from exc
+    if isinstance(cleaned, dt.datetime):
+        cleaned = cleaned.astimezone(dt.UTC)  # inside the date bounds: no overflow
+    return cleaned
+
+
 class CloseRecordForm(forms.Form):
     confirm = forms.BooleanField(
         label="I have checked every entry; close the record. Later corrections become amendments."
@@ -375,8 +435,9 @@ class CloseRecordForm(forms.Form):
 
 class AmendmentForm(forms.Form):
     target_field = forms.ChoiceField(label="Value to correct")
-    corrected_value = forms.CharField(max_length=200)
-    reason = forms.CharField(widget=forms.Textarea(attrs={"rows": 2}))
+    # Typed as text here; parsed with the entry form's own field (``parse_amendment_value``).
+    corrected_value = forms.CharField(max_length=SUMMARY_MAX_CHARS, required=False)
+    reason = forms.CharField(max_length=REASON_MAX_CHARS, widget=forms.Textarea(attrs={"rows": 2}))
 
     def __init__(self, *args: Any, choices: list[tuple[str, str]], **kwargs: Any) -> None:
         super().__init__(*args, **kwargs)
@@ -399,6 +460,7 @@ class DeploymentForm(forms.ModelForm[Deployment]):
 
     def __init__(self, *args: Any, **kwargs: Any) -> None:
         super().__init__(*args, **kwargs)
+        bound_dates(self)
         units = Transponder.objects.select_related("variant").order_by("serial")
         _model_choice(self, "unit").queryset = units
 
@@ -430,6 +492,10 @@ class RecoveryForm(forms.Form):
         label="Replies counted on recovery", required=False, min_value=0, max_value=100_000_000
     )
     place = forms.ModelChoiceField(queryset=Place.objects.all(), required=False, label="Now at")
+
+    def __init__(self, *args: Any, **kwargs: Any) -> None:
+        super().__init__(*args, **kwargs)
+        bound_dates(self)
 
 
 class SiteForm(forms.ModelForm[Site]):

@@ -3,9 +3,11 @@
 from django.conf import settings
 from django.contrib.contenttypes.fields import GenericForeignKey
 from django.contrib.contenttypes.models import ContentType
+from django.core.validators import MaxLengthValidator
 from django.db import models
 
 from .records import ServiceRecord
+from .validators import REASON_MAX_CHARS
 
 
 class Amendment(models.Model):
@@ -16,7 +18,9 @@ class Amendment(models.Model):
     field_name = models.CharField(max_length=60)
     original_value = models.TextField(blank=True)
     corrected_value = models.TextField(blank=True)
-    reason = models.TextField()
+    reason = models.TextField(
+        max_length=REASON_MAX_CHARS, validators=[MaxLengthValidator(REASON_MAX_CHARS)]
+    )
     created_by = models.ForeignKey(
         settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+"
     )

@@ -2,22 +2,22 @@
 
 from django.conf import settings
 from django.core.exceptions import ValidationError
-from django.core.validators import MaxValueValidator, MinValueValidator
+from django.core.validators import MaxLengthValidator, MaxValueValidator, MinValueValidator
 from django.db import models
 from django.db.models import Q
 from django.utils import timezone
 
 from .places import Site
 from .units import Transponder, check_power_step
-from .validators import not_before_1980
+from .validators import DATE_VALIDATORS, SUMMARY_MAX_CHARS, within_date_bounds
 
 
 class Deployment(models.Model):
     unit = models.ForeignKey(Transponder, on_delete=models.PROTECT, related_name="deployments")
     site = models.ForeignKey(Site, on_delete=models.PROTECT, related_name="deployments")
-    over_side_at = models.DateTimeField("over the side", validators=[not_before_1980])
+    over_side_at = models.DateTimeField("over the side", validators=[*DATE_VALIDATORS])
     recovered_at = models.DateTimeField(
-        "recovered", null=True, blank=True, validators=[not_before_1980]
+        "recovered", null=True, blank=True, validators=[*DATE_VALIDATORS]
     )
     # Days, interrogations a day and power step feed calc.battery.charge_used_ah (listen
     # hours and replies from 0 up) through the due engine and readiness.
@@ -33,14 +33,23 @@ class Deployment(models.Model):
     transmit_power_step = models.PositiveSmallIntegerField(
         validators=[MinValueValidator(1), MaxValueValidator(9)]
     )
-    notes = models.TextField(blank=True)
+    notes = models.TextField(
+        blank=True,
+        max_length=SUMMARY_MAX_CHARS,
+        validators=[MaxLengthValidator(SUMMARY_MAX_CHARS)],
+    )
     created_by = models.ForeignKey(
         settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+", null=True
     )
     created_at = models.DateTimeField(auto_now_add=True)
     # A supervisor may deploy a unit whose readiness failed, with a written reason; the failing
     # checks are kept as they read at that moment, one "name: numbers" per line.
-    override_reason = models.TextField("deployed against a failed check because", blank=True)
+    override_reason = models.TextField(
+        "deployed against a failed check because",
+        blank=True,
+        max_length=SUMMARY_MAX_CHARS,
+        validators=[MaxLengthValidator(SUMMARY_MAX_CHARS)],
+    )
     override_by = models.ForeignKey(
         settings.AUTH_USER_MODEL,
         on_delete=models.PROTECT,
@@ -98,6 +107,12 @@ class Deployment(models.Model):
                 errors.update({k: v[0] for k, v in exc.message_dict.items()})
         if errors:
             raise ValidationError(errors)
+        if not (within_date_bounds(self.over_side_at) and within_date_bounds(self.recovered_at)):
+            return  # the field validators say why; such a date cannot be shifted or queried
+        self._check_overlap()
+
+    def _check_overlap(self) -> None:
+        """A unit is in one place at a time: no two of its deployments overlap."""
         if self.unit_id and self.over_side_at:
             end = self.recovered_at
             others = Deployment.objects.filter(unit_id=self.unit_id).exclude(pk=self.pk)

@@ -10,10 +10,12 @@ that the issuing transaction locks.
 import secrets
 
 from django.conf import settings
+from django.core.validators import MaxLengthValidator
 from django.db import models
 from django.db.models import Q
 
 from .records import ReleaseTest
+from .validators import REASON_MAX_CHARS
 
 
 def new_verification_code() -> str:
@@ -69,7 +71,11 @@ class ReleaseCertificate(models.Model):
     superseded_by = models.ForeignKey(
         "self", on_delete=models.PROTECT, null=True, blank=True, related_name="+"
     )
-    status_reason = models.TextField(blank=True)
+    status_reason = models.TextField(
+        blank=True,
+        max_length=REASON_MAX_CHARS,
+        validators=[MaxLengthValidator(REASON_MAX_CHARS)],
+    )
     status_changed_at = models.DateTimeField(null=True, blank=True)
     status_changed_by = models.ForeignKey(
         settings.AUTH_USER_MODEL, on_delete=models.PROTECT, null=True, blank=True, related_name="+"

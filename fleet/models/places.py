@@ -1,10 +1,10 @@
 """Places where units are kept (workshop, store, vessel) and sites where they are deployed."""
 
-from django.core.validators import MaxValueValidator, MinValueValidator
+from django.core.validators import MaxLengthValidator, MaxValueValidator, MinValueValidator
 from django.db import models
 from django.urls import reverse
 
-from .validators import finite
+from .validators import SUMMARY_MAX_CHARS, finite, range_checks
 
 
 class Place(models.Model):
@@ -63,10 +63,16 @@ class Site(models.Model):
         help_text="The warmest surface water expected; empty: the workshop's default. "
         "Recovery buoyancy is judged where the water is least dense.",
     )
-    notes = models.TextField(blank=True)
+    notes = models.TextField(
+        blank=True,
+        max_length=SUMMARY_MAX_CHARS,
+        validators=[MaxLengthValidator(SUMMARY_MAX_CHARS)],
+    )
 
     class Meta:
         ordering = ["name"]
+
+    Meta.constraints = range_checks(locals())
 
     def __str__(self) -> str:
         return self.name

@@ -7,13 +7,15 @@ engine reads them from here.
 """
 
 import datetime as dt
+import functools
 import math
+import operator
 from typing import Any, ClassVar, Self, cast
 
 from django.apps import apps
 from django.conf import settings
 from django.core.exceptions import ValidationError
-from django.core.validators import MaxValueValidator, MinValueValidator
+from django.core.validators import MaxLengthValidator, MaxValueValidator, MinValueValidator
 from django.db import models
 from django.db.models import Q, QuerySet
 from django.template.defaultfilters import floatformat
@@ -25,7 +27,12 @@ from fleet.calc.seawater import pressure_dbar
 
 from .places import Place
 from .units import Transponder
-from .validators import finite, not_before_1980
+from .validators import (
+    DATE_VALIDATORS,
+    SUMMARY_MAX_CHARS,
+    finite,
+    range_checks,
+)
 from .variants import AnodePosition, Chemistry, Elastomer, SealPosition
 
 
@@ -40,13 +47,17 @@ def _not_future_date(value: dt.date | None, field: str, errors: dict[str, str]) 
 
 class ServiceRecord(models.Model):
     unit = models.ForeignKey(Transponder, on_delete=models.PROTECT, related_name="service_records")
-    opened_at = models.DateTimeField("opened", validators=[not_before_1980])
+    opened_at = models.DateTimeField("opened", validators=[*DATE_VALIDATORS])
     closed_at = models.DateTimeField("closed", null=True, blank=True)
     technician = models.ForeignKey(
         settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="records_worked"
     )
     place = models.ForeignKey(Place, on_delete=models.PROTECT, related_name="service_records")
-    summary = models.TextField(blank=True)
+    summary = models.TextField(
+        blank=True,
+        max_length=SUMMARY_MAX_CHARS,
+        validators=[MaxLengthValidator(SUMMARY_MAX_CHARS)],
+    )
 
     created_by = models.ForeignKey(
         settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+"
@@ -189,9 +200,13 @@ class AnodeReading(Entry):
     )
     position = models.ForeignKey(AnodePosition, on_delete=models.PROTECT, related_name="readings")
     # Mass and remaining percent feed calc.anodes.WearSums.add (mass_kg >= 0); the upper
-    # bound of the mass is the position's new net mass, checked in clean().
+    # bound of the mass is the position's new net mass, checked in clean(); the field's own
+    # bound is the heaviest new anode a position may declare (AnodePosition.new_net_mass_g).
     mass_g = models.FloatField(
-        "net mass (g)", null=True, blank=True, validators=[finite, MinValueValidator(0.0)]
+        "net mass (g)",
+        null=True,
+        blank=True,
+        validators=[finite, MinValueValidator(0.0), MaxValueValidator(100000.0)],
     )
     remaining_percent = models.FloatField(
         "estimated remaining (%)",
@@ -219,6 +234,8 @@ class AnodeReading(Entry):
 
     class Meta:
         ordering = ["position__name"]
+
+    Meta.constraints = range_checks(locals())
 
     def __str__(self) -> str:
         return f"{self.position.name}: {self.describe()}"
@@ -276,7 +293,7 @@ class SealChange(Entry):
     material = models.CharField(max_length=8, choices=Elastomer.choices)
     cure_date = models.DateField(
         "cure date",
-        validators=[not_before_1980],
+        validators=[*DATE_VALIDATORS],
         help_text="From the packet; the first day of the cure quarter if only that.",
     )
     lot = models.CharField(max_length=40, blank=True)
@@ -326,9 +343,11 @@ class BatteryInstall(Entry):
         "rated capacity (Ah)",
         validators=[finite, MinValueValidator(0.01), MaxValueValidator(1000.0)],
     )
-    made_on = models.DateField("pack made on", validators=[not_before_1980])
-    installed_on = models.DateField("installed on", validators=[not_before_1980])
-    removed_on = models.DateField("removed on", null=True, blank=True, validators=[not_before_1980])
+    made_on = models.DateField("pack made on", validators=[*DATE_VALIDATORS])
+    installed_on = models.DateField("installed on", validators=[*DATE_VALIDATORS])
+    removed_on = models.DateField(
+        "removed on", null=True, blank=True, validators=[*DATE_VALIDATORS]
+    )
     ocv_install_v = models.FloatField(
         "open-circuit volts at install",
         validators=[finite, MinValueValidator(0.0), MaxValueValidator(300.0)],
@@ -364,6 +383,8 @@ class BatteryInstall(Entry):
                 violation_error_message="This unit already has a fitted battery pack.",
             ),
         ]
+
+    Meta.constraints = [*Meta.constraints, *range_checks(locals())]
 
     def __str__(self) -> str:
         return f"pack {self.pack_serial} ({self.get_chemistry_display()})"
@@ -407,7 +428,7 @@ class PressureTest(Entry):
     record = models.ForeignKey(
         ServiceRecord, on_delete=models.CASCADE, related_name="pressure_tests"
     )
-    tested_on = models.DateField(validators=[not_before_1980])
+    tested_on = models.DateField(validators=[*DATE_VALIDATORS])
     # Every number here lies inside calc.pressure.evaluate_hold's domain: pressures 0 to
     # 12000 dbar (calc.seawater.MAX_PRESSURE_DBAR), a hold above 0 min, water -2.5 to 40 °C.
     # The test pressure is compared with calc.pressure.required_test_pressure_dbar, which is
@@ -463,6 +484,8 @@ class PressureTest(Entry):
 
     class Meta:
         ordering = ["-tested_on"]
+
+    Meta.constraints = range_checks(locals())
 
     def __str__(self) -> str:
         return f"pressure test {self.test_pressure_dbar:g} dbar on {self.tested_on}"
@@ -528,7 +551,7 @@ class ReleaseTest(Entry):
     record = models.ForeignKey(
         ServiceRecord, on_delete=models.CASCADE, related_name="release_tests"
     )
-    tested_on = models.DateField(validators=[not_before_1980])
+    tested_on = models.DateField(validators=[*DATE_VALIDATORS])
     kind = models.CharField(max_length=8, choices=Kind.choices)
     # Physical ranges for a transponder's release (common practice, no published source):
     # a load test hangs at most a few tonnes on the hook (5000 kg); a motorised release opens
@@ -568,6 +591,8 @@ class ReleaseTest(Entry):
     class Meta:
         ordering = ["-tested_on"]
 
+    Meta.constraints = range_checks(locals())
+
     def __str__(self) -> str:
         return f"{self.get_kind_display()} release test on {self.tested_on}"
 
@@ -586,6 +611,35 @@ class ReleaseTest(Entry):
             raise ValidationError(errors)
 
 
+# What a sensor check may read, per sensor, in its unit: °C, dbar (calc.seawater's
+# MAX_PRESSURE_DBAR) and degrees of tilt.
+SENSOR_RANGES: dict[str, tuple[float, float]] = {
+    "temperature": (-5.0, 50.0),
+    "pressure": (0.0, 12000.0),
+    "tilt": (-90.0, 90.0),
+}
+
+
+def _sensor_range_check() -> models.CheckConstraint:
+    """Both values of a sensor check inside their sensor's range (NaN is above every number in
+    PostgreSQL and NULL in SQLite, so both refuse it)."""
+    per_sensor = [
+        Q(
+            sensor=sensor,
+            reference_value__gte=lo,
+            reference_value__lte=hi,
+            unit_reading__gte=lo,
+            unit_reading__lte=hi,
+        )
+        for sensor, (lo, hi) in SENSOR_RANGES.items()
+    ]
+    return models.CheckConstraint(
+        condition=functools.reduce(operator.or_, per_sensor),
+        name="sensorcheck_values_in_sensor_range",
+        violation_error_message="The values lie outside the range of this sensor.",
+    )
+
+
 class SensorCheck(Entry):
     class Sensor(models.TextChoices):
         TEMPERATURE = "temperature", "Temperature (°C)"
@@ -595,10 +649,10 @@ class SensorCheck(Entry):
     record = models.ForeignKey(
         ServiceRecord, on_delete=models.CASCADE, related_name="sensor_checks"
     )
-    checked_on = models.DateField(validators=[not_before_1980])
+    checked_on = models.DateField(validators=[*DATE_VALIDATORS])
     sensor = models.CharField(max_length=12, choices=Sensor.choices)
-    # Ranges per sensor in clean(); a temperature reference feeds calc.rtd.tolerance_c, whose
-    # narrowest wire-wound class (AA) covers -50 to 250 °C.
+    # Ranges per sensor (SENSOR_RANGES) in clean() and in a CHECK; a temperature reference
+    # feeds calc.rtd.tolerance_c, whose narrowest wire-wound class (AA) covers -50 to 250 °C.
     reference_value = models.FloatField(
         validators=[finite],
         help_text="Reference instrument's value in the sensor's unit (°C, dbar or degrees).",
@@ -631,6 +685,8 @@ class SensorCheck(Entry):
     class Meta:
         ordering = ["-checked_on", "sensor"]
 
+    Meta.constraints = [*range_checks(locals()), _sensor_range_check()]
+
     def __str__(self) -> str:
         return f"{self.get_sensor_display()} check on {self.checked_on}"
 
@@ -650,13 +706,8 @@ class SensorCheck(Entry):
         _not_future_date(self.checked_on, "checked_on", errors)
         if self.raw_resistance_ohm is not None and self.sensor != self.Sensor.TEMPERATURE:
             errors["raw_resistance_ohm"] = "Raw resistance applies to temperature checks only."
-        ranges: dict[str, tuple[float, float]] = {
-            self.Sensor.TEMPERATURE: (-5.0, 50.0),
-            self.Sensor.PRESSURE: (0.0, 12000.0),
-            self.Sensor.TILT: (-90.0, 90.0),
-        }
-        if self.sensor in ranges:
-            lo, hi = ranges[self.sensor]
+        if self.sensor in SENSOR_RANGES:
+            lo, hi = SENSOR_RANGES[self.sensor]
             for field in ("reference_value", "unit_reading"):
                 value = getattr(self, field)
                 if value is not None and not lo <= value <= hi:
@@ -669,8 +720,8 @@ class HousingOpening(Entry):
     record = models.ForeignKey(
         ServiceRecord, on_delete=models.CASCADE, related_name="housing_openings"
     )
-    opened_at = models.DateTimeField("opened", validators=[not_before_1980])
-    closed_at = models.DateTimeField("closed", null=True, blank=True, validators=[not_before_1980])
+    opened_at = models.DateTimeField("opened", validators=[*DATE_VALIDATORS])
+    closed_at = models.DateTimeField("closed", null=True, blank=True, validators=[*DATE_VALIDATORS])
     vented_before_opening = models.BooleanField("vented before opening", default=False)
     internal_pressure_found = models.BooleanField("internal pressure or gas found", default=False)
     reason = models.CharField(max_length=200)

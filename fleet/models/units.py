@@ -2,13 +2,18 @@
 
 from django.conf import settings
 from django.core.exceptions import ValidationError
-from django.core.validators import MaxValueValidator, MinValueValidator, RegexValidator
+from django.core.validators import (
+    MaxLengthValidator,
+    MaxValueValidator,
+    MinValueValidator,
+    RegexValidator,
+)
 from django.db import models
 from django.db.models import Q
 from django.urls import reverse
 
 from .places import Place
-from .validators import finite
+from .validators import REASON_MAX_CHARS, SUMMARY_MAX_CHARS, finite
 from .variants import Variant
 
 serial_validator = RegexValidator(
@@ -31,7 +36,12 @@ class Transponder(models.Model):
     serial = models.CharField(max_length=31, unique=True, validators=[serial_validator])
     variant = models.ForeignKey(Variant, on_delete=models.PROTECT, related_name="units")
     hold = models.CharField(max_length=12, choices=UnitHold.choices, default=UnitHold.NONE)
-    hold_reason = models.TextField(blank=True, help_text="Required when the unit is held.")
+    hold_reason = models.TextField(
+        blank=True,
+        max_length=REASON_MAX_CHARS,
+        validators=[MaxLengthValidator(REASON_MAX_CHARS)],
+        help_text="Required when the unit is held.",
+    )
     hold_set_by = models.ForeignKey(
         settings.AUTH_USER_MODEL,
         on_delete=models.PROTECT,
@@ -57,7 +67,11 @@ class Transponder(models.Model):
     transmit_power_step = models.PositiveSmallIntegerField(
         default=1, validators=[MinValueValidator(1), MaxValueValidator(9)]
     )
-    notes = models.TextField(blank=True)
+    notes = models.TextField(
+        blank=True,
+        max_length=SUMMARY_MAX_CHARS,
+        validators=[MaxLengthValidator(SUMMARY_MAX_CHARS)],
+    )
     created_at = models.DateTimeField(auto_now_add=True)
     updated_at = models.DateTimeField(auto_now=True)
     version = models.PositiveIntegerField(default=1, editable=False)

@@ -7,12 +7,12 @@ sets. Intervals left empty fall back to the defaults in ``settings.HOLDFAST``.
 
 from django.conf import settings
 from django.core.exceptions import ValidationError
-from django.core.validators import MaxValueValidator, MinValueValidator
+from django.core.validators import MaxLengthValidator, MaxValueValidator, MinValueValidator
 from django.db import models
 
 from fleet.calc.seawater import MAX_PRESSURE_DBAR, pressure_dbar
 
-from .validators import finite
+from .validators import SUMMARY_MAX_CHARS, finite, range_checks
 
 
 class HousingAlloy(models.TextChoices):
@@ -73,7 +73,11 @@ def _validate_chemistry_list(value: object) -> None:
 
 class Variant(models.Model):
     name = models.CharField(max_length=80, unique=True)
-    description = models.TextField(blank=True)
+    description = models.TextField(
+        blank=True,
+        max_length=SUMMARY_MAX_CHARS,
+        validators=[MaxLengthValidator(SUMMARY_MAX_CHARS)],
+    )
     # Inside calc.seawater.pressure_dbar (0..11000 m) as fed to
     # calc.pressure.required_test_pressure_dbar; clean() keeps the proof pressure inside
     # calc.pressure.evaluate_hold's 12000 dbar.
@@ -172,6 +176,8 @@ class Variant(models.Model):
 
     class Meta:
         ordering = ["name"]
+
+    Meta.constraints = range_checks(locals())
 
     def __str__(self) -> str:
         return self.name
@@ -331,7 +337,11 @@ class SealPosition(models.Model):
     def size_label(self) -> str:
         if self.as568_dash:
             return f"AS568-{self.as568_dash}"
-        return f"{self.iso_inner_diameter_mm:g} × {self.iso_cross_section_mm:g} mm"
+        d1, d2 = self.iso_inner_diameter_mm, self.iso_cross_section_mm
+        if d1 is None or d2 is None:
+            # Shown while the admin reports the missing size (clean() says what to give).
+            return "size not given"
+        return f"{d1:g} × {d2:g} mm"
 
     def clean(self) -> None:
         super().clean()

@@ -12,6 +12,7 @@ from django.utils import timezone
 
 from fleet import roles
 from fleet.due.store import refresh_unit
+from fleet.forms import parse_amendment_value
 from fleet.models import Amendment, BatteryInstall, Deployment, ServiceRecord, Transponder, UnitHold
 from fleet.models.records import Entry, amendable_field, entry_kinds
 
@@ -237,16 +238,7 @@ def amendment_create(
 
     field = amendable_field(target, field_name)
     original = field.value_to_string(target)
-    raw = corrected_value.strip()
-    try:
-        value = field.to_python(raw) if raw != "" else None
-    except ValidationError as exc:
-        raise ValidationError({"corrected_value": exc.messages}) from exc
-    if value is None and not field.null:
-        if field.get_internal_type() in ("CharField", "TextField"):
-            value = ""
-        else:
-            raise ValidationError({"corrected_value": "This value cannot be empty."})
+    value = parse_amendment_value(target, field_name, corrected_value)
     setattr(target, field_name, value)
     try:
         target.full_clean()

@@ -16,6 +16,7 @@ from .models import (
     BatteryInstall,
     Deployment,
     HousingOpening,
+    PackRemoval,
     Place,
     PressureTest,
     ReleaseTest,
@@ -88,7 +89,7 @@ class ServiceRecordForm(forms.ModelForm):
         self.instance.unit = unit
         self.fields["technician"].queryset = _technicians()
         self.fields["place"].queryset = Place.objects.all()
-        self.fitted_pack = BatteryInstall.objects.filter(unit=unit, removed_on__isnull=True).first()
+        self.fitted_pack = BatteryInstall.objects.filter(unit=unit, removal__isnull=True).first()
         if self.fitted_pack is None:
             del self.fields["remove_pack_on"]
             del self.fields["removed_pack_ocv_v"]
@@ -228,14 +229,8 @@ class BatteryInstallForm(EntryForm):
             "made_on",
             "installed_on",
             "ocv_install_v",
-            "removed_on",
-            "ocv_removal_v",
         ]
-        widgets = {
-            "made_on": DateInput(),
-            "installed_on": DateInput(),
-            "removed_on": DateInput(),
-        }
+        widgets = {"made_on": DateInput(), "installed_on": DateInput()}
 
 
 class PressureTestForm(EntryForm):
@@ -289,6 +284,26 @@ class HousingOpeningForm(EntryForm):
             "reason",
         ]
         widgets = {"opened_at": DateTimeInput(), "closed_at": DateTimeInput()}
+
+
+class PackRemovalForm(EntryForm):
+    class Meta:
+        model = PackRemoval
+        fields = ["install", "removed_on", "ocv_removal_v"]
+        widgets = {"removed_on": DateInput()}
+
+    def __init__(
+        self, *args: object, record: ServiceRecord | None = None, **kwargs: object
+    ) -> None:
+        super().__init__(*args, record=record, **kwargs)
+        if record is not None and record.unit_id:
+            # The unit's packs still fitted, and the one this row already removes.
+            fitted = Q(removal__isnull=True)
+            if self.instance.pk is not None:
+                fitted |= Q(pk=self.instance.install_id)
+            self.fields["install"].queryset = BatteryInstall.objects.filter(
+                fitted, unit_id=record.unit_id
+            )
 
 
 class EntryFormSet(BaseInlineFormSet):
@@ -348,12 +363,16 @@ def entry_formsets(
 
 
 class CloseRecordForm(forms.Form):
+    # The record version the supervisor reviewed: a change since then refuses the close.
+    version = forms.IntegerField(widget=forms.HiddenInput, min_value=0)
     confirm = forms.BooleanField(
         label="I have checked every entry; close the record. Later corrections become amendments."
     )
 
 
 class AmendmentForm(forms.Form):
+    # The record version the form was built from: a change since then refuses the amendment.
+    version = forms.IntegerField(widget=forms.HiddenInput, min_value=0)
     target_field = forms.ChoiceField(label="Value to correct")
     corrected_value = forms.CharField(max_length=200)
     reason = forms.CharField(widget=forms.Textarea(attrs={"rows": 2}))

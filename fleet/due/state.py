@@ -143,7 +143,7 @@ def refresh_unit_state(unit: Transponder, *, at: dt.datetime) -> UnitState:
 
     # Battery
     steps = {s.step: s.charge_per_reply_as for s in variant.reply_steps.all()}
-    pack = BatteryInstall.objects.filter(unit=unit, removed_on__isnull=True).first()
+    pack = BatteryInstall.objects.filter(unit=unit, removal__isnull=True).first()
     pack_charge = 0.0
     pack_releases = 0
     if pack is not None:

@@ -93,11 +93,12 @@ def _flush_through_the_purge_door() -> None:
     records included. On SQLite the closed-record triggers refuse that unless the purge marker
     is set (``fleet.integrity``); PostgreSQL's flush is a TRUNCATE, which row triggers do not
     see."""
-    from django.db.backends.sqlite3.operations import DatabaseOperations
+    from django.db.backends.sqlite3.base import DatabaseWrapper
 
     from fleet.integrity import MARKER_TABLE, PURGING
 
-    original = DatabaseOperations.execute_sql_flush
+    operations = DatabaseWrapper.ops_class
+    original = operations.execute_sql_flush
     if getattr(original, "_through_purge", False):
         return
 
@@ -109,7 +110,7 @@ def _flush_through_the_purge_door() -> None:
         return original(self, [marker, *sql_list, clear])
 
     execute_sql_flush._through_purge = True
-    DatabaseOperations.execute_sql_flush = execute_sql_flush
+    operations.execute_sql_flush = execute_sql_flush
 
 
 def pytest_configure(config):

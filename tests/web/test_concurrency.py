@@ -6,8 +6,10 @@ import threading
 
 import pytest
 from django.core.exceptions import ValidationError
-from django.db import connection
+from django.db import connection, transaction
+from django.utils import timezone
 
+from fleet.due.store import refresh_unit
 from fleet.models import AnodeReading, AnodeState, ReleaseCertificate, ServiceRecord
 from fleet.services.certificates import certificate_issue
 from fleet.services.records import amendment_create, service_record_close, service_record_save
@@ -194,3 +196,17 @@ def test_two_bench_visit_saves_on_one_unit_at_once_both_land(unit, technician):
     assert ServiceRecord.objects.get(pk=record.pk).version == record.version + 2
     # The derived state is whole: one row per anode position, nothing duplicated.
     assert AnodeState.objects.filter(unit=unit).count() == len(positions)
+
+
+def test_two_refreshes_of_one_unit_at_once_take_turns(unit, technician):
+    # Two writers recomputing one unit's derived state in their own transactions: without
+    # refresh_unit's unit-row lock, PostgreSQL refuses the second insert (uniq_anode_state).
+    position = unit.variant.anode_positions.first()
+    bench_visit(unit, technician, AnodeReading(position=position, mass_g=390.0))
+
+    def work(i):
+        with transaction.atomic():
+            refresh_unit(unit, at=timezone.now())
+
+    assert _race(work, workers=4) == []
+    assert AnodeState.objects.filter(unit=unit).count() == unit.variant.anode_positions.count()

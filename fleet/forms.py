@@ -22,6 +22,7 @@ from .models import (
     BatteryInstall,
     Deployment,
     HousingOpening,
+    PackRemoval,
     Place,
     PressureTest,
     ReleaseTest,
@@ -119,7 +120,7 @@ class ServiceRecordForm(forms.ModelForm[ServiceRecord]):
         self.instance.unit = unit
         _model_choice(self, "technician").queryset = _technicians()
         _model_choice(self, "place").queryset = Place.objects.all()
-        self.fitted_pack = BatteryInstall.objects.filter(unit=unit, removed_on__isnull=True).first()
+        self.fitted_pack = BatteryInstall.objects.filter(unit=unit, removal__isnull=True).first()
         if self.fitted_pack is None:
             del self.fields["remove_pack_on"]
             del self.fields["removed_pack_ocv_v"]
@@ -256,14 +257,8 @@ class BatteryInstallForm(EntryForm):
             "made_on",
             "installed_on",
             "ocv_install_v",
-            "removed_on",
-            "ocv_removal_v",
         ]
-        widgets = {
-            "made_on": DateInput(),
-            "installed_on": DateInput(),
-            "removed_on": DateInput(),
-        }
+        widgets = {"made_on": DateInput(), "installed_on": DateInput()}
 
 
 class PressureTestForm(EntryForm):
@@ -317,6 +312,25 @@ class HousingOpeningForm(EntryForm):
             "reason",
         ]
         widgets = {"opened_at": DateTimeInput(), "closed_at": DateTimeInput()}
+
+
+class PackRemovalForm(EntryForm):
+    class Meta:
+        model = PackRemoval
+        fields = ["install", "removed_on", "ocv_removal_v"]
+        widgets = {"removed_on": DateInput()}
+
+    def __init__(self, *args: Any, record: ServiceRecord | None = None, **kwargs: Any) -> None:
+        super().__init__(*args, record=record, **kwargs)
+        if record is not None and record.unit_id:
+            # The unit's packs still fitted, and the one this row already removes.
+            fitted = Q(removal__isnull=True)
+            removal = self.instance
+            if isinstance(removal, PackRemoval) and removal.pk is not None:
+                fitted |= Q(pk=removal.install_id)
+            _model_choice(self, "install").queryset = BatteryInstall.objects.filter(
+                fitted, unit_id=record.unit_id
+            )
 
 
 class EntryFormSet(BaseInlineFormSet[Entry, ServiceRecord, EntryForm]):
@@ -428,12 +442,16 @@ def parse_amendment_value(target: Model, field_name: str, raw: str) -> object:
 
 
 class CloseRecordForm(forms.Form):
+    # The record version the supervisor reviewed: a change since then refuses the close.
+    version = forms.IntegerField(widget=forms.HiddenInput, min_value=0)
     confirm = forms.BooleanField(
         label="I have checked every entry; close the record. Later corrections become amendments."
     )
 
 
 class AmendmentForm(forms.Form):
+    # The record version the form was built from: a change since then refuses the amendment.
+    version = forms.IntegerField(widget=forms.HiddenInput, min_value=0)
     target_field = forms.ChoiceField(label="Value to correct")
     # Typed as text here; parsed with the entry form's own field (``parse_amendment_value``).
     corrected_value = forms.CharField(max_length=SUMMARY_MAX_CHARS, required=False)

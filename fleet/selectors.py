@@ -110,7 +110,7 @@ def last_seal_changes(*, unit: Transponder) -> dict[int, SealChange]:
 
 def fitted_pack(*, unit: Transponder) -> BatteryInstall | None:
     """The pack in the unit now (installed, not removed). One query."""
-    return BatteryInstall.objects.filter(unit=unit, removed_on__isnull=True).first()
+    return BatteryInstall.objects.filter(unit=unit, removal__isnull=True).first()
 
 
 HistoryEntry = tuple[str, dt.datetime, ServiceRecord | Deployment, list[tuple[str, str]]]

@@ -103,10 +103,11 @@ def test_it_gives_the_last_seal_change_at_each_position(unit, story, django_asse
 def test_it_loads_records_with_every_entry_in_a_fixed_number_of_queries(
     unit, story, django_assert_num_queries
 ):
-    # Expect 9 queries: the records with technician, place and closer; then one prefetch each
+    # Expect 10 queries: the records with technician, place and closer; then one prefetch each
     # for anode readings (with position), seal changes (with position), battery installs,
-    # pressure tests, release tests, sensor checks, housing openings and amendments.
-    with django_assert_num_queries(9):
+    # pressure tests, release tests, sensor checks, housing openings, pack removals and
+    # amendments.
+    with django_assert_num_queries(10):
         records = unit_records(unit=unit)
     assert sorted(r.pk for r in records) == sorted(r.pk for r in story["records"])
     # Expect 0 queries: everything the history list shows is already loaded.
@@ -164,10 +165,10 @@ def test_the_unit_page_reads_in_a_fixed_number_of_queries(
 ):
     anode1, anode2 = story["anodes"]
     seal1, seal2 = story["seals"]
-    # Expect 15 queries: anode positions, seal positions, last anode readings, last seal
-    # changes, fitted pack, records (1 + 8 prefetches, see above), deployments.
+    # Expect 16 queries: anode positions, seal positions, last anode readings, last seal
+    # changes, fitted pack, records (1 + 9 prefetches, see above), deployments.
     unit = loaded(unit)
-    with django_assert_num_queries(15):
+    with django_assert_num_queries(16):
         page = unit_page(unit=unit, rules=rules_for(unit.variant))
     assert [(p.pk, r.mass_g if r else None) for p, r in page.anodes] == [
         (anode1.pk, 380.0),
@@ -187,7 +188,7 @@ def test_the_unit_page_reads_in_a_fixed_number_of_queries(
     )
     visit(unit, technician, t(2026, 6, 25, 9), AnodeReading(position=anode2, mass_g=385.0))
     unit = loaded(unit)
-    with django_assert_num_queries(15):
+    with django_assert_num_queries(16):
         assert len(unit_page(unit=unit, rules=rules_for(unit.variant)).history) == 5
 
 
@@ -205,8 +206,8 @@ def test_a_unit_with_no_records_reads_in_seven_queries(unit, django_assert_num_q
 def test_the_record_sections_come_in_page_order(unit, story, supervisor, django_assert_num_queries):
     first = story["records"][0]
     rules = rules_for(first.unit.variant)  # the view reads the variant for its rules first
-    # Expect 7 queries: one per entry kind.
-    with django_assert_num_queries(7):
+    # Expect 8 queries: one per entry kind.
+    with django_assert_num_queries(8):
         sections = record_sections(record=first, rules=rules)
     assert [(title, len(entries)) for title, entries in sections] == [
         ("Anode readings", 2),
@@ -216,6 +217,7 @@ def test_the_record_sections_come_in_page_order(unit, story, supervisor, django_
         ("Release tests", 0),
         ("Sensor checks", 0),
         ("Housing openings", 0),
+        ("Pack removals", 0),
     ]
 
 

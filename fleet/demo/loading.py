@@ -37,6 +37,7 @@ from fleet.demo.scenario import (
 )
 from fleet.demo.simulation import FleetRows, plan_fleet, write_unit
 from fleet.due.condition import annotate_condition
+from fleet.integrity import purging
 from fleet.models import (
     Amendment,
     AnodePosition,
@@ -295,7 +296,9 @@ def delete_demo() -> list[str]:
     ).order_by("issued_at", "pk"):
         certificate.delete()
     Amendment.objects.filter(record__unit__in=units).delete()
-    ServiceRecord.objects.filter(unit__in=units).delete()  # entries cascade with their record
+    # Closed records are guarded in the database; removing the demo's own is the one purge.
+    with purging():
+        ServiceRecord.objects.filter(unit__in=units).delete()  # entries cascade with the record
     Deployment.objects.filter(unit__in=units).delete()
     units.delete()
     Variant.objects.filter(name__in=DEMO_VARIANT_NAMES).delete()

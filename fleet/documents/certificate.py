@@ -111,6 +111,8 @@ def status_note(cert: ReleaseCertificate) -> str:
         return f"SUPERSEDED by {newer} on {when}. Do not rely on this copy."
     if cert.status == ReleaseCertificate.Status.WITHDRAWN:
         return f"WITHDRAWN on {when}. Do not rely on this copy."
+    if cert.status == ReleaseCertificate.Status.NOT_VALID:
+        return f"NOT VALID since {when}: the release test was amended. Do not rely on this copy."
     return ""
 
 

@@ -129,7 +129,7 @@ def prepare_checklist(
     """Everything the checklist states for ``planned``, prepared at ``at``."""
     readiness = readiness_for(unit, planned, on=timezone.localdate(at))
     site, start, days = planned.site, planned.start, planned.days
-    pack = BatteryInstall.objects.filter(unit=unit, removed_on__isnull=True).first()
+    pack = BatteryInstall.objects.filter(unit=unit, removal__isnull=True).first()
     verdict = readiness.verdict
     in_water = (
         Deployment.objects.filter(unit=unit, recovered_at__isnull=True)

@@ -141,7 +141,7 @@ def _pack_tally(
     recovered deployments since it went in."""
     variant = unit.variant
     steps = {s.step: s.charge_per_reply_as for s in variant.reply_steps.all()}
-    pack = BatteryInstall.objects.filter(unit=unit, removed_on__isnull=True).first()
+    pack = BatteryInstall.objects.filter(unit=unit, removal__isnull=True).first()
     pack_charge = 0.0
     pack_releases = 0
     if pack is not None:

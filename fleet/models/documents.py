@@ -14,6 +14,7 @@ from django.core.validators import MaxLengthValidator
 from django.db import models
 from django.db.models import Q
 
+from .audit import Amendment
 from .records import ReleaseTest
 from .validators import REASON_MAX_CHARS
 
@@ -38,6 +39,10 @@ class ReleaseCertificate(models.Model):
         ISSUED = "issued", "Issued"
         SUPERSEDED = "superseded", "Superseded"
         WITHDRAWN = "withdrawn", "Withdrawn"
+        # The release test (or its record) was amended after issue: the paper no longer
+        # certifies what the record says, until a new certificate supersedes it or it is
+        # withdrawn.
+        NOT_VALID = "not_valid", "Not valid: test amended"
 
     number = models.CharField(max_length=16, unique=True, editable=False)
     year = models.PositiveSmallIntegerField(editable=False)
@@ -80,6 +85,14 @@ class ReleaseCertificate(models.Model):
     status_changed_by = models.ForeignKey(
         settings.AUTH_USER_MODEL, on_delete=models.PROTECT, null=True, blank=True, related_name="+"
     )
+    invalidated_by = models.ForeignKey(
+        Amendment,
+        on_delete=models.PROTECT,
+        null=True,
+        blank=True,
+        related_name="invalidated_certificates",
+        help_text="The amendment that made this certificate not valid.",
+    )
 
     class Meta:
         ordering = ["-year", "-sequence"]
@@ -98,6 +111,12 @@ class ReleaseCertificate(models.Model):
     @property
     def is_current(self) -> bool:
         return self.status == self.Status.ISSUED
+
+    @property
+    def is_replaceable(self) -> bool:
+        """Issued, or made not valid by an amendment: a new certificate supersedes it and a
+        supervisor may withdraw it."""
+        return self.status in (self.Status.ISSUED, self.Status.NOT_VALID)
 
     @property
     def test_amended_since_issue(self) -> bool:

@@ -345,17 +345,8 @@ class BatteryInstall(Entry):
     )
     made_on = models.DateField("pack made on", validators=[*DATE_VALIDATORS])
     installed_on = models.DateField("installed on", validators=[*DATE_VALIDATORS])
-    removed_on = models.DateField(
-        "removed on", null=True, blank=True, validators=[*DATE_VALIDATORS]
-    )
     ocv_install_v = models.FloatField(
         "open-circuit volts at install",
-        validators=[finite, MinValueValidator(0.0), MaxValueValidator(300.0)],
-    )
-    ocv_removal_v = models.FloatField(
-        "open-circuit volts at removal",
-        null=True,
-        blank=True,
         validators=[finite, MinValueValidator(0.0), MaxValueValidator(300.0)],
     )
 
@@ -372,19 +363,12 @@ class BatteryInstall(Entry):
         "ocv_install_v",
     )
     dated_by = "installed_on"
+    list_select_related = ("removal",)
 
     class Meta:
         ordering = ["-installed_on"]
-        constraints = [
-            models.UniqueConstraint(
-                fields=["unit"],
-                condition=Q(removed_on__isnull=True),
-                name="one_fitted_pack_per_unit",
-                violation_error_message="This unit already has a fitted battery pack.",
-            ),
-        ]
 
-    Meta.constraints = [*Meta.constraints, *range_checks(locals())]
+    Meta.constraints = range_checks(locals())
 
     def __str__(self) -> str:
         return f"pack {self.pack_serial} ({self.get_chemistry_display()})"
@@ -395,17 +379,37 @@ class BatteryInstall(Entry):
             line += f", removed {self.removed_on:%Y-%m-%d}"
         return line
 
+    def _removal(self) -> "PackRemoval | None":
+        if self.pk is None:
+            return None
+        try:
+            return self.removal
+        except PackRemoval.DoesNotExist:
+            return None
+
+    # A pack's removal is an entry of the visit that took it out (``PackRemoval``), never an
+    # edit of the (possibly closed) record that fitted it; these read it back.
+    @property
+    def removed_on(self) -> dt.date | None:
+        removal = self._removal()
+        return removal.removed_on if removal is not None else None
+
+    @property
+    def ocv_removal_v(self) -> float | None:
+        removal = self._removal()
+        return removal.ocv_removal_v if removal is not None else None
+
+    @property
+    def is_fitted(self) -> bool:
+        return self._removal() is None
+
     def clean(self) -> None:
         super().clean()
         errors: dict[str, str] = {}
-        for field in ("made_on", "installed_on", "removed_on"):
+        for field in ("made_on", "installed_on"):
             _not_future_date(getattr(self, field), field, errors)
         if self.made_on and self.installed_on and self.installed_on < self.made_on:
             errors["installed_on"] = "A pack cannot be installed before it was made."
-        if self.removed_on and self.installed_on and self.removed_on < self.installed_on:
-            errors["removed_on"] = "Removal must be on or after the install date."
-        if self.ocv_removal_v is not None and self.removed_on is None:
-            errors["ocv_removal_v"] = "Record removal volts with a removal date."
         if self.nominal_voltage_v and self.ocv_install_v is not None:
             top = 1.3 * self.nominal_voltage_v
             if self.ocv_install_v > top:
@@ -768,6 +772,67 @@ def amendable_field(
     record's summary): always a concrete field, which ``get_field`` cannot promise in
     general (it also returns relations)."""
     return cast("models.Field[Any, Any]", target._meta.get_field(field_name))
+
+
+class PackRemoval(Entry):
+    """A battery pack taken out during this visit. The pack's install stays as it was written in
+    its own (often closed) record; the fitted pack is the one no removal points at."""
+
+    record = models.ForeignKey(
+        ServiceRecord, on_delete=models.CASCADE, related_name="pack_removals"
+    )
+    install = models.OneToOneField(
+        BatteryInstall,
+        on_delete=models.CASCADE,
+        related_name="removal",
+        verbose_name="pack",
+        help_text="The pack taken out (fitted at this or an earlier visit).",
+    )
+    removed_on = models.DateField("removed on", validators=[*DATE_VALIDATORS])
+    ocv_removal_v = models.FloatField(
+        "open-circuit volts at removal",
+        null=True,
+        blank=True,
+        validators=[finite, MinValueValidator(0.0), MaxValueValidator(300.0)],
+    )
+
+    kind_label = "pack removal"
+    bench_prefix = "packremovals"
+    bench_extra = 0
+    bench_title = "Pack removed"
+    amendable_fields = ("removed_on", "ocv_removal_v")
+    list_select_related = ("install",)
+    dated_by = "removed_on"
+
+    class Meta:
+        ordering = ["-removed_on"]
+
+    Meta.constraints = range_checks(locals())
+
+    def __str__(self) -> str:
+        line = f"pack {self.install.pack_serial} removed on {self.removed_on}"
+        if self.ocv_removal_v is not None:
+            line += f" at {self.ocv_removal_v:g} V"
+        return line
+
+    def describe(self) -> str:
+        return f"Battery {self.install.pack_serial} removed {self.removed_on:%Y-%m-%d}"
+
+    def clean(self) -> None:
+        super().clean()
+        errors: dict[str, str] = {}
+        _not_future_date(self.removed_on, "removed_on", errors)
+        if self.install_id and self.removed_on and self.removed_on < self.install.installed_on:
+            errors["removed_on"] = (
+                "Removal must be on or after the install date. Pack "
+                f"{self.install.pack_serial} went in on {self.install.installed_on}."
+            )
+        record = self.owning_record()
+        if self.install_id and record is not None and record.unit_id:
+            if self.install.unit_id != record.unit_id:
+                errors["install"] = "This pack was fitted to another unit."
+        if errors:
+            raise ValidationError(errors)
 
 
 def entry_kinds() -> tuple[type[Entry], ...]:

@@ -99,6 +99,26 @@ class Transponder(models.Model):
             raise ValidationError({"hold_reason": "Say why the unit is held."})
         if self.variant_id and self.transmit_power_step:
             check_power_step(self.variant, self.transmit_power_step, "transmit_power_step")
+        refusal = self.variant_change_refusal()
+        if refusal:
+            raise ValidationError({"variant": refusal})
+
+    def variant_change_refusal(self) -> str:
+        """Why the variant cannot change ("" when it can): the history's anode and seal
+        positions belong to the variant the unit had when they were written."""
+        if self.pk is None or not self.variant_id:
+            return ""
+        stored = Transponder.objects.filter(pk=self.pk).values_list("variant_id", flat=True).first()
+        if stored is None or stored == self.variant_id:
+            return ""
+        if not (self.service_records.exists() or self.deployments.exists()):
+            return ""
+        return (
+            f"{self.serial} already has bench visits or deployments, so its variant cannot "
+            "change: their anode and seal positions belong to the variant they were recorded "
+            "on. Holdfast has no tool that maps a history's positions to another variant; "
+            "keep the variant, or register the rebuilt unit under a new serial."
+        )
 
 
 def check_power_step(variant: Variant, step: int, field: str) -> None:

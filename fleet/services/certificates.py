@@ -1,6 +1,7 @@
 """Writes for release-test certificates. Each is one transaction, called by views and tests.
 
-Locking: issuing locks the release test's row first, so two supervisors issuing for the same
+Locking: like every write service, each locks the unit row first; issuing then locks the
+release test's row, so two supervisors issuing for the same
 test run one after the other (the second supersedes the first, never two current
 certificates); withdrawing locks the certificate's row.
 
@@ -11,15 +12,23 @@ constraints on (year, sequence) and on the number are the backstop.
 """
 
 import datetime as dt
+from typing import Any
 
 from django.contrib.auth.models import User
 from django.core.exceptions import ValidationError
 from django.db import transaction
+from django.db.models import QuerySet
 from django.utils import timezone
 
 from fleet.due.acceptance import release_test_failures, release_valid_to
 from fleet.due.rules import rules_for
-from fleet.models import CertificateCounter, ReleaseCertificate, ReleaseTest
+from fleet.models import CertificateCounter, ReleaseCertificate, ReleaseTest, Transponder
+
+
+def _lock_unit_of(rows: QuerySet[Any], unit_path: str) -> None:
+    """Lock the unit row the certificate work is about, before anything else."""
+    unit_id = rows.values_list(unit_path, flat=True).get()
+    list(Transponder.objects.select_for_update().filter(pk=unit_id).values_list("pk"))
 
 
 def _next_number(year: int) -> tuple[int, str]:
@@ -36,8 +45,9 @@ def certificate_issue(
     """Issue a certificate for a passing release test on a closed record.
 
     A failing test gets no certificate: the refusal names the failures. A new certificate for
-    a test that already has one supersedes the old one.
+    a test that already has one (current, or made not valid by an amendment) supersedes it.
     """
+    _lock_unit_of(ReleaseTest.objects.filter(pk=release_test.pk), "record__unit_id")
     # Lock only the test's own row (``of``): the joined record, unit and variant are read, not
     # changed.
     test = (
@@ -62,7 +72,8 @@ def certificate_issue(
         )
     previous = list(
         ReleaseCertificate.objects.select_for_update().filter(
-            release_test=test, status=ReleaseCertificate.Status.ISSUED
+            release_test=test,
+            status__in=(ReleaseCertificate.Status.ISSUED, ReleaseCertificate.Status.NOT_VALID),
         )
     )
     for old in previous:
@@ -105,10 +116,14 @@ def certificate_issue(
 def certificate_withdraw(
     *, certificate: ReleaseCertificate, reason: str, by: User, at: dt.datetime
 ) -> ReleaseCertificate:
+    _lock_unit_of(
+        ReleaseCertificate.objects.filter(pk=certificate.pk), "release_test__record__unit_id"
+    )
     current = ReleaseCertificate.objects.select_for_update().get(pk=certificate.pk)
-    if current.status != ReleaseCertificate.Status.ISSUED:
+    if not current.is_replaceable:
         raise ValidationError(
-            "Only a current certificate can be withdrawn; this one is %(status)s.",
+            "Only a current certificate, or one an amendment made not valid, can be withdrawn; "
+            "this one is %(status)s.",
             params={"status": current.get_status_display().lower()},
             code="not_current",
         )

@@ -1,19 +1,37 @@
-"""Writes that touch a service record and its entries. Each one is a single transaction."""
+"""Writes that touch a service record and its entries. Each one is a single transaction.
+
+Every write here locks the unit row first (``select_for_update``), then the record, then
+reads again what it will change and writes only the fields that changed (``update_fields``):
+two writers to one unit take turns and neither loses the other's work. Edits a stale page
+could overwrite (the bench-visit form, closing, an amendment) carry the record's version and
+are refused, naming who changed the record and when, if it moved on.
+"""
 
 import datetime as dt
 from collections.abc import Iterable, Sequence
 
 from django.contrib.auth.models import User
 from django.contrib.contenttypes.models import ContentType
-from django.core.exceptions import ValidationError
+from django.core.exceptions import PermissionDenied, ValidationError
 from django.db import transaction
-from django.db.models import Model
+from django.db.models import Model, Q, QuerySet
 from django.utils import timezone
 
 from fleet import roles
 from fleet.due.store import refresh_unit
 from fleet.forms import parse_amendment_value
-from fleet.models import Amendment, BatteryInstall, Deployment, ServiceRecord, Transponder, UnitHold
+from fleet.integrity import amending
+from fleet.models import (
+    Amendment,
+    BatteryInstall,
+    Deployment,
+    PackRemoval,
+    ReleaseCertificate,
+    ReleaseTest,
+    ServiceRecord,
+    Transponder,
+    UnitHold,
+)
 from fleet.models.records import Entry, amendable_field, entry_kinds
 
 # The record's own field an amendment may correct; each entry kind lists its own
@@ -30,8 +48,51 @@ def amendable_fields(target: Model) -> tuple[str, ...]:
     return ()
 
 
-def _lock(record: ServiceRecord) -> ServiceRecord:
-    return ServiceRecord.objects.select_for_update().get(pk=record.pk)
+def _lock_unit(unit_id: int) -> Transponder:
+    """Lock the unit row: every write to a unit's records takes it first, so writers to one
+    unit run one after the other and each reads what the previous one wrote."""
+    return Transponder.objects.select_for_update().select_related("variant").get(pk=unit_id)
+
+
+def _lock_record(pk: int) -> tuple[Transponder, ServiceRecord]:
+    """Lock the record's unit, then the record, and return both as they are now."""
+    unit_id = ServiceRecord.objects.values_list("unit_id", flat=True).get(pk=pk)
+    unit = _lock_unit(unit_id)
+    current = ServiceRecord.objects.select_for_update().get(pk=pk)
+    current.unit = unit
+    return unit, current
+
+
+def _person(user: object) -> str:
+    if user is None:
+        return "Someone"
+    full = getattr(user, "get_full_name", lambda: "")()
+    return str(full or user)
+
+
+def check_version(current: ServiceRecord, expected_version: int | None) -> None:
+    """Refuse an edit built from an older version of the record, naming who changed it."""
+    if expected_version is None or current.version == expected_version:
+        return
+    who = _person(current.updated_by or current.closed_by or current.created_by)
+    when = timezone.localtime(current.updated_at)
+    raise ValidationError(
+        "%(who)s changed this record at %(when)s, after you loaded it. Nothing of yours was "
+        "saved: reload the page to see their change, then enter yours again.",
+        params={"who": who, "when": f"{when:%Y-%m-%d %H:%M}"},
+        code="stale",
+    )
+
+
+def _changed_fields(
+    instance: Model, stored: Model, names: Iterable[str] | None = None
+) -> list[str]:
+    """The concrete fields (by attname) whose value on ``instance`` differs from ``stored``."""
+    fields = [f for f in instance._meta.concrete_fields if not f.primary_key]
+    if names is not None:
+        wanted = set(names)
+        fields = [f for f in fields if f.name in wanted or f.attname in wanted]
+    return [f.attname for f in fields if getattr(instance, f.attname) != getattr(stored, f.attname)]
 
 
 def _has_entries(record: ServiceRecord) -> bool:
@@ -64,15 +125,37 @@ def check_can_open_record(unit: Transponder) -> None:
         )
 
 
-def _fit_battery(install: BatteryInstall) -> None:
-    """A new pack replaces the fitted one: the old pack is removed on the new one's install day."""
-    if install.pk is not None or install.removed_on is not None:
-        return
-    fitted = (
-        BatteryInstall.objects.select_for_update()
-        .filter(unit_id=install.unit_id, removed_on__isnull=True)
-        .first()
+def fitted_packs(unit_id: int) -> QuerySet[BatteryInstall]:
+    """The unit's packs that no removal entry has taken out (at most one after every save)."""
+    return BatteryInstall.objects.filter(unit_id=unit_id, removal__isnull=True)
+
+
+def _remove_pack(
+    record: ServiceRecord,
+    install: BatteryInstall,
+    removed_on: dt.date,
+    ocv_v: float | None,
+    field: str,
+) -> PackRemoval:
+    """Write the removal of ``install`` as an entry of ``record``: the record that fitted the
+    pack (often closed) is never touched."""
+    removal = PackRemoval(
+        record=record, install=install, removed_on=removed_on, ocv_removal_v=ocv_v
     )
+    try:
+        removal.full_clean()
+    except ValidationError as exc:
+        raise ValidationError(
+            {field: [m for msgs in exc.message_dict.values() for m in msgs]}
+        ) from exc
+    removal.save()
+    return removal
+
+
+def _fit_battery(record: ServiceRecord, install: BatteryInstall) -> None:
+    """A new pack replaces the fitted one: the old pack is removed, by an entry of this
+    record, on the new one's install day."""
+    fitted = fitted_packs(record.unit_id).exclude(record=record).first()
     if fitted is None:
         return
     if install.installed_on < fitted.installed_on:
@@ -84,27 +167,46 @@ def _fit_battery(install: BatteryInstall) -> None:
                 )
             }
         )
-    fitted.removed_on = install.installed_on
-    fitted.save(update_fields=["removed_on"])
+    _remove_pack(record, fitted, install.installed_on, None, "installed_on")
 
 
 def _remove_fitted_pack(record: ServiceRecord, removed_on: dt.date, ocv_v: float | None) -> None:
-    fitted = (
-        BatteryInstall.objects.select_for_update()
-        .filter(unit_id=record.unit_id, removed_on__isnull=True)
-        .first()
-    )
+    fitted = fitted_packs(record.unit_id).first()
     if fitted is None:
         raise ValidationError({"remove_pack_on": "No pack is fitted to this unit."})
-    fitted.removed_on = removed_on
-    fitted.ocv_removal_v = ocv_v
-    try:
-        fitted.full_clean()
-    except ValidationError as exc:
-        raise ValidationError(
-            {"remove_pack_on": [m for msgs in exc.message_dict.values() for m in msgs]}
-        ) from exc
-    fitted.save(update_fields=["removed_on", "ocv_removal_v"])
+    _remove_pack(record, fitted, removed_on, ocv_v, "remove_pack_on")
+
+
+# What the bench-visit form edits on the record itself.
+RECORD_EDITABLE_FIELDS: tuple[str, ...] = ("opened_at", "technician", "place", "summary")
+
+
+def _entry_order(entry: Entry) -> int:
+    # Removals first: a new pack then replaces only a pack no removal has taken out yet.
+    return 0 if isinstance(entry, PackRemoval) else 1
+
+
+def _save_entry(record: ServiceRecord, entry: Entry) -> None:
+    model = type(entry)
+    if entry.pk is None:
+        entry.record = record
+        if isinstance(entry, BatteryInstall):
+            entry.unit = record.unit
+            entry.full_clean()
+            _fit_battery(record, entry)
+        entry.full_clean()
+        entry.save()
+        return
+    stored = model._default_manager.select_for_update().filter(pk=entry.pk).first()
+    if stored is None or stored.record_id != record.pk:
+        raise ValidationError("An entry can only be edited within its own record.")
+    entry.record = record
+    if isinstance(entry, BatteryInstall):
+        entry.unit = record.unit
+    entry.full_clean()
+    changed = _changed_fields(entry, stored)
+    if changed:
+        entry.save(update_fields=changed)
 
 
 @transaction.atomic
@@ -119,52 +221,71 @@ def service_record_save(
 ) -> ServiceRecord:
     """Create or update an open record with its entries, all or nothing.
 
-    ``expected_version`` is the version the editor loaded; a stale edit is refused rather than
-    silently overwriting a colleague's work. ``pack_removal`` (date, open-circuit volts) takes
-    out the pack fitted at an earlier visit.
+    The unit row is locked first, then the record is read again inside the lock and only the
+    fields that changed are written. ``expected_version`` is the version the editor loaded; a
+    stale edit is refused (naming who changed the record and when) rather than silently
+    overwriting a colleague's work. ``pack_removal`` (date, open-circuit volts) takes out the
+    pack fitted at an earlier visit, as a removal entry of this record.
     """
     if record.pk is not None:
-        current = _lock(record)
+        unit, current = _lock_record(record.pk)
         if current.is_closed:
             raise ValidationError("This record is closed; corrections are made as amendments.")
-        if expected_version is not None and current.version != expected_version:
-            raise ValidationError(
-                "Someone else changed this record while you were editing it. "
-                "Reload the page to see their changes, then enter yours again."
-            )
-        record.version = current.version + 1
+        check_version(current, expected_version)
+        changed = _changed_fields(record, current, RECORD_EDITABLE_FIELDS)
+        for name in changed:
+            setattr(current, name, getattr(record, name))
+        current.version += 1
+        current.updated_by = by
+        current.full_clean()
+        current.save(update_fields=[*changed, "version", "updated_by", "updated_at"])
+        record.version, record.updated_at = current.version, current.updated_at
         record.updated_by = by
     else:
-        unit = Transponder.objects.select_for_update().get(pk=record.unit_id)
+        unit = _lock_unit(record.unit_id)
         check_can_open_record(unit)
         record.created_by = by
         record.version = 1
-    record.full_clean()
-    record.save()
+        record.full_clean()
+        record.save()
+        current = record
+    current.unit = unit
+    record.unit = unit
 
     if pack_removal is not None:
-        _remove_fitted_pack(record, *pack_removal)
+        _remove_fitted_pack(current, *pack_removal)
     for entry in delete:
-        if entry.pk is not None and entry.record_id == record.pk:
-            entry.delete()
-    for entry in entries:
-        if entry.pk is not None and entry.record_id != record.pk:
-            raise ValidationError("An entry can only be edited within its own record.")
-        entry.record = record
-        if isinstance(entry, BatteryInstall):
-            entry.unit = record.unit
-            _fit_battery(entry)
-        entry.full_clean()
-        entry.save()
-    refresh_unit(record.unit, at=timezone.now())
+        if entry.pk is None:
+            continue
+        stored = type(entry)._default_manager.filter(pk=entry.pk, record=current).first()
+        if stored is not None:
+            stored.delete()
+    for entry in sorted(entries, key=_entry_order):
+        _save_entry(current, entry)
+    if fitted_packs(unit.pk).count() > 1:
+        serials = ", ".join(fitted_packs(unit.pk).values_list("pack_serial", flat=True))
+        raise ValidationError(
+            f"{unit.serial} would have more than one fitted pack ({serials}); record the "
+            "removal of the old one."
+        )
+    refresh_unit(unit, at=timezone.now())
     return record
 
 
 @transaction.atomic
-def service_record_close(*, record: ServiceRecord, by: User, at: dt.datetime) -> None:
-    current = _lock(record)
+def service_record_close(
+    *,
+    record: ServiceRecord,
+    by: User,
+    at: dt.datetime,
+    expected_version: int | None = None,
+) -> None:
+    """Close an open record. ``expected_version`` is the version the supervisor reviewed: a
+    change since then refuses the close, naming who made it."""
+    _, current = _lock_record(record.pk)
     if current.is_closed:
         raise ValidationError("This record is already closed.")
+    check_version(current, expected_version)
     if at < current.opened_at:
         raise ValidationError("A record cannot close before it opened.")
     still_open = current.housing_openings.filter(closed_at__isnull=True).order_by("opened_at")
@@ -178,10 +299,13 @@ def service_record_close(*, record: ServiceRecord, by: User, at: dt.datetime) ->
         raise ValidationError(
             "This record has no entries, so there is nothing to close; discard the visit instead."
         )
-    record.closed_at = at
-    record.closed_by = by
-    record.version = current.version + 1
-    record.save(update_fields=["closed_at", "closed_by", "version", "updated_at"])
+    current.closed_at = at
+    current.closed_by = by
+    current.updated_by = by
+    current.version += 1
+    current.save(update_fields=["closed_at", "closed_by", "updated_by", "version", "updated_at"])
+    for name in ("closed_at", "closed_by", "updated_by", "version", "updated_at"):
+        setattr(record, name, getattr(current, name))
 
 
 def can_discard(record: ServiceRecord, user: User) -> bool:
@@ -192,8 +316,7 @@ def can_discard(record: ServiceRecord, user: User) -> bool:
 @transaction.atomic
 def service_record_discard(*, record: ServiceRecord, by: User) -> None:
     """Delete an open bench visit that has no entries (opened by mistake or never started)."""
-    Transponder.objects.select_for_update().filter(pk=record.unit_id).get()
-    current = _lock(record)
+    _, current = _lock_record(record.pk)
     if current.is_closed:
         raise ValidationError("A closed record cannot be discarded.")
     if not can_discard(current, by):
@@ -214,6 +337,50 @@ def amendable_targets(record: ServiceRecord) -> list[Model]:
     return targets
 
 
+def _invalidate_certificates(
+    record: ServiceRecord, target: Model, amendment: Amendment, by: User
+) -> None:
+    """An amendment to a release test, or to its record, leaves an issued certificate not
+    valid: it certified values the record no longer says."""
+    if isinstance(target, ReleaseTest):
+        tests = Q(release_test=target)
+    elif isinstance(target, ServiceRecord):
+        tests = Q(release_test__record=record)
+    else:
+        return
+    on = timezone.localdate(amendment.created_at)
+    what = "record" if isinstance(target, ServiceRecord) else "release test"
+    for certificate in ReleaseCertificate.objects.select_for_update().filter(
+        tests, status=ReleaseCertificate.Status.ISSUED
+    ):
+        certificate.status = ReleaseCertificate.Status.NOT_VALID
+        certificate.status_changed_at = amendment.created_at
+        certificate.status_changed_by = by
+        certificate.invalidated_by = amendment
+        certificate.status_reason = (
+            f"Not valid since {on}: the {what} "
+            f"was amended ({amendment.field_name}: {amendment.original_value or '(empty)'} "
+            f"to {amendment.corrected_value or '(empty)'}). Issue a new certificate or withdraw "
+            "this one."
+        )
+        certificate.save(
+            update_fields=[
+                "status",
+                "status_changed_at",
+                "status_changed_by",
+                "invalidated_by",
+                "status_reason",
+            ]
+        )
+
+
+def _amendable_model(target: Model) -> type[Model]:
+    model = type(target)
+    if model is not ServiceRecord and model not in entry_kinds():
+        raise ValidationError({"target": "Only a record or one of its entries can be amended."})
+    return model
+
+
 @transaction.atomic
 def amendment_create(
     *,
@@ -223,42 +390,67 @@ def amendment_create(
     corrected_value: str,
     reason: str,
     by: User,
+    expected_version: int | None = None,
 ) -> Amendment:
-    """Correct one field of a closed record, keeping the original value in the amendment."""
-    current = _lock(record)
+    """Correct one field of a closed record, keeping the original value in the amendment.
+
+    Supervisors only. The unit and the record are locked, then the target is read again by
+    its primary key inside the lock (the caller's copy may be stale) and only the corrected
+    field is written. ``expected_version`` (the record version the form showed) refuses a
+    correction built on a stale page. Amending a release test or its record makes its issued
+    certificate not valid.
+    """
+    if not roles.can_supervise(by):
+        raise PermissionDenied("Only a supervisor can amend a closed record.")
+    model = _amendable_model(target)
+    _, current = _lock_record(record.pk)
     if not current.is_closed:
         raise ValidationError("Open records are edited directly; amendments are for closed ones.")
+    check_version(current, expected_version)
     if not reason.strip():
         raise ValidationError({"reason": "Say why the value is being corrected."})
-    if field_name not in amendable_fields(target):
+    if model is ServiceRecord:
+        if target.pk != current.pk:
+            raise ValidationError({"target": "That record is not this one."})
+        fresh: Model = current
+    else:
+        found = model._default_manager.select_for_update().filter(pk=target.pk).first()
+        if found is None or getattr(found, "record_id", None) != current.pk:
+            raise ValidationError({"target": "That entry belongs to another record."})
+        fresh = found
+    if field_name not in amendable_fields(fresh):
         raise ValidationError({"field_name": f"{field_name} cannot be amended."})
-    owner = target.pk if isinstance(target, ServiceRecord) else getattr(target, "record_id", None)
-    if owner != record.pk:
-        raise ValidationError({"target": "That entry belongs to another record."})
 
-    field = amendable_field(target, field_name)
-    original = field.value_to_string(target)
-    value = parse_amendment_value(target, field_name, corrected_value)
-    setattr(target, field_name, value)
+    field = amendable_field(fresh, field_name)
+    original = field.value_to_string(fresh)
+    value = parse_amendment_value(fresh, field_name, corrected_value)
+    setattr(fresh, field_name, value)
     try:
-        target.full_clean()
+        fresh.full_clean()
     except ValidationError as exc:
         messages = exc.message_dict.get(field_name) or exc.messages
         raise ValidationError({"corrected_value": messages}) from exc
-    corrected = field.value_to_string(target)
+    corrected = field.value_to_string(fresh)
     if corrected == original:
         raise ValidationError({"corrected_value": "That is the value already recorded."})
-    target.save()
     current.version += 1
-    current.save(update_fields=["version", "updated_at"])
+    current.updated_by = by
+    with amending():
+        if fresh is current:
+            current.save(update_fields=[field_name, "version", "updated_by", "updated_at"])
+        else:
+            fresh.save(update_fields=[field_name])
+            current.save(update_fields=["version", "updated_by", "updated_at"])
     refresh_unit(current.unit, at=timezone.now())
-    return Amendment.objects.create(
-        record=record,
-        target_type=ContentType.objects.get_for_model(target),
-        target_id=target.pk,
+    amendment = Amendment.objects.create(
+        record=current,
+        target_type=ContentType.objects.get_for_model(fresh),
+        target_id=fresh.pk,
         field_name=field_name,
         original_value=original,
         corrected_value=corrected,
         reason=reason.strip(),
         created_by=by,
     )
+    _invalidate_certificates(current, fresh, amendment, by)
+    return amendment

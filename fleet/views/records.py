@@ -127,7 +127,7 @@ def record_detail(request: AuthenticatedRequest, pk: int) -> HttpResponse:
             "unit": record.unit,
             "sections": sections,
             "amendments": record_amendments(record=record),
-            "close_form": CloseRecordForm(),
+            "close_form": CloseRecordForm(initial={"version": record.version}),
             "can_discard": empty
             and not record.is_closed
             and roles.can_record(request.user)
@@ -141,10 +141,20 @@ def record_close(request: AuthenticatedRequest, pk: int) -> HttpResponse:
     record = get_record_for_user(request, pk, supervise=True)
     form = CloseRecordForm(request.POST)
     if not form.is_valid():
-        messages.error(request, "Tick the confirmation to close the record.")
+        messages.error(
+            request,
+            "Tick the confirmation to close the record."
+            if "confirm" in form.errors
+            else "The close form was incomplete; reload the record and close it again.",
+        )
         return redirect(record)
     try:
-        service_record_close(record=record, by=request.user, at=timezone.now())
+        service_record_close(
+            record=record,
+            by=request.user,
+            at=timezone.now(),
+            expected_version=form.cleaned_data["version"],
+        )
     except ValidationError as exc:
         messages.error(request, " ".join(exc.messages))
     else:
@@ -169,7 +179,8 @@ def record_discard(request: AuthenticatedRequest, pk: int) -> HttpResponse:
 
 @require_http_methods(["GET", "POST"])
 def record_amend(request: AuthenticatedRequest, pk: int) -> HttpResponse:
-    record = get_record_for_user(request, pk, write=True)
+    # Only supervisors correct a closed record (the service refuses anyone else too).
+    record = get_record_for_user(request, pk, supervise=True)
     if not record.is_closed:
         return redirect("record-edit", pk=record.pk)
     targets = {f"{t._meta.model_name}:{t.pk}": t for t in amendable_targets(record)}
@@ -180,7 +191,7 @@ def record_amend(request: AuthenticatedRequest, pk: int) -> HttpResponse:
             current = field.value_to_string(target)
             label = f"{_target_label(target)} — {field.verbose_name} (now: {current or 'empty'})"
             choices.append((f"{key}:{field_name}", label))
-    form = AmendmentForm(request.POST or None, choices=choices)
+    form = AmendmentForm(request.POST or None, choices=choices, initial={"version": record.version})
     status = 200
     if request.method == "POST":
         if form.is_valid():
@@ -193,6 +204,7 @@ def record_amend(request: AuthenticatedRequest, pk: int) -> HttpResponse:
                     corrected_value=form.cleaned_data["corrected_value"],
                     reason=form.cleaned_data["reason"],
                     by=request.user,
+                    expected_version=form.cleaned_data["version"],
                 )
             except ValidationError as exc:
                 if hasattr(exc, "error_dict"):

@@ -4,8 +4,10 @@ writes came in (a deployment entered after the readings it covers, an amendment)
 import pytest
 from django.core.management import call_command
 from django.core.management.base import CommandError
+from django.db import transaction
 
 from fleet.due.snapshot import state_snapshot
+from fleet.integrity import amending
 from fleet.models import AnodeReading, AnodeState, DueRow, UnitState
 from fleet.services.records import amendment_create
 from tests.due.test_engine import deploy, t, visit
@@ -43,8 +45,10 @@ def test_the_check_option_finds_drift(unit, technician, capsys):
     visit(unit, technician, t(2025, 4, 12), AnodeReading(position=position, mass_g=390))
     call_command("rebuild_state", "--check")
     assert "match a rebuild" in capsys.readouterr().out
-    # Simulate a write that bypassed the services.
-    AnodeReading.objects.update(mass_g=300)
+    # Simulate a write that bypassed the services (the record is closed: through the
+    # amendment door, as a correction that forgot to refresh the state would).
+    with transaction.atomic(), amending():
+        AnodeReading.objects.update(mass_g=300)
     with pytest.raises(CommandError, match="differ from a rebuild"):
         call_command("rebuild_state", "--check")
     # --check rolls its rebuild back, so the drift is still there to be fixed.

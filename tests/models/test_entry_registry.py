@@ -16,6 +16,7 @@ from fleet.models import (
     AnodeReading,
     BatteryInstall,
     HousingOpening,
+    PackRemoval,
     PressureTest,
     ReleaseTest,
     SealChange,
@@ -39,7 +40,7 @@ def _concrete_subclasses(cls: type) -> list[type]:
 # --- (a) the registry covers every kind, and every kind is complete ---------------------------
 
 
-def test_it_lists_the_seven_kinds_in_the_bench_page_order():
+def test_it_lists_the_eight_kinds_in_the_bench_page_order():
     assert entry_kinds() == (
         AnodeReading,
         SealChange,
@@ -48,6 +49,7 @@ def test_it_lists_the_seven_kinds_in_the_bench_page_order():
         ReleaseTest,
         SensorCheck,
         HousingOpening,
+        PackRemoval,
     )
     assert [k.bench_prefix for k in entry_kinds()] == [
         "anodes",
@@ -57,6 +59,7 @@ def test_it_lists_the_seven_kinds_in_the_bench_page_order():
         "release",
         "sensors",
         "openings",
+        "packremovals",
     ]
 
 
@@ -84,7 +87,8 @@ def test_every_registered_kind_is_complete(kind):
         assert field.concrete and field.editable and not field.is_relation, name
         assert name in form._meta.fields, f"{name} can be amended but not entered"
     for name in kind.list_select_related:
-        assert kind._meta.get_field(name).many_to_one, name
+        field = kind._meta.get_field(name)
+        assert field.many_to_one or field.one_to_one, name  # one row each: select_related
 
     *path, last = kind.dated_by.split("__")
     model = kind
@@ -114,12 +118,13 @@ HISTORY_TEMPLATE = {
     SensorCheck: '{{ e.get_sensor_display }} check: reads {{ e.unit_reading|floatformat:"-3" }} '
     'against {{ e.reference_value|floatformat:"-3" }}',
     HousingOpening: "Housing opened: {{ e.reason }}",
+    PackRemoval: 'Battery {{ e.install.pack_serial }} removed {{ e.removed_on|date:"Y-m-d" }}',
 }
 
 
 def _entries(unit, record):
     """One entry of each kind with values that exercise rounding (x.5) and trailing zeros."""
-    return {
+    entries = {
         SealChange: SealChange(
             record=record,
             position=unit.variant.seal_positions.first(),
@@ -136,7 +141,6 @@ def _entries(unit, record):
             capacity_ah=30.0,
             made_on=dt.date(2025, 1, 5),
             installed_on=dt.date(2025, 2, 3),
-            removed_on=dt.date(2026, 2, 9),
             ocv_install_v=19.1,
         ),
         PressureTest: pressure_test(
@@ -160,6 +164,10 @@ def _entries(unit, record):
             record=record, opened_at=T0, reason="Seal check <after> leak & drip"
         ),
     }
+    entries[PackRemoval] = PackRemoval(
+        record=record, install=entries[BatteryInstall], removed_on=dt.date(2026, 2, 9)
+    )
+    return entries
 
 
 @pytest.mark.django_db
@@ -204,6 +212,7 @@ def test_each_kind_is_dated_by_its_own_date_or_the_visit(unit, technician):
         "ReleaseTest": dt.date(2026, 3, 2),
         "SensorCheck": dt.date(2026, 3, 2),
         "HousingOpening": timezone.localdate(T0),
+        "PackRemoval": dt.date(2026, 2, 9),
         "AnodeReading": visit_day,
     }
 
@@ -252,7 +261,7 @@ def test_a_kind_added_by_the_recipe_shows_up_on_every_page(
 
     assert entry_kinds()[-1] is extra_kind
 
-    # The bench-visit page offers it, after the seven, with one blank row.
+    # The bench-visit page offers it, after the eight, with one blank row.
     page = as_technician.get(reverse("record-new", args=[unit.serial]))
     assert page.status_code == 200
     title, formset = page.context["formsets"][-1]
@@ -285,18 +294,21 @@ def test_a_kind_added_by_the_recipe_shows_up_on_every_page(
     assert "<li>Gauge reads -0.4 dbar at the surface</li>" in history
 
     # Once closed, its values can be amended.
-    as_supervisor.post(reverse("record-close", args=[record.pk]), {"confirm": "on"})
+    as_supervisor.post(
+        reverse("record-close", args=[record.pk]), {"confirm": "on", "version": record.version}
+    )
     record.refresh_from_db()
     assert amendable_targets(record) == [record, check]
     assert amendable_fields(check) == ("checked_on", "zero_offset_dbar", "note")
-    amend = as_technician.get(reverse("record-amend", args=[record.pk]))
+    amend = as_supervisor.get(reverse("record-amend", args=[record.pk]))
     assert f"gaugezerocheck:{check.pk}:zero_offset_dbar" in amend.content.decode()
-    response = as_technician.post(
+    response = as_supervisor.post(
         reverse("record-amend", args=[record.pk]),
         {
             "target_field": f"gaugezerocheck:{check.pk}:zero_offset_dbar",
             "corrected_value": "-0.6",
             "reason": "Read the gauge again after venting",
+            "version": record.version,
         },
     )
     assert response.status_code == 302
@@ -320,4 +332,4 @@ def test_the_registry_forgets_a_kind_whose_app_is_uninstalled(extra_kind):
         INSTALLED_APPS=[a for a in django_settings.INSTALLED_APPS if a != "tests.extra_entry"]
     ):
         assert extra_kind not in entry_kinds()
-        assert len(entry_kinds()) == 7
+        assert len(entry_kinds()) == 8

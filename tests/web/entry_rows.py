@@ -4,19 +4,48 @@ one entry of every kind that the amendment tests correct."""
 import datetime as dt
 import math
 
+from django.contrib.auth import get_user_model
 from django.db import models
 
-from fleet.models import HousingOpening, ServiceRecord, Transponder
+from fleet.models import BatteryInstall, HousingOpening, PackRemoval, ServiceRecord, Transponder
 from fleet.models.records import entry_kinds
 from fleet.models.validators import within_date_bounds
 from fleet.services.records import service_record_close, service_record_save
-from tests.builders import full_service_entries
+from tests.builders import full_service_entries, make_user
 
 DAY = dt.date(2026, 3, 2)  # the bench visit's day in tests.web.test_records.record_post
 
 
+def _earlier_pack(unit: Transponder) -> BatteryInstall:
+    """A pack fitted at an earlier, closed visit: what a pack-removal row takes out."""
+    fitted = BatteryInstall.objects.filter(unit=unit, removal__isnull=True).first()
+    if fitted is not None:
+        return fitted
+    by = get_user_model().objects.filter(is_active=True).first() or make_user(
+        "pack-fitter", "technician"
+    )
+    opened = dt.datetime.combine(DAY - dt.timedelta(days=90), dt.time(8), tzinfo=dt.UTC)
+    pack = BatteryInstall(
+        pack_serial="PK-OLD",
+        chemistry="alkaline",
+        nominal_voltage_v=31.5,
+        capacity_ah=17.0,
+        made_on=DAY - dt.timedelta(days=200),
+        installed_on=opened.date(),
+        ocv_install_v=32.4,
+    )
+    record = service_record_save(
+        record=ServiceRecord(unit=unit, opened_at=opened, technician=by, place=unit.place),
+        entries=[pack],
+        by=by,  # type: ignore[arg-type]
+    )
+    service_record_close(record=record, by=by, at=opened + dt.timedelta(hours=2))  # type: ignore[arg-type]
+    return pack
+
+
 def good_rows(unit: Transponder) -> dict[str, dict[str, str]]:
     """By bench prefix: a row every form accepts on ``record_post``'s visit (opened 09:00)."""
+    old_pack = _earlier_pack(unit)
     anode = unit.variant.anode_positions.first()
     seal = unit.variant.seal_positions.first()
     assert anode is not None and seal is not None
@@ -44,8 +73,6 @@ def good_rows(unit: Transponder) -> dict[str, dict[str, str]]:
             "made_on": "2025-12-01",
             "installed_on": "2026-03-02",
             "ocv_install_v": "32.4",
-            "removed_on": "",
-            "ocv_removal_v": "",
         },
         "pressure": {
             "tested_on": "2026-03-02",
@@ -75,6 +102,11 @@ def good_rows(unit: Transponder) -> dict[str, dict[str, str]]:
             "unit_reading": "10.02",
             "raw_resistance_ohm": "103.9",
         },
+        "packremovals": {
+            "install": str(old_pack.pk),
+            "removed_on": "2026-03-02",
+            "ocv_removal_v": "30.1",
+        },
         "openings": {
             "opened_at": "2026-03-02T09:30",
             "closed_at": "2026-03-02T10:30",
@@ -88,7 +120,9 @@ def good_rows(unit: Transponder) -> dict[str, dict[str, str]]:
 def closed_record_with_every_kind(unit: Transponder, by: object) -> ServiceRecord:
     """A closed bench visit on ``DAY`` holding at least one entry of every kind."""
     opened = dt.datetime.combine(DAY, dt.time(8), tzinfo=dt.UTC)
+    old_pack = _earlier_pack(unit)
     entries = [
+        PackRemoval(install=old_pack, removed_on=DAY, ocv_removal_v=30.1),
         *full_service_entries(unit, DAY),
         HousingOpening(
             opened_at=opened + dt.timedelta(minutes=30),

@@ -57,7 +57,9 @@ def test_only_supervisors_close_records(request, persona, expected, unit, techni
         record=record, position=unit.variant.anode_positions.first(), mass_g=390
     )
     client = request.getfixturevalue(persona)
-    response = client.post(reverse("record-close", args=[record.pk]), {"confirm": "on"})
+    response = client.post(
+        reverse("record-close", args=[record.pk]), {"confirm": "on", "version": record.version}
+    )
     assert response.status_code == expected
     record.refresh_from_db()
     assert record.is_closed is (expected == 302)

@@ -83,7 +83,8 @@ def test_every_date_on_the_bench_visit_page_gets_a_message_for_year_1_and_9999(
     response = as_technician.post(url, data)
     assert response.status_code == 400
     assert FAR_DATES[day] in response.content.decode()
-    rows = good_rows(unit)
+    rows = good_rows(unit)  # fits a pack at an earlier visit, for the pack-removal row
+    before = ServiceRecord.objects.count()
     record = ServiceRecord(unit=unit)
     for kind in entry_kinds():
         form = entry_forms()[kind](record=record)
@@ -93,7 +94,7 @@ def test_every_date_on_the_bench_visit_page_gets_a_message_for_year_1_and_9999(
             response = as_technician.post(url, data)
             assert response.status_code == 400, f"{kind.__name__}.{name}"
             assert FAR_DATES[day] in response.content.decode(), f"{kind.__name__}.{name}"
-    assert ServiceRecord.objects.count() == 0
+    assert ServiceRecord.objects.count() == before
 
 
 @pytest.mark.parametrize("tz", TIME_ZONES)

@@ -282,7 +282,9 @@ def test_a_record_cannot_close_while_a_housing_opening_has_no_close_time(
         by=technician,
     )
     response = as_supervisor.post(
-        reverse("record-close", args=[record.pk]), {"confirm": "on"}, follow=True
+        reverse("record-close", args=[record.pk]),
+        {"confirm": "on", "version": record.version},
+        follow=True,
     )
     assert "has no close time. Enter when it was closed before closing the record." in (
         response.content.decode()
@@ -294,7 +296,9 @@ def test_a_record_cannot_close_while_a_housing_opening_has_no_close_time(
 def test_a_record_with_no_entries_cannot_close(as_supervisor, unit, technician):
     record = _new_visit(unit, technician)
     response = as_supervisor.post(
-        reverse("record-close", args=[record.pk]), {"confirm": "on"}, follow=True
+        reverse("record-close", args=[record.pk]),
+        {"confirm": "on", "version": record.version},
+        follow=True,
     )
     assert "This record has no entries, so there is nothing to close" in (response.content.decode())
     record.refresh_from_db()

@@ -27,7 +27,16 @@ def close_open_visit(unit, by):
     service_record_close(record=record, by=by, at=record.opened_at + dt.timedelta(hours=4))
 
 
-PREFIXES = ("anodes", "seals", "battery", "pressure", "release", "sensors", "openings")
+PREFIXES = (
+    "anodes",
+    "seals",
+    "battery",
+    "pressure",
+    "release",
+    "sensors",
+    "openings",
+    "packremovals",
+)
 
 
 def record_post(unit, workshop, technician, **rows):
@@ -290,23 +299,28 @@ def test_a_stale_edit_is_refused(as_technician, unit, workshop, technician):
     data["version"] = "2"
     response = as_technician.post(reverse("record-edit", args=[record.pk]), data)
     assert response.status_code == 400
-    assert "Someone else changed this record" in response.content.decode()
+    # It names who changed the record and when (the builder's record: its creator).
+    assert f"{technician} changed this record at" in response.content.decode()
     record.refresh_from_db()
     assert record.summary == ""
 
 
-def test_an_amendment_keeps_the_original_value(as_supervisor, as_technician, unit, technician):
+def test_an_amendment_keeps_the_original_value(as_supervisor, supervisor, unit, technician):
     record = make_record(unit=unit, by=technician)
     reading = AnodeReading.objects.create(
         record=record, position=unit.variant.anode_positions.first(), mass_g=350.0
     )
-    as_supervisor.post(reverse("record-close", args=[record.pk]), {"confirm": "on"})
-    response = as_technician.post(
+    as_supervisor.post(
+        reverse("record-close", args=[record.pk]), {"confirm": "on", "version": record.version}
+    )
+    record.refresh_from_db()
+    response = as_supervisor.post(
         reverse("record-amend", args=[record.pk]),
         {
             "target_field": f"anodereading:{reading.pk}:mass_g",
             "corrected_value": "305",
             "reason": "Scale read with the bracket on",
+            "version": record.version,
         },
     )
     assert response.status_code == 302
@@ -314,25 +328,27 @@ def test_an_amendment_keeps_the_original_value(as_supervisor, as_technician, uni
     assert reading.mass_g == 305.0
     amendment = record.amendments.get()
     assert (amendment.original_value, amendment.corrected_value) == ("350.0", "305.0")
-    assert amendment.created_by == technician
-    page = as_technician.get(record.get_absolute_url()).content.decode()
+    assert amendment.created_by == supervisor
+    page = as_supervisor.get(record.get_absolute_url()).content.decode()
     assert "Scale read with the bracket on" in page
 
 
-def test_an_amendment_is_validated_like_the_original(
-    as_supervisor, as_technician, unit, technician
-):
+def test_an_amendment_is_validated_like_the_original(as_supervisor, unit, technician):
     record = make_record(unit=unit, by=technician)
     reading = AnodeReading.objects.create(
         record=record, position=unit.variant.anode_positions.first(), mass_g=350.0
     )
-    as_supervisor.post(reverse("record-close", args=[record.pk]), {"confirm": "on"})
-    response = as_technician.post(
+    as_supervisor.post(
+        reverse("record-close", args=[record.pk]), {"confirm": "on", "version": record.version}
+    )
+    record.refresh_from_db()
+    response = as_supervisor.post(
         reverse("record-amend", args=[record.pk]),
         {
             "target_field": f"anodereading:{reading.pk}:mass_g",
             "corrected_value": "9000",
             "reason": "x",
+            "version": record.version,
         },
     )
     assert response.status_code == 400
@@ -350,7 +366,10 @@ def test_the_record_page_shows_who_created_and_closed_it(
         record=record, position=unit.variant.anode_positions.first(), mass_g=390
     )
     SealChange  # noqa: B018 (imported for the record's sections)
-    as_supervisor.post(reverse("record-close", args=[record.pk]), {"confirm": "on"})
+    as_supervisor.post(
+        reverse("record-close", args=[record.pk]), {"confirm": "on", "version": record.version}
+    )
+    record.refresh_from_db()
     body = as_supervisor.get(record.get_absolute_url()).content.decode()
     assert "Closed, read-only" in body
     assert f"Created</dt><dd>{technician}" in body

@@ -177,7 +177,9 @@ def _check(archive: zipfile.ZipFile, *, kind: str) -> dict[str, Any]:
     try:
         manifest = json.loads(archive.read(MANIFEST))
     except KeyError as exc:
-        raise ArchiveError("The archive has no manifest.json; it is not a Holdfast archive.") from exc
+        raise ArchiveError(
+            "The archive has no manifest.json; it is not a Holdfast archive."
+        ) from exc
     except (zipfile.BadZipFile, OSError, ValueError, EOFError) as exc:
         raise ArchiveError(f"The archive's manifest cannot be read ({exc}).") from exc
     if not isinstance(manifest, dict) or manifest.get("format") != kind:

@@ -82,18 +82,21 @@ def cell(value: object) -> str:
         return repr(value)
     if isinstance(value, list | dict):
         return spreadsheet_safe(json.dumps(value, ensure_ascii=False))
-    if isinstance(value, models.Model):  # a content type
-        return f"{value._meta.app_label}.{value._meta.model_name}"
     return spreadsheet_safe(value)
+
+
+def _content_type_label(pk: int | None) -> str | None:
+    if pk is None:
+        return None
+    content_type = ContentType.objects.get_for_id(pk)
+    return f"{content_type.app_label}.{content_type.model}"
 
 
 def _columns(model: type[models.Model]) -> list[tuple[str, Callable[[models.Model], object]]]:
     columns: list[tuple[str, Callable[[models.Model], object]]] = []
     for f in model._meta.concrete_fields:
         if f.is_relation and f.related_model is ContentType:
-            columns.append(
-                (f.name, lambda obj, f=f: ContentType.objects.get_for_id(getattr(obj, f.attname)))
-            )
+            columns.append((f.name, lambda obj, f=f: _content_type_label(getattr(obj, f.attname))))
         elif isinstance(f, models.FileField):
             columns.append((f.attname, lambda obj, f=f: getattr(obj, f.attname).name or None))
         else:

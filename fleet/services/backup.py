@@ -200,7 +200,9 @@ def _file_names(model: type[models.Model], row: dict[str, Any]) -> Iterable[str]
             yield str(row["fields"][f.name])
 
 
-def backup_create(*, path: Path, at: dt.datetime, command: str = "manage.py backup") -> BackupResult:
+def backup_create(
+    *, path: Path, at: dt.datetime, command: str = "manage.py backup"
+) -> BackupResult:
     """Write the whole database content and its media files to the archive at ``path``."""
     pending = unapplied_migrations()
     if pending:
@@ -297,9 +299,7 @@ def _check_schema(manifest: dict[str, Any]) -> list[type[models.Model]]:
     theirs = manifest.get("migrations")
     if theirs != ours:
         differ = sorted(
-            app
-            for app in set(ours) | set(theirs or {})
-            if ours.get(app) != (theirs or {}).get(app)
+            app for app in set(ours) | set(theirs or {}) if ours.get(app) != (theirs or {}).get(app)
         )
         first = differ[0] if differ else "?"
         raise RestoreError(

@@ -146,8 +146,8 @@ def write_archive(path: Path, *, at: dt.datetime) -> Iterator[ArchiveWriter]:
     partial = path.with_name(path.name + ".partial")
     try:
         with zipfile.ZipFile(partial, "w", compression=zipfile.ZIP_DEFLATED) as archive:
-            stamp = at.astimezone(dt.UTC)
-            yield ArchiveWriter(archive, date_time=stamp.timetuple()[:6])  # type: ignore[arg-type]
+            s = at.astimezone(dt.UTC)
+            yield ArchiveWriter(archive, (s.year, s.month, s.day, s.hour, s.minute, s.second))
         partial.replace(path)
     finally:
         partial.unlink(missing_ok=True)

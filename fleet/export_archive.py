@@ -24,9 +24,10 @@ import csv
 import datetime as dt
 import io
 import json
-from collections.abc import Callable, Iterable, Sequence
+from collections.abc import Callable, Iterable, Iterator, Sequence
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 from django.apps import apps
 from django.conf import settings
@@ -92,31 +93,52 @@ def _content_type_label(pk: int | None) -> str | None:
     return f"{content_type.app_label}.{content_type.model}"
 
 
-def _columns(model: type[models.Model]) -> list[tuple[str, Callable[[models.Model], object]]]:
-    columns: list[tuple[str, Callable[[models.Model], object]]] = []
-    for f in model._meta.concrete_fields:
-        if f.is_relation and f.related_model is ContentType:
-            columns.append((f.name, lambda obj, f=f: _content_type_label(getattr(obj, f.attname))))
-        elif isinstance(f, models.FileField):
-            columns.append((f.attname, lambda obj, f=f: getattr(obj, f.attname).name or None))
-        else:
-            columns.append((f.attname, lambda obj, f=f: getattr(obj, f.attname)))
-    return columns
+Getter = Callable[[models.Model], object]
+
+
+def _getter(f: models.Field[Any, Any]) -> Getter:
+    """How one column reads its value from a row."""
+    attname = f.attname
+
+    def content_type(obj: models.Model) -> object:
+        return _content_type_label(getattr(obj, attname))
+
+    def file_name(obj: models.Model) -> object:
+        return getattr(obj, attname).name or None
+
+    def plain(obj: models.Model) -> object:
+        return getattr(obj, attname)
+
+    if f.is_relation and f.related_model is ContentType:
+        return content_type
+    if isinstance(f, models.FileField):
+        return file_name
+    return plain
+
+
+def _columns(model: type[models.Model]) -> list[tuple[str, Getter]]:
+    return [
+        (f.name if f.is_relation and f.related_model is ContentType else f.attname, _getter(f))
+        for f in model._meta.concrete_fields
+    ]
 
 
 def _write_csv(
     archive: ArchiveWriter, name: str, header: Sequence[str], rows: Iterable[Sequence[object]]
 ) -> int:
     count = 0
+    buffer = io.StringIO()
+    writer = csv.writer(buffer)
     with archive.open(name) as out:
-        text = io.TextIOWrapper(out, encoding="utf-8", newline="", write_through=True)
-        writer = csv.writer(text)
         writer.writerow(header)
         for row in rows:
             writer.writerow([cell(value) for value in row])
             count += 1
-        text.flush()
-        text.detach()
+            if buffer.tell() > 65536:
+                out.write(buffer.getvalue().encode("utf-8"))
+                buffer.seek(0)
+                buffer.truncate()
+        out.write(buffer.getvalue().encode("utf-8"))
     archive.set_rows(name, count)
     return count
 
@@ -145,7 +167,11 @@ def export_all(
                 f.attname for f in model._meta.concrete_fields if isinstance(f, models.FileField)
             ]
 
-            def values(model: type[models.Model] = model, columns=columns, file_fields=file_fields):
+            def values(
+                model: type[models.Model] = model,
+                columns: list[tuple[str, Getter]] = columns,
+                file_fields: list[str] = file_fields,
+            ) -> Iterator[list[object]]:
                 for obj in model._base_manager.order_by("pk").iterator(chunk_size=2000):
                     media.update(n for n in (getattr(obj, a).name for a in file_fields) if n)
                     yield [get(obj) for _, get in columns]

@@ -109,11 +109,17 @@ def test_it_refuses_to_order_tables_whose_keys_form_a_cycle():
         class Meta:
             app_label = "tests"
 
+        def __str__(self) -> str:
+            return "left"
+
     class Right(models.Model):
         left = models.ForeignKey(Left, on_delete=models.CASCADE)
 
         class Meta:
             app_label = "tests"
+
+        def __str__(self) -> str:
+            return "right"
 
     with pytest.raises(RuntimeError, match="cycle"):
         dependency_order([Left, Right])

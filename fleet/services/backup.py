@@ -118,7 +118,7 @@ def dependency_order(candidates: list[type[models.Model]]) -> list[type[models.M
             for f in [*model._meta.fields, *model._meta.many_to_many]
             if f.is_relation and f.related_model is not None
         }
-        needs[model] = {t for t in targets if t in included and t is not model}  # type: ignore[misc]
+        needs[model] = {t for t in targets if t in included and t is not model}
     ordered: list[type[models.Model]] = []
     placed: set[type[models.Model]] = set()
     while len(ordered) < len(candidates):
@@ -149,7 +149,7 @@ class _NaturalKeys:
         cached = self._cache.get((model, pk))
         if cached is None:
             instance = model._base_manager.get(pk=pk)
-            cached = list(instance.natural_key())  # type: ignore[attr-defined]
+            cached = list(instance.natural_key())
             self._cache[(model, pk)] = cached
         return cached
 
@@ -178,9 +178,9 @@ def _rows(model: type[models.Model], naturals: _NaturalKeys) -> Iterator[dict[st
             fields = row["fields"]
             for name, target in fk_natural.items():
                 if fields.get(name) is not None:
-                    fields[name] = naturals.key(target, fields[name])  # type: ignore[arg-type]
+                    fields[name] = naturals.key(target, fields[name])
             for name, target in m2m_natural.items():
-                fields[name] = sorted(naturals.key(target, pk) for pk in fields[name])  # type: ignore[arg-type]
+                fields[name] = sorted(naturals.key(target, pk) for pk in fields[name])
             if drop_pk:
                 row.pop("pk", None)
             yield row
@@ -283,9 +283,9 @@ def _clear_all() -> None:
         if model._meta.label_lower in _CREATED_BY_MIGRATE:
             continue
         for m2m in model._meta.many_to_many:
-            m2m.remote_field.through._base_manager.all()._raw_delete(connection.alias)  # type: ignore[union-attr]
-        model._base_manager.all()._raw_delete(connection.alias)  # type: ignore[attr-defined]
-    Session.objects.all()._raw_delete(connection.alias)  # type: ignore[attr-defined]
+            m2m.remote_field.through._base_manager.all()._raw_delete(connection.alias)
+        model._base_manager.all()._raw_delete(connection.alias)
+    Session.objects.all()._raw_delete(connection.alias)
 
 
 def _check_schema(manifest: dict[str, Any]) -> list[type[models.Model]]:
@@ -311,7 +311,7 @@ def _check_schema(manifest: dict[str, Any]) -> list[type[models.Model]]:
     if not isinstance(tables, list):
         raise RestoreError("The archive's manifest lists no tables.")
     expected = [m._meta.label_lower for m in backup_models()]
-    listed = [t.get("model") for t in tables if isinstance(t, dict)]
+    listed = [str(t.get("model")) for t in tables if isinstance(t, dict)]
     if sorted(listed) != sorted(expected):
         raise RestoreError(
             "The backup's tables are not this database's tables "

@@ -1,6 +1,8 @@
 """A comparable picture of everything derived (state rows and stored due rows), for checking
 the running rows against a rebuild."""
 
+import datetime as dt
+
 from fleet.models import AnodeState, DueRow, SealState, UnitState
 
 _UNIT_FIELDS = (
@@ -70,3 +72,19 @@ def differences(before: Snapshot, after: Snapshot) -> list[str]:
         if old != new:
             lines.append(f"{key}: stored {old} rebuilt {new}")
     return lines
+
+
+def rebuild_differences(*, at: dt.datetime) -> tuple[list[str], int]:
+    """Rebuild every unit's derived rows inside a savepoint that is rolled back, and compare
+    with the stored rows: the differences (empty when none) and the number of rows compared.
+    ``manage.py rebuild_state --check`` and the restore both run this."""
+    from django.db import transaction
+
+    from .store import rebuild_all
+
+    before = state_snapshot()
+    with transaction.atomic():
+        rebuild_all(at=at)
+        after = state_snapshot()
+        transaction.set_rollback(True)
+    return differences(before, after), len(after)

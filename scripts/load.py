@@ -249,7 +249,7 @@ def _save(client: Client, record_id: int, mark: str) -> None:
     if status == 302:
         with tally.lock:
             tally.saves_acked.add(mark)
-    elif status == 400 and "Someone else changed this record" in page:
+    elif status == 400 and STALE in page:
         with tally.lock:
             tally.conflicts += 1
     else:
@@ -268,12 +268,20 @@ def _amend(client: Client, record_id: int, mark: str) -> None:
     set_field(form, "target_field", target)
     set_field(form, "corrected_value", f"Summary corrected under load ({mark})")
     set_field(form, "reason", mark)
-    status, _ = client.request("amend", f"/records/{record_id}/amend/", form.fields)
+    status, page = client.request("amend", f"/records/{record_id}/amend/", form.fields)
     if status == 302:
         with tally.lock:
             tally.amends_acked.add(mark)
+    elif status == 400 and STALE in page:
+        with tally.lock:
+            tally.conflicts += 1
     else:
         tally.error("amend", f"HTTP {status} for record {record_id}")
+
+
+# What the version check says when a colleague saved the same record first (a refusal that
+# keeps both people's work safe: correct behaviour under load, not an error).
+STALE = "after you loaded it. Nothing of yours was saved"
 
 
 class Clock:
@@ -572,7 +580,7 @@ def main(argv: list[str] | None = None) -> int:
     print(f"errors: {sum(tally.errors.values())} {dict(tally.errors) or ''}")
     for sample in tally.error_samples:
         print(f"  {sample}")
-    print(f"saves refused by the version check (a colleague saved first): {tally.conflicts}")
+    print(f"writes refused by the version check (a colleague saved first): {tally.conflicts}")
     print(
         f"saves acknowledged {len(tally.saves_acked)}, found {len(saves_found)}; "
         f"amendments acknowledged {len(tally.amends_acked)}, found {len(amends_found)}"

@@ -358,6 +358,11 @@ def start_gunicorn(
     env: dict[str, str], workers: int, threads: int
 ) -> tuple[subprocess.Popen[bytes], str]:
     port = free_port()
+    # The server's log goes to a file (a pipe nobody reads would fill and stall the server);
+    # its tracebacks say what any 5xx was.
+    log_path = Path(tempfile.mkstemp(prefix="holdfast-load-server-", suffix=".log")[1])
+    log = log_path.open("wb")
+    print(f"server log: {log_path}", flush=True)
     process = subprocess.Popen(
         [
             sys.executable,
@@ -376,13 +381,13 @@ def start_gunicorn(
         cwd=ROOT,
         env=env,
         stdout=subprocess.DEVNULL,
-        stderr=subprocess.PIPE,
+        stderr=log,
     )
     base = f"http://127.0.0.1:{port}"
     until = time.monotonic() + 60
     while time.monotonic() < until:
         if process.poll() is not None:
-            err = process.stderr.read().decode(errors="replace") if process.stderr else ""
+            err = log_path.read_text(errors="replace")
             print(f"gunicorn could not start:\n{err[-2000:]}", file=sys.stderr)
             raise SystemExit(START_FAILED)
         try:

@@ -22,6 +22,7 @@ from .models import (
     BatteryInstall,
     Deployment,
     HousingOpening,
+    LabelSetting,
     PackRemoval,
     Place,
     PressureTest,
@@ -37,6 +38,7 @@ from .models import (
 from .models.records import Entry, entry_kinds
 from .models.validators import DATE_VALIDATORS, REASON_MAX_CHARS, SUMMARY_MAX_CHARS
 from .photos import clean_photo
+from .recall import RECALL_VALUE_MAX_CHARS, RecallPart
 from .selectors import previous_anode_mass
 from .services.deployments import deploy_refusal
 
@@ -642,3 +644,31 @@ class UnitPhotoForm(forms.ModelForm[UnitPhoto]):
         if image is None:
             raise forms.ValidationError("Choose a photo to upload.")
         return clean_photo(image)
+
+
+class RecallForm(forms.Form):
+    part = forms.ChoiceField(choices=RecallPart.choices, label="Part", initial=RecallPart.SEAL_LOT)
+    value = forms.CharField(
+        max_length=RECALL_VALUE_MAX_CHARS,
+        label="Lot or pack serial",
+        help_text="As written on the seal packet or the pack; capitals or not.",
+    )
+    since = forms.DateField(
+        required=False,
+        widget=DateInput(),
+        validators=[*DATE_VALIDATORS],
+        label="Fitted at any time since",
+        help_text="Empty: only parts fitted now.",
+    )
+
+    def clean_since(self) -> dt.date | None:
+        since: dt.date | None = self.cleaned_data.get("since")
+        if since is not None and since > timezone.localdate():
+            raise ValidationError("This date is in the future.")
+        return since
+
+
+class LabelContactForm(forms.ModelForm[LabelSetting]):
+    class Meta:
+        model = LabelSetting
+        fields = ["contact_line"]

@@ -6,7 +6,7 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any
 
-from django.db.models import Count, Prefetch
+from django.db.models import Count, OuterRef, Prefetch, QuerySet, Subquery
 from django.utils import timezone
 
 from fleet.due.acceptance import EntryVerdict, entry_verdict, release_test_failures
@@ -17,11 +17,13 @@ from fleet.models import (
     AnodeReading,
     BatteryInstall,
     Deployment,
+    DueRow,
     ReleaseTest,
     SealChange,
     SealPosition,
     ServiceRecord,
     Transponder,
+    UnitHold,
 )
 from fleet.models.records import entry_kinds
 
@@ -241,4 +243,63 @@ def units_in_water(*, limit: int = 50) -> list[Deployment]:
         Deployment.objects.filter(recovered_at__isnull=True)
         .select_related("unit", "site")
         .order_by("over_side_at")[:limit]
+    )
+
+
+# The fleet list and the bench-visit list
+
+
+def with_next_due(queryset: QuerySet[Transponder]) -> QuerySet[Transponder]:
+    """``queryset`` with ``next_due_on`` and ``next_due_item``: the unit's earliest stored due
+    row that has a date (an item with no data to date it is left out), ties broken by the
+    unit page's order. Two subqueries in the list's one query, so sorting on it is SQL too."""
+    rows = DueRow.objects.filter(unit_id=OuterRef("pk"), due_on__isnull=False).order_by(
+        "due_on", "position"
+    )
+    return queryset.annotate(
+        next_due_on=Subquery(rows.values("due_on")[:1]),
+        next_due_item=Subquery(rows.values("item")[:1]),
+    )
+
+
+def service_records_list() -> QuerySet[ServiceRecord]:
+    """Every bench visit, newest first, with what the list shows (unit, technician, place)
+    joined in: a page of it is one query, plus one to count."""
+    return ServiceRecord.objects.select_related("unit", "technician", "place").order_by(
+        "-opened_at", "-pk"
+    )
+
+
+# Label sheets
+
+# Lost and retired units are not on the shelf to be labelled: a sheet leaves them out unless
+# asked. A quarantined unit is still in the workshop, so it keeps its label.
+HOLDS_LEFT_OFF_LABELS = (UnitHold.LOST, UnitHold.RETIRED)
+
+
+@dataclass(frozen=True, slots=True)
+class LabelSelection:
+    units: list[Transponder]  # to print, by serial, with their variants
+    left_out: list[str]  # serials of lost or retired units left off the sheet
+    unknown: list[str]  # asked-for serials no unit has
+
+
+def label_units(
+    *, serials: Sequence[str] | None, variant_id: int | None, include_held: bool
+) -> LabelSelection:
+    """The units a label sheet prints: the ``serials`` asked for (every unit when ``None``),
+    of one variant if given, lost and retired ones left out unless ``include_held``. One
+    query."""
+    units = Transponder.objects.select_related("variant").order_by("serial")
+    if variant_id is not None:
+        units = units.filter(variant_id=variant_id)
+    if serials is not None:
+        units = units.filter(serial__in=serials)
+    found = list(units)
+    held = {u.serial for u in found if u.hold in HOLDS_LEFT_OFF_LABELS and not include_held}
+    known = {u.serial for u in found}
+    return LabelSelection(
+        units=[u for u in found if u.serial not in held],
+        left_out=sorted(held),
+        unknown=sorted(set(serials or ()) - known),
     )

@@ -1,10 +1,13 @@
+import datetime as dt
+
 import django_tables2 as tables
+from django.db.models import F, QuerySet
 from django.urls import reverse
 from django.utils.html import format_html
 
 from .due.condition import Condition
 from .due.items import DueState, ItemKind
-from .models import Deployment, Site, Transponder
+from .models import Deployment, ServiceRecord, Site, Transponder
 
 
 def condition_badge(condition: Condition) -> str:
@@ -18,6 +21,13 @@ def condition_badge(condition: Condition) -> str:
 
 
 class UnitTable(tables.Table):
+    # Ticks for the label sheet: the list page wraps the table in the labels form.
+    pick = tables.CheckBoxColumn(
+        accessor="serial",
+        verbose_name="Label",
+        attrs={"input": {"name": "unit", "form": "label-sheet"}, "th__input": {"hidden": True}},
+        exclude_from_export=True,
+    )
     serial = tables.Column(linkify=True)
     variant = tables.Column(accessor="variant__name", verbose_name="Variant")
     # Needs the list's queryset annotated with ``annotate_condition`` (one query for the page).
@@ -28,6 +38,9 @@ class UnitTable(tables.Table):
     last_service = tables.DateTimeColumn(
         accessor="last_service", verbose_name="Last bench visit", format="Y-m-d", default="—"
     )
+    # Needs the queryset through ``fleet.selectors.with_next_due`` (subqueries, no query more).
+    next_due_on = tables.DateColumn(verbose_name="Next due", format="Y-m-d", default="—")
+    next_due_item = tables.Column(verbose_name="Next due item", default="—", orderable=False)
 
     class Meta:
         model = Transponder
@@ -39,7 +52,10 @@ class UnitTable(tables.Table):
             "acoustic_address",
             "turnaround_delay_ms",
             "last_service",
+            "next_due_on",
+            "next_due_item",
         )
+        sequence = ("pick", "...")
         order_by = "serial"
         attrs = {"class": "grid"}
         per_page = 50
@@ -49,6 +65,20 @@ class UnitTable(tables.Table):
 
     def value_condition(self, value: str) -> str:
         return Condition(value).label
+
+    def order_next_due_on(
+        self, queryset: QuerySet[Transponder], is_descending: bool
+    ) -> tuple[QuerySet[Transponder], bool]:
+        """Undated units last either way, then by serial, so pages do not shuffle."""
+        due = F("next_due_on")
+        first = due.desc(nulls_last=True) if is_descending else due.asc(nulls_last=True)
+        return queryset.order_by(first, "serial"), True
+
+    def value_next_due_on(self, value: dt.date | None) -> str:
+        return value.isoformat() if value else ""
+
+    def value_next_due_item(self, value: str | None) -> str:
+        return value or ""
 
 
 class DeploymentTable(tables.Table):
@@ -161,3 +191,45 @@ class DueItemTable(tables.Table):
 
     def value_flags(self, value: str) -> str:
         return "; ".join(value.splitlines())
+
+
+class RecordTable(tables.Table):
+    """The bench-visit list (``fleet.selectors.service_records_list``)."""
+
+    opened_at = tables.DateTimeColumn(
+        format="Y-m-d H:i", verbose_name="Opened", linkify=lambda record: record.get_absolute_url()
+    )
+    unit = tables.Column(
+        accessor="unit__serial",
+        verbose_name="Unit",
+        linkify=lambda record: record.unit.get_absolute_url(),
+    )
+    technician = tables.Column(accessor="technician__username", verbose_name="Technician")
+    place = tables.Column(accessor="place__name", verbose_name="Place")
+    status = tables.Column(
+        accessor="closed_at",
+        verbose_name="Status",
+        order_by=("closed_at", "-opened_at"),
+        default="open",  # no closing time
+    )
+    closed_at = tables.DateTimeColumn(format="Y-m-d H:i", verbose_name="Closed", default="—")
+    summary = tables.Column(verbose_name="Summary", orderable=False, default="")
+
+    class Meta:
+        model = ServiceRecord
+        fields = ("opened_at", "unit", "technician", "place", "status", "closed_at", "summary")
+        order_by = "-opened_at"
+        attrs = {"class": "grid"}
+        per_page = 50
+
+    def render_status(self, value: dt.datetime) -> str:
+        return "closed"
+
+    def value_status(self, value: dt.datetime | None) -> str:
+        return "closed" if value else "open"
+
+    def render_technician(self, record: ServiceRecord) -> str:
+        return record.technician.get_full_name() or record.technician.get_username()
+
+    def render_summary(self, value: str) -> str:
+        return value if len(value) <= 80 else value[:79] + "…"

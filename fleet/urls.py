@@ -1,7 +1,7 @@
 from django.contrib import admin
 from django.urls import include, path
 
-from .views import dashboard, deployments, documents, feeds, media, planning, records, units
+from .views import dashboard, deployments, documents, feeds, find, media, planning, records, units
 
 urlpatterns = [
     path("", dashboard.dashboard, name="dashboard"),
@@ -37,6 +37,11 @@ urlpatterns = [
     path("sites/new/", deployments.site_new, name="site-new"),
     path("sites/<int:pk>/", deployments.site_detail, name="site-detail"),
     path("sites/<int:pk>/edit/", deployments.site_edit, name="site-edit"),
+    # Finding things: search, recall, the bench-visit list, the labels' contact line
+    path("search/", find.search, name="search"),
+    path("recall/", find.recall_view, name="recall"),
+    path("records/", find.record_list, name="record-list"),
+    path("labels/contact/", documents.label_contact, name="label-contact"),
     # Documents (PDFs), release certificates and the public verification page
     path("units/<str:serial>/checklist.pdf", documents.checklist_pdf, name="unit-checklist-pdf"),
     path("units/<str:serial>/checklist/", documents.checklist_form, name="unit-checklist"),

@@ -5,6 +5,7 @@ from .deployments import Deployment
 from .documents import CertificateCounter, ReleaseCertificate
 from .feeds import CalendarFeed
 from .places import Place, Site
+from .preferences import LabelSetting
 from .records import (
     AnodeReading,
     BatteryInstall,
@@ -44,6 +45,7 @@ __all__ = [
     "Elastomer",
     "HousingAlloy",
     "HousingOpening",
+    "LabelSetting",
     "PackRemoval",
     "Place",
     "PressureTest",

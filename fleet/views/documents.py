@@ -11,16 +11,19 @@ from django.shortcuts import redirect, render
 from django.urls import reverse
 from django.utils import timezone
 from django.utils.http import url_has_allowed_host_and_scheme
-from django.views.decorators.http import require_GET, require_POST
+from django.views.decorators.http import require_GET, require_http_methods, require_POST
 
 from fleet import roles
 from fleet.documents.certificate import prepare_certificate, render_certificate
 from fleet.documents.checklist import prepare_checklist, render_checklist
 from fleet.documents.labels import PAPERS, prepare_labels, render_labels
 from fleet.documents.report import RecordOpenError, prepare_report, render_report
-from fleet.forms import PlannedDeploymentForm
-from fleet.models import ReleaseCertificate, Site, Transponder, Variant
+from fleet.forms import LabelContactForm, PlannedDeploymentForm
+from fleet.models import LabelSetting, ReleaseCertificate, Site, Variant
+from fleet.models.units import serial_validator
+from fleet.selectors import label_units
 from fleet.services.certificates import certificate_issue, certificate_withdraw
+from fleet.services.labels import label_contact_save
 
 from .guards import (
     AuthenticatedRequest,
@@ -105,30 +108,88 @@ def checklist_form(request: HttpRequest, serial: str) -> HttpResponse:
     )
 
 
+# At most this many units on one sheet request (21 pages of 24).
+MAX_LABEL_UNITS = 500
+
+
+def _label_serials(request: HttpRequest) -> list[str] | None:
+    """The ``unit`` parameters (serials, any case), or ``None`` when none is given."""
+    raw = [s.strip().upper() for s in request.GET.getlist("unit") if s.strip()]
+    if not raw:
+        return None
+    if len(raw) > MAX_LABEL_UNITS:
+        raise ValueError(f"Choose at most {MAX_LABEL_UNITS} units for one sheet, not {len(raw)}.")
+    for serial in raw:
+        try:
+            serial_validator(serial)
+        except ValidationError:
+            raise ValueError(f"{serial[:40]!r} is not a unit serial.") from None
+    return sorted(set(raw))
+
+
+def _label_variant(request: HttpRequest) -> int | None:
+    if not request.GET.get("variant", "").strip():
+        return None
+    variant_id = _int_param(request, "variant", 1, 2**62, required=True)
+    if not Variant.objects.filter(pk=variant_id).exists():
+        raise ValueError(f"There is no variant with id {variant_id}.")
+    return variant_id
+
+
 @require_GET
 @require(roles.can_read)
 def labels_pdf(request: HttpRequest) -> HttpResponse:
+    """``?paper=a4|letter``, then ``variant=<id>`` and/or ``unit=<serial>`` (repeatable);
+    lost and retired units are left off unless ``include_held=1``. Bad input is a 400."""
     paper = request.GET.get("paper", "a4").strip().lower()
     if paper not in PAPERS:
         return _bad(f"Unknown paper size {paper[:20]!r}; use one of: {', '.join(PAPERS)}.")
-    units = Transponder.objects.select_related("variant").order_by("serial")
-    variant_id = None
-    if request.GET.get("variant", "").strip():
-        try:
-            variant_id = _int_param(request, "variant", 1, 2**62, required=True)
-        except ValueError as exc:
-            return _bad(str(exc))
-        if not Variant.objects.filter(pk=variant_id).exists():
-            return _bad(f"There is no variant with id {variant_id}.")
-        units = units.filter(variant_id=variant_id)
+    try:
+        serials = _label_serials(request)
+        variant_id = _label_variant(request)
+    except ValueError as exc:
+        return _bad(str(exc))
+    include_held = request.GET.get("include_held", "") in ("1", "on", "true")
+    selection = label_units(serials=serials, variant_id=variant_id, include_held=include_held)
+    if selection.unknown:
+        return _bad(f"No unit has the serial {', '.join(selection.unknown)}.")
+    if selection.left_out and not selection.units:
+        return _bad(
+            f"{', '.join(selection.left_out)}: lost or retired, so left off the sheet. "
+            'Ask for them with include_held=1 (tick "Include lost and retired units").'
+        )
+    scope = None
+    if serials is not None:
+        scope = f"U-{serials[0]}" if len(serials) == 1 else f"SEL{len(serials)}"
     sheet = prepare_labels(
-        list(units),
+        selection.units,
         paper=paper,
         variant_id=variant_id,
         on=timezone.localdate(),
         url_for=lambda u: request.build_absolute_uri(u.get_absolute_url()),
+        contact=LabelSetting.current().contact_line,
+        scope=scope,
     )
     return _pdf(render_labels(sheet), f"{sheet.reference}.pdf")
+
+
+@require_http_methods(["GET", "POST"])
+@require(roles.can_supervise)
+def label_contact(request: AuthenticatedRequest) -> HttpResponse:
+    """The "if found, contact" line every label prints; supervisors set it."""
+    current = LabelSetting.current()
+    form = LabelContactForm(request.POST or None, instance=current)
+    if request.method == "POST" and form.is_valid():
+        try:
+            label_contact_save(
+                contact_line=form.cleaned_data["contact_line"], by=request.user, at=timezone.now()
+            )
+        except ValidationError as exc:
+            messages.error(request, " ".join(exc.messages))
+        else:
+            messages.success(request, "Saved the contact line the labels print.")
+            return redirect("label-contact")
+    return render(request, "fleet/documents/label_contact.html", {"form": form, "setting": current})
 
 
 @require_GET

@@ -15,7 +15,7 @@ from fleet.exports import csv_response
 from fleet.filters import UnitFilter
 from fleet.forms import PlannedDeploymentForm, UnitPhotoForm
 from fleet.models import Transponder
-from fleet.selectors import unit_page
+from fleet.selectors import unit_page, with_next_due
 from fleet.tables import UnitTable, condition_badge
 
 from .guards import AuthenticatedRequest, get_unit_for_user, require
@@ -41,8 +41,10 @@ def unit_photo_add(request: AuthenticatedRequest, serial: str) -> HttpResponse:
 @require(roles.can_read)
 def unit_list(request: HttpRequest) -> HttpResponse:
     queryset = annotate_condition(
-        Transponder.objects.select_related("variant", "place").annotate(
-            last_service=Max("service_records__opened_at")
+        with_next_due(
+            Transponder.objects.select_related("variant", "place").annotate(
+                last_service=Max("service_records__opened_at")
+            )
         ),
         timezone.localdate(),
     )

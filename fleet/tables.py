@@ -20,12 +20,19 @@ def condition_badge(condition: Condition) -> str:
     )
 
 
+class PickColumn(tables.CheckBoxColumn):
+    """A tick per row, headed by a word rather than a tick-all box (which needs a script)."""
+
+    @property
+    def header(self) -> str:
+        return "Label"
+
+
 class UnitTable(tables.Table):
-    # Ticks for the label sheet: the list page wraps the table in the labels form.
-    pick = tables.CheckBoxColumn(
+    # Ticks for the label sheet: each box belongs to the list page's label form by its id.
+    pick = PickColumn(
         accessor="serial",
-        verbose_name="Label",
-        attrs={"input": {"name": "unit", "form": "label-sheet"}, "th__input": {"hidden": True}},
+        attrs={"input": {"name": "unit", "form": "label-sheet"}},
         exclude_from_export=True,
     )
     serial = tables.Column(linkify=True)

@@ -28,8 +28,9 @@ class LabelSetting(models.Model):
         max_length=LABEL_CONTACT_MAX_CHARS,
         blank=True,
         validators=[MaxLengthValidator(LABEL_CONTACT_MAX_CHARS), printable_line],
-        help_text="Printed on every label, e.g. a workshop telephone number or e-mail address. "
-        f"At most {LABEL_CONTACT_MAX_CHARS} characters; empty prints no line.",
+        help_text='Printed across the foot of every label after "If found, contact:", e.g. a '
+        "workshop telephone number or e-mail address. A label has room for two small lines; "
+        "a longer text is cut with an ellipsis. Empty prints no line.",
     )
     updated_by = models.ForeignKey(
         settings.AUTH_USER_MODEL,

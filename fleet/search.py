@@ -14,7 +14,7 @@ from django.contrib.auth import get_user_model
 from django.db.models import CharField, Q, QuerySet, Value
 from django.db.models.functions import Concat
 
-from fleet.models import BatteryInstall, SealChange, Site, Transponder
+from fleet.models import BatteryInstall, SealChange, ServiceRecord, Site, Transponder
 
 SEARCH_MAX_CHARS = 60
 SEARCH_LIMIT = 20
@@ -64,11 +64,13 @@ def _group(kind: str, title: str, queryset: QuerySet[Any], limit: int) -> Search
     return SearchGroup(kind=kind, title=title, rows=tuple(rows[:limit]), more=len(rows) > limit)
 
 
-def _people(text: str) -> QuerySet[Any]:
+def _technicians(text: str) -> QuerySet[Any]:
+    """People who have worked a bench visit (those the bench-visit list filters by)."""
     full_name = Concat("first_name", Value(" "), "last_name", output_field=CharField())
     return (
         get_user_model()
-        .objects.annotate(full_name=full_name)
+        .objects.filter(pk__in=ServiceRecord.objects.values("technician_id"))
+        .annotate(full_name=full_name)
         .filter(
             Q(username__icontains=text)
             | Q(first_name__icontains=text)
@@ -81,7 +83,8 @@ def _people(text: str) -> QuerySet[Any]:
 
 def search_everything(raw: str, *, limit: int = SEARCH_LIMIT) -> SearchResults:
     """Units by serial and by acoustic address, battery installs by pack serial, seal changes
-    by lot, sites by name and people (technicians) by user name or full name.
+    by lot, sites by name, and technicians (who have worked a bench visit) by user name or
+    full name.
 
     Six queries, each capped: the count does not grow with the fleet. Raises
     ``SearchQueryError`` for text it will not search for.
@@ -113,6 +116,6 @@ def search_everything(raw: str, *, limit: int = SEARCH_LIMIT) -> SearchResults:
             limit,
         ),
         _group("site", "Sites", Site.objects.filter(name__icontains=text).order_by("name"), limit),
-        _group("person", "Technicians and other people", _people(text), limit),
+        _group("person", "Technicians", _technicians(text), limit),
     )
     return SearchResults(query=text, limit=limit, groups=groups)

@@ -61,10 +61,19 @@ def test_search_results_link_to_the_unit_the_visit_and_the_site(as_viewer, unit,
     assert "?part=seal_lot&amp;value=QX-12" in body and "?part=pack_serial&amp;value=QX-99" in body
 
 
-def test_a_technician_found_by_name_links_to_their_bench_visits(as_viewer):
+def test_a_technician_found_by_name_links_to_their_bench_visits(as_viewer, unit):
     person = make_user("rmarsh", "technician", first_name="Robin", last_name="Marsh")
+    seal1, _ = unit.variant.seal_positions.order_by("name")
+    record = visit(unit, person, t(2026, 1, 5, 9), seal(seal1, "L-1"))
     body = as_viewer.get("/search/", {"q": "Robin Marsh"}).content.decode()
-    assert f"{reverse('record-list')}?technician={person.pk}" in body
+    link = f"{reverse('record-list')}?technician={person.pk}"
+    assert link in body
+    assert f'href="{record.get_absolute_url()}"' in as_viewer.get(link).content.decode()
+
+
+def test_people_who_never_worked_a_bench_visit_are_not_listed(as_viewer):
+    make_user("rmarsh", "technician", first_name="Robin", last_name="Marsh")
+    assert "Nothing matches" in as_viewer.get("/search/", {"q": "Robin"}).content.decode()
 
 
 def test_a_long_list_says_there_are_more(as_viewer, variant, workshop):

@@ -154,7 +154,7 @@ def cautions_for(
         found += battery_cautions(chemistries)
     if wanted & {Task.OPEN_HOUSING, Task.DEPLOY}:
         found.append(caution("transducer"))
-    if Task.DEPLOY in wanted or (_is_heavy(variant) and wanted):
+    if Task.DEPLOY in wanted or (_is_heavy(variant) and Task.PRESSURE_TEST in wanted):
         found.append(caution("lifting"))
     found.append(caution("defer"))
     return tuple(found)

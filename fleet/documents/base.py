@@ -288,8 +288,11 @@ CAUTIONS: dict[str, str] = {
 }
 
 
-def _numbered_canvas(title: str, reference: str, when: dt.datetime) -> type[rl_canvas.Canvas]:
-    """A canvas that holds its pages until the end, then draws header and "page N of M"."""
+def _numbered_canvas(
+    title: str, reference: str, when: dt.datetime, banner: str = ""
+) -> type[rl_canvas.Canvas]:
+    """A canvas that holds its pages until the end, then draws header and "page N of M";
+    ``banner`` (a warning such as "NOT FIT TO DEPLOY") goes in bold in both, on every page."""
     stamp = when.astimezone(dt.UTC).strftime("D:%Y%m%d%H%M%S+00'00'")
 
     class NumberedCanvas(rl_canvas.Canvas):
@@ -325,6 +328,10 @@ def _numbered_canvas(title: str, reference: str, when: dt.datetime) -> type[rl_c
             self.line(MARGIN, MARGIN, width - MARGIN, MARGIN)
             self.drawString(MARGIN, MARGIN - 4.5 * mm, reference)
             self.drawRightString(width - MARGIN, MARGIN - 4.5 * mm, f"page {number} of {total}")
+            if banner:
+                self.setFont(FONT_BOLD, 10)
+                self.drawCentredString(width / 2, height - MARGIN + 2 * mm, banner)
+                self.drawCentredString(width / 2, MARGIN - 4.5 * mm, banner)
             self.restoreState()
 
     return NumberedCanvas
@@ -337,8 +344,10 @@ def build_pdf(
     reference: str,
     when: dt.datetime,
     pagesize: tuple[float, float] = A4,
+    banner: str = "",
 ) -> bytes:
-    """Lay ``story`` out on ``pagesize`` with the running header and footer; return the bytes."""
+    """Lay ``story`` out on ``pagesize`` with the running header and footer (and ``banner``
+    in both, on every page); return the bytes."""
     out = io.BytesIO()
     doc = SimpleDocTemplate(
         out,
@@ -352,7 +361,7 @@ def build_pdf(
         creator="Holdfast",
         invariant=1,
     )
-    doc.build(story, canvasmaker=_numbered_canvas(title, reference, when))
+    doc.build(story, canvasmaker=_numbered_canvas(title, reference, when, banner))
     return out.getvalue()
 
 

@@ -119,7 +119,7 @@ def test_the_pdf_states_the_checks_items_cautions_and_sign_off(history):
         "kilovolt pulses",
         "discharge the drive",
         "never stand in line with an end cap",
-        "Lithium primary packs",
+        "Alkaline pack: alkaline cells can give off hydrogen",  # PK-77 is alkaline
         "pinch points",
         "rated gear",
         "Follow local codes, your company's procedures and licensed practice",
@@ -129,6 +129,8 @@ def test_the_pdf_states_the_checks_items_cautions_and_sign_off(history):
         "Time",
     ):
         assert expected in text, expected
+    assert "Lithium" not in text  # the fitted pack is alkaline
+    assert "NOT FIT TO DEPLOY" not in text
     for number, page in enumerate(pages, start=1):
         assert f"HF-CL-TX-0001-2026-04-10-{history.site.pk}" in page
         assert f"page {number} of {len(pages)}" in page

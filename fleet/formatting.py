@@ -156,3 +156,14 @@ def field_value(instance: models.Model, field_name: str, *, utc: bool = False) -
         unit = per_row(field_name) if callable(per_row) else unit_of(field_name)
         return quantity(float(value), unit)
     return str(value)
+
+
+def clauses(*parts: str) -> str:
+    """Clauses joined with "; ": empty ones left out (no stray semicolon) and each said once,
+    so a basis built from pieces never repeats itself."""
+    seen: list[str] = []
+    for part in parts:
+        text = part.strip().strip(";").strip()
+        if text and text not in seen:
+            seen.append(text)
+    return "; ".join(seen)

@@ -276,9 +276,9 @@ def battery_words(
         f"({quantity(battery.charge_per_reply_as * 1000, 'mA·s', 1)} a reply) need "
         f"{quantity(need, 'Ah')}"
     )
-    reserve = f"reserve {quantity(battery.reserve_ah, 'Ah')} kept back for the recovery"
+    reserve = f"{quantity(battery.reserve_ah, 'Ah')} reserve kept back"
     if left < 0:
-        end = f"the pack runs out {quantity(-left, 'Ah')} short, before recovery"
+        end = f"short by {quantity(-left, 'Ah')}: the pack runs out before recovery"
     elif left < battery.reserve_ah:
         short = quantity(battery.reserve_ah - left, "Ah")
         end = f"{quantity(left, 'Ah')} left at recovery, {short} short of the {reserve}"

@@ -258,11 +258,11 @@ class AnodeReading(Entry):
     def describe(self) -> str:
         parts = []
         if self.mass_g is not None:
-            parts.append(f"{self.mass_g:g} g")
+            parts.append(quantity(self.mass_g, "g"))
         if self.remaining_percent is not None:
-            parts.append(f"{self.remaining_percent:g} % remaining")
+            parts.append(f"{quantity(self.remaining_percent, '%')} remaining")
         if self.bond_resistance_ohm is not None:
-            parts.append(f"bond {self.bond_resistance_ohm:g} Ω")
+            parts.append(f"bond {quantity(self.bond_resistance_ohm, 'Ω')}")
         if self.replaced:
             parts.append("replaced")
         return ", ".join(parts)

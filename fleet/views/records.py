@@ -135,7 +135,7 @@ def record_edit(request: AuthenticatedRequest, pk: int) -> HttpResponse:
 
 def _target_label(target: Model) -> str:
     if isinstance(target, Entry):
-        return f"{capfirst(target._meta.verbose_name)} #{target.pk}: {target.describe()}"
+        return f"{capfirst(target._meta.verbose_name)} #{target.pk}: {target.history_line()}"
     return "The visit itself (its summary)"
 
 

@@ -255,39 +255,6 @@ def cautions_table(cautions: Sequence[str], width: float) -> Table:
     return table
 
 
-# Cautions, by topic. Each document prints the ones that apply to the work it asks for.
-CAUTIONS: dict[str, str] = {
-    "defer": (
-        "These notes are reminders, not a procedure. Follow local codes, your company's "
-        "procedures and licensed practice; where they differ from this sheet, they govern."
-    ),
-    "pressure": (
-        "A housing that has been at depth may hold trapped pressure or gas: vent it before "
-        "loosening an end cap, and never stand in line with an end cap while opening it."
-    ),
-    "transducer": (
-        "The transducer is driven with kilovolt pulses: disconnect and discharge the drive "
-        "before touching its terminals or the transducer face."
-    ),
-    "lithium": (
-        "Lithium primary packs can vent or burn if shorted, crushed, heated or wetted: handle, "
-        "store and ship them under your procedures and the transport rules that apply."
-    ),
-    "release": (
-        "Release mechanism: keep hands and tools clear of the hook and linkage pinch points "
-        "whenever the motor can run; latch it only with the unit powered as your procedure says."
-    ),
-    "lifting": (
-        "Units with collar and ballast are heavy: lift with rated gear and slings, never by "
-        "cables, transducer or release linkage."
-    ),
-    "pressure_test": (
-        "Pressure testing is hydrostatic only (never gas), behind an exclusion zone: a "
-        "housing that fails at pressure can release its stored energy violently."
-    ),
-}
-
-
 def _numbered_canvas(
     title: str, reference: str, when: dt.datetime, banner: str = ""
 ) -> type[rl_canvas.Canvas]:

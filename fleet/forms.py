@@ -1,6 +1,7 @@
 """Forms for the workshop pages. Validation of a value lives on the model; forms add the
 context a model cannot see on its own (which unit a record is for, who may be technician)."""
 
+import copy
 import datetime as dt
 from collections.abc import Mapping
 from typing import Any, cast
@@ -413,9 +414,9 @@ def amendment_form_field(target: Model, field_name: str) -> forms.Field:
     elif isinstance(target, Entry):
         form = entry_forms()[type(target)](instance=target, record=target.record)
     else:
-        raise ValidationError({"field_name": f"{field_name} cannot be amended."})
+        raise ValidationError({"field_name": "That value cannot be corrected by an amendment."})
     if field_name not in form.fields:
-        raise ValidationError({"field_name": f"{field_name} cannot be amended."})
+        raise ValidationError({"field_name": "That value cannot be corrected by an amendment."})
     return form.fields[field_name]
 
 
@@ -452,16 +453,75 @@ class CloseRecordForm(forms.Form):
 
 
 class AmendmentForm(forms.Form):
+    """One correction: the value (shown with the entry form's own widget, parsed by the entry
+    form's own field in ``parse_amendment_value``) and the reason."""
+
     # The record version the form was built from: a change since then refuses the amendment.
     version = forms.IntegerField(widget=forms.HiddenInput, min_value=0)
-    target_field = forms.ChoiceField(label="Value to correct")
-    # Typed as text here; parsed with the entry form's own field (``parse_amendment_value``).
-    corrected_value = forms.CharField(max_length=SUMMARY_MAX_CHARS, required=False)
-    reason = forms.CharField(max_length=REASON_MAX_CHARS, widget=forms.Textarea(attrs={"rows": 2}))
+    # Which value: "<model>:<pk>:<field>", chosen on the steps before.
+    target_field = forms.CharField(widget=forms.HiddenInput, max_length=120)
+    # Posted as text and parsed with the entry form's field (``parse_amendment_value``).
+    corrected_value = forms.CharField(
+        label="Corrected value", max_length=SUMMARY_MAX_CHARS, required=False, strip=False
+    )
+    reason = forms.CharField(
+        label="Why it is corrected",
+        max_length=REASON_MAX_CHARS,
+        widget=forms.Textarea(attrs={"rows": 2}),
+        error_messages={"required": "Say why the value is being corrected."},
+    )
+
+    def __init__(
+        self, *args: Any, value_field: forms.Field | None = None, label: str = "", **kwargs: Any
+    ) -> None:
+        super().__init__(*args, **kwargs)
+        if value_field is not None:
+            self.fields["corrected_value"].widget = amendment_widget(value_field)
+            self.fields["corrected_value"].label = f"Corrected {label[:1].lower()}{label[1:]}"
+            self.fields["corrected_value"].help_text = value_field.help_text
+
+
+YES_NO_CHOICES = [("yes", "Yes"), ("no", "No")]
+
+
+def amendment_widget(field: forms.Field) -> forms.Widget:
+    """The entry form's widget for a correction: its choices, date and time inputs, number
+    input; a yes/no field as two buttons, so that "no" is said, not left out."""
+    if isinstance(field, forms.BooleanField):
+        return forms.RadioSelect(choices=YES_NO_CHOICES)
+    widget: forms.Widget = copy.deepcopy(field.widget)
+    widget.is_required = False
+    return widget
+
+
+def amendment_initial(field: forms.Field, value: object) -> object:
+    """The stored value as the correction's widget shows it at first."""
+    if isinstance(field, forms.BooleanField):
+        return "yes" if value else "no"
+    if isinstance(value, dt.datetime):
+        return timezone.localtime(value)
+    return value
+
+
+class AmendmentEntryForm(forms.Form):
+    """Step one: which entry (or the record itself) holds the value to correct."""
+
+    target = forms.ChoiceField(label="Entry to correct")
 
     def __init__(self, *args: Any, choices: list[tuple[str, str]], **kwargs: Any) -> None:
         super().__init__(*args, **kwargs)
-        _choice(self, "target_field").choices = choices
+        _choice(self, "target").choices = choices
+
+
+class AmendmentFieldForm(forms.Form):
+    """Step two: which of the entry's values, by its label."""
+
+    target = forms.CharField(widget=forms.HiddenInput)
+    field = forms.ChoiceField(label="Value to correct")
+
+    def __init__(self, *args: Any, choices: list[tuple[str, str]], **kwargs: Any) -> None:
+        super().__init__(*args, **kwargs)
+        _choice(self, "field").choices = choices
 
 
 class DeploymentForm(forms.ModelForm[Deployment]):

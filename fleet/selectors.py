@@ -6,24 +6,28 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any
 
-from django.db.models import Count, OuterRef, Prefetch, QuerySet, Subquery
+from django.core.exceptions import ValidationError
+from django.db.models import Count, Field, Model, OuterRef, Prefetch, QuerySet, Subquery
 from django.utils import timezone
+from django.utils.text import capfirst
 
-from fleet.due.acceptance import EntryVerdict, entry_verdict, release_test_failures
+from fleet.due.acceptance import EntryVerdict, entry_verdict
 from fleet.due.condition import Condition, annotate_condition
 from fleet.due.rules import Rules
+from fleet.formatting import field_label, field_value
 from fleet.models import (
+    Amendment,
     AnodePosition,
     AnodeReading,
     BatteryInstall,
     Deployment,
     DueRow,
-    ReleaseTest,
     SealChange,
     SealPosition,
     ServiceRecord,
     Transponder,
     UnitHold,
+    Variant,
 )
 from fleet.models.records import entry_kinds
 
@@ -115,28 +119,35 @@ def fitted_pack(*, unit: Transponder) -> BatteryInstall | None:
     return BatteryInstall.objects.filter(unit=unit, removal__isnull=True).first()
 
 
-HistoryEntry = tuple[str, dt.datetime, ServiceRecord | Deployment, list[tuple[str, str]]]
+HistoryEntry = tuple[
+    str, dt.datetime, ServiceRecord | Deployment, list[tuple[str, str, EntryVerdict | None]]
+]
 
 
-def entry_lines(record: ServiceRecord, rules: Rules) -> list[tuple[str, str]]:
-    """(line, warning) for each entry of a prefetched record, kind by kind. No query."""
+def entry_lines(
+    record: ServiceRecord, rules: Rules, variant: Variant
+) -> list[tuple[str, str, EntryVerdict | None]]:
+    """(line, warning, verdict) for each entry of a prefetched record, kind by kind: the line
+    carries the entry's numbers, the verdict is a test's (the rules readiness applies).
+    No query."""
     lines = []
     for kind in entry_kinds():
         for entry in getattr(record, kind.related_name()).all():
-            warning = entry.warning()
-            if isinstance(entry, ReleaseTest) and release_test_failures(entry, rules):
-                warning = "fault noted"
-            lines.append((entry.history_line(), warning))
+            verdict = entry_verdict(entry, variant, rules)
+            lines.append((entry.history_line(), entry.warning(), verdict))
     return lines
 
 
 def unit_history(
-    records: list[ServiceRecord], deployments: list[Deployment], rules: Rules
+    records: list[ServiceRecord],
+    deployments: list[Deployment],
+    rules: Rules,
+    variant: Variant,
 ) -> list[HistoryEntry]:
     """Bench visits and deployments in one list, newest first: ``(kind, when, item, lines)``
     with kind ``"record"`` or ``"deployment"`` and a record's entry lines. No query."""
     entries: list[HistoryEntry] = [
-        ("record", r.opened_at, r, entry_lines(r, rules)) for r in records
+        ("record", r.opened_at, r, entry_lines(r, rules, variant)) for r in records
     ]
     entries += [("deployment", d.over_side_at, d, []) for d in deployments]
     return sorted(entries, key=lambda item: item[1], reverse=True)
@@ -172,34 +183,148 @@ def unit_page(*, unit: Transponder, rules: Rules) -> UnitPage:
         fitted_pack=pack,
         open_deployment=next((d for d in deployments if d.recovered_at is None), None),
         open_record=next((r for r in records if r.closed_at is None), None),
-        history=unit_history(records, deployments, rules),
+        history=unit_history(records, deployments, rules, variant),
     )
 
 
 # The record page
 
 
+@dataclass(frozen=True, slots=True)
+class EntryCell:
+    """One recorded value: its label, the value in words with its unit, and whether the
+    entry's verdict failed on it."""
+
+    label: str
+    text: str
+    failed: bool = False
+
+
+@dataclass(frozen=True, slots=True)
+class EntryRow:
+    entry: Any
+    cells: tuple[EntryCell, ...]
+    verdict: EntryVerdict | None
+
+
+@dataclass(frozen=True, slots=True)
+class EntrySection:
+    title: str
+    labels: tuple[str, ...]
+    rows: tuple[EntryRow, ...]
+    singular: str = ""
+
+    @property
+    def judged(self) -> bool:
+        """Whether this kind's entries carry a verdict (tests and checks)."""
+        return any(row.verdict is not None for row in self.rows)
+
+
+def entry_row(entry: Any, verdict: EntryVerdict | None, *, utc: bool = False) -> EntryRow:
+    """Every value the entry records, labelled and in words, with its verdict. No query
+    beyond the keys ``list_select_related`` names."""
+    failed = set(verdict.failed_fields) if verdict is not None else set()
+    cells = tuple(
+        EntryCell(field_label(entry, name), field_value(entry, name, utc=utc), name in failed)
+        for name in type(entry).shown_fields()
+    )
+    return EntryRow(entry, cells, verdict)
+
+
 def record_sections(
-    *, record: ServiceRecord, rules: Rules
-) -> list[tuple[str, list[tuple[Any, EntryVerdict | None]]]]:
-    """The record's entries by kind, titled, in page order, each with its verdict when it is
-    a test (``fleet.due.acceptance.entry_verdict``). One query per entry kind."""
+    *, record: ServiceRecord, rules: Rules, utc: bool = False
+) -> list[EntrySection]:
+    """The record's entries by kind, titled, in page order, each with its values and, when it
+    is a test, its verdict (``fleet.due.acceptance.entry_verdict``, the same rules readiness
+    applies). One query per entry kind."""
     variant = record.unit.variant
-    return [
-        (
-            kind.plural_title(),
-            [
-                (entry, entry_verdict(entry, variant, rules))
-                for entry in kind.with_list_related(getattr(record, kind.related_name()).all())
-            ],
+    sections = []
+    for kind in entry_kinds():
+        entries = kind.with_list_related(getattr(record, kind.related_name()).order_by("pk"))
+        sections.append(
+            EntrySection(
+                kind.plural_title(),
+                tuple(field_label(kind, name) for name in kind.shown_fields()),
+                tuple(
+                    entry_row(entry, entry_verdict(entry, variant, rules), utc=utc)
+                    for entry in entries
+                ),
+                str(capfirst(kind._meta.verbose_name)),
+            )
         )
-        for kind in entry_kinds()
+    return sections
+
+
+def stored_words(model: type[Model], field_name: str, stored: str, *, utc: bool = False) -> str:
+    """A value kept as text by an amendment (``Field.value_to_string``) in words, as the
+    record page prints the live value: "li_socl2" -> the chemistry's label, "False" -> No."""
+    if stored == "":
+        return "(empty)"
+    field = model._meta.get_field(field_name)
+    probe = model()
+    if not isinstance(field, Field):
+        return stored
+    try:
+        value = field.to_python(stored)
+    except ValidationError:
+        return stored
+    if field.is_relation and field.related_model is not None:
+        related = field.related_model._default_manager.filter(pk=value).first()
+        return str(related) if related is not None else stored
+    setattr(probe, field.attname, value)
+    return field_value(probe, field_name, utc=utc)
+
+
+def target_label(model: type[Model] | None, target_id: int) -> str:
+    """What an amendment corrected, for people: "Pressure test #12", or "Visit"."""
+    if model is None or model is ServiceRecord:
+        return "Visit (the record itself)"
+    return f"{capfirst(model._meta.verbose_name)} #{target_id}"
+
+
+@dataclass(frozen=True, slots=True)
+class AmendmentLine:
+    created_at: dt.datetime
+    created_by: Any
+    target_label: str
+    field_label: str
+    original_words: str
+    corrected_words: str
+    reason: str
+
+
+def amendment_line(amendment: Amendment, *, utc: bool = False) -> AmendmentLine:
+    model = amendment.target_type.model_class()
+    if model is None:  # a kind no longer installed: show what was stored
+        label, original, corrected = (
+            amendment.field_name,
+            amendment.original_value or "(empty)",
+            amendment.corrected_value or "(empty)",
+        )
+    else:
+        label = field_label(model, amendment.field_name)
+        original = stored_words(model, amendment.field_name, amendment.original_value, utc=utc)
+        corrected = stored_words(model, amendment.field_name, amendment.corrected_value, utc=utc)
+    return AmendmentLine(
+        amendment.created_at,
+        amendment.created_by,
+        target_label(model, amendment.target_id),
+        label,
+        original,
+        corrected,
+        amendment.reason,
+    )
+
+
+def record_amendments(*, record: ServiceRecord, utc: bool = False) -> list[AmendmentLine]:
+    """The record's amendments with their authors, in words (labels, not field names). One
+    query (plus one per amended related key, which no kind amends today)."""
+    return [
+        amendment_line(a, utc=utc)
+        for a in record.amendments.select_related("created_by", "target_type").order_by(
+            "created_at", "pk"
+        )
     ]
-
-
-def record_amendments(*, record: ServiceRecord) -> list[Any]:
-    """The record's amendments with their authors and targets' types. One query."""
-    return list(record.amendments.select_related("created_by", "target_type"))
 
 
 # The overview

@@ -259,13 +259,15 @@ def _save(client: Client, record_id: int, mark: str) -> None:
 
 def _amend(client: Client, record_id: int, mark: str) -> None:
     tally = client.tally
-    status, page = client.request("amend_form", f"/records/{record_id}/amend/")
+    # The form's third step: the record itself (its summary) picked in the two steps before.
+    status, page = client.request(
+        "amend_form",
+        f"/records/{record_id}/amend/?target=servicerecord:{record_id}&field=summary",
+    )
     if status != 200:
         tally.error("amend_form", f"HTTP {status} for record {record_id}")
         return
     form = form_with(page, "reason")
-    target = next(v for v in form.selects["target_field"] if v.endswith(":summary"))
-    set_field(form, "target_field", target)
     set_field(form, "corrected_value", f"Summary corrected under load ({mark})")
     set_field(form, "reason", mark)
     status, page = client.request("amend", f"/records/{record_id}/amend/", form.fields)

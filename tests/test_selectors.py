@@ -144,7 +144,10 @@ def test_the_history_runs_newest_first_across_records_and_deployments(unit, stor
     first, second = story["records"]
     out, still_out = story["deployments"]
     history = unit_history(
-        list(story["records"]), list(story["deployments"]), rules_for(unit.variant)
+        list(story["records"]),
+        list(story["deployments"]),
+        rules_for(unit.variant),
+        unit.variant,
     )
     assert [(kind, item.pk) for kind, _, item, _lines in history] == [
         ("deployment", still_out.pk),
@@ -209,7 +212,7 @@ def test_the_record_sections_come_in_page_order(unit, story, supervisor, django_
     # Expect 8 queries: one per entry kind.
     with django_assert_num_queries(8):
         sections = record_sections(record=first, rules=rules)
-    assert [(title, len(entries)) for title, entries in sections] == [
+    assert [(s.title, len(s.rows)) for s in sections] == [
         ("Anode readings", 2),
         ("Seal changes", 1),
         ("Battery installs", 1),
@@ -237,9 +240,13 @@ def test_the_record_amendments_come_with_their_authors(
     # Expect 1 query: amendments joined to their author and target type.
     with django_assert_num_queries(1):
         amendments = record_amendments(record=first)
-        assert [(a.created_by, a.target_type.model) for a in amendments] == [
-            (supervisor, "anodereading")
+        assert [(a.created_by, a.target_label, a.field_label) for a in amendments] == [
+            (supervisor, f"Anode reading #{reading.pk}", "Net mass (g)")
         ]
+    assert (amendments[0].original_words, amendments[0].corrected_words) == (
+        f"{reading.mass_g:g} g",
+        "391 g",
+    )
 
 
 def test_the_fleet_counts_cover_every_condition_and_place(

@@ -956,7 +956,7 @@ def _write_visit(unit: Transponder, event: VisitPlan, rows: FleetRows) -> int:
         summary=event.summary,
     )
     built = [_build_entry(item, unit.variant_id, rows) for item in event.entries]
-    service_record_save(record=record, entries=built, by=technician)
+    service_record_save(record=record, entries=built, by=technician, at=event.opened_at)
     if event.closed_at is not None:
         service_record_close(record=record, by=rows.users["supervisor"], at=event.closed_at)
     return len(built)

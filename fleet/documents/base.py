@@ -255,41 +255,11 @@ def cautions_table(cautions: Sequence[str], width: float) -> Table:
     return table
 
 
-# Cautions, by topic. Each document prints the ones that apply to the work it asks for.
-CAUTIONS: dict[str, str] = {
-    "defer": (
-        "These notes are reminders, not a procedure. Follow local codes, your company's "
-        "procedures and licensed practice; where they differ from this sheet, they govern."
-    ),
-    "pressure": (
-        "A housing that has been at depth may hold trapped pressure or gas: vent it before "
-        "loosening an end cap, and never stand in line with an end cap while opening it."
-    ),
-    "transducer": (
-        "The transducer is driven with kilovolt pulses: disconnect and discharge the drive "
-        "before touching its terminals or the transducer face."
-    ),
-    "lithium": (
-        "Lithium primary packs can vent or burn if shorted, crushed, heated or wetted: handle, "
-        "store and ship them under your procedures and the transport rules that apply."
-    ),
-    "release": (
-        "Release mechanism: keep hands and tools clear of the hook and linkage pinch points "
-        "whenever the motor can run; latch it only with the unit powered as your procedure says."
-    ),
-    "lifting": (
-        "Units with collar and ballast are heavy: lift with rated gear and slings, never by "
-        "cables, transducer or release linkage."
-    ),
-    "pressure_test": (
-        "Pressure testing is hydrostatic only (never gas), behind an exclusion zone: a "
-        "housing that fails at pressure can release its stored energy violently."
-    ),
-}
-
-
-def _numbered_canvas(title: str, reference: str, when: dt.datetime) -> type[rl_canvas.Canvas]:
-    """A canvas that holds its pages until the end, then draws header and "page N of M"."""
+def _numbered_canvas(
+    title: str, reference: str, when: dt.datetime, banner: str = ""
+) -> type[rl_canvas.Canvas]:
+    """A canvas that holds its pages until the end, then draws header and "page N of M";
+    ``banner`` (a warning such as "NOT FIT TO DEPLOY") goes in bold in both, on every page."""
     stamp = when.astimezone(dt.UTC).strftime("D:%Y%m%d%H%M%S+00'00'")
 
     class NumberedCanvas(rl_canvas.Canvas):
@@ -325,6 +295,10 @@ def _numbered_canvas(title: str, reference: str, when: dt.datetime) -> type[rl_c
             self.line(MARGIN, MARGIN, width - MARGIN, MARGIN)
             self.drawString(MARGIN, MARGIN - 4.5 * mm, reference)
             self.drawRightString(width - MARGIN, MARGIN - 4.5 * mm, f"page {number} of {total}")
+            if banner:
+                self.setFont(FONT_BOLD, 10)
+                self.drawCentredString(width / 2, height - MARGIN + 2 * mm, banner)
+                self.drawCentredString(width / 2, MARGIN - 4.5 * mm, banner)
             self.restoreState()
 
     return NumberedCanvas
@@ -337,8 +311,10 @@ def build_pdf(
     reference: str,
     when: dt.datetime,
     pagesize: tuple[float, float] = A4,
+    banner: str = "",
 ) -> bytes:
-    """Lay ``story`` out on ``pagesize`` with the running header and footer; return the bytes."""
+    """Lay ``story`` out on ``pagesize`` with the running header and footer (and ``banner``
+    in both, on every page); return the bytes."""
     out = io.BytesIO()
     doc = SimpleDocTemplate(
         out,
@@ -352,7 +328,7 @@ def build_pdf(
         creator="Holdfast",
         invariant=1,
     )
-    doc.build(story, canvasmaker=_numbered_canvas(title, reference, when))
+    doc.build(story, canvasmaker=_numbered_canvas(title, reference, when, banner))
     return out.getvalue()
 
 

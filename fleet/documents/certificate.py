@@ -12,10 +12,10 @@ from django.utils import timezone
 from reportlab.lib.units import mm
 from reportlab.platypus import Flowable, KeepTogether, Spacer, Table, TableStyle
 
+from fleet.cautions import Task, unit_cautions
 from fleet.models import ReleaseCertificate, ReleaseTest
 
 from .base import (
-    CAUTIONS,
     SHADE,
     QrCode,
     build_pdf,
@@ -138,7 +138,9 @@ def prepare_certificate(cert: ReleaseCertificate, *, verify_url: str) -> Certifi
         valid_from=cert.tested_on,
         valid_until=cert.valid_until,
         verify_url=verify_url,
-        cautions=(CAUTIONS["release"], CAUTIONS["lithium"], CAUTIONS["defer"]),
+        cautions=tuple(
+            str(c) for c in unit_cautions(unit, tasks=[Task.RELEASE_TEST, Task.BATTERY])
+        ),
     )
 
 

@@ -11,12 +11,12 @@ from django.utils import timezone
 from reportlab.lib.units import mm
 from reportlab.platypus import CondPageBreak, Flowable, KeepTogether, Spacer, Table, TableStyle
 
+from fleet.cautions import Task, unit_cautions
 from fleet.due.planned import PlannedDeployment
 from fleet.due.readiness import Verdict, readiness_for
 from fleet.models import BatteryInstall, Deployment, Transponder
 
 from .base import (
-    CAUTIONS,
     SHADE,
     QrCode,
     build_pdf,
@@ -32,6 +32,7 @@ from .base import (
 )
 
 TITLE = "Pre-deployment checklist"
+NOT_FIT = "✖ NOT FIT TO DEPLOY"
 
 
 @dataclass(frozen=True, slots=True)
@@ -172,10 +173,7 @@ def prepare_checklist(
             for c in readiness.checks
         ),
         manual_items=manual_items(unit, pack),
-        cautions=tuple(
-            CAUTIONS[k]
-            for k in ("defer", "lithium", "pressure", "transducer", "release", "lifting")
-        ),
+        cautions=tuple(str(c) for c in unit_cautions(unit, tasks=[Task.DEPLOY])),
         unit_url=unit_url,
         override=override,
     )
@@ -184,6 +182,60 @@ def prepare_checklist(
 def verdict_cell(label: str, icon: str) -> str:
     """Word and icon shape, so a black-and-white copy still reads."""
     return f"{icon} {label}"
+
+
+def not_fit_box(doc: ChecklistDocument, width: float) -> list[Flowable]:
+    """On a failing checklist: what failed and what it means, before anything else."""
+    if doc.verdict != Verdict.FAIL:
+        return []
+    failed = [c.name for c in doc.checks if c.verdict == Verdict.FAIL]
+    box = Table(
+        [
+            [para_bold(f"{NOT_FIT}: {len(failed)} automated check(s) failed", "verdict")],
+            [para(f"Failed: {', '.join(failed)}.")],
+            [
+                para(
+                    "Do not deploy this unit. Fix the failures and print a new checklist, or "
+                    "a supervisor writes the reason to deploy regardless below, and the same "
+                    "reason is recorded with the deployment."
+                )
+            ],
+        ],
+        colWidths=[width],
+    )
+    box.setStyle(
+        TableStyle(
+            [
+                ("BOX", (0, 0), (-1, -1), 3, "black"),
+                ("TOPPADDING", (0, 0), (-1, -1), 3),
+                ("BOTTOMPADDING", (0, 0), (-1, -1), 4),
+            ]
+        )
+    )
+    return [box, Spacer(0, 3 * mm)]
+
+
+def sign_off(doc: ChecklistDocument, width: float) -> Flowable:
+    """A plain sign-off when every check passed or asks only to be checked; on a failing
+    checklist the supervisor's override, with lines for the reason, instead."""
+    if doc.verdict != Verdict.FAIL:
+        return KeepTogether(
+            [para("Sign-off", "h2"), signature_table(["Technician", "Supervisor"], width)]
+        )
+    lines = Table([[""] for _ in range(4)], colWidths=[width], rowHeights=[8 * mm] * 4)
+    lines.setStyle(TableStyle([("LINEBELOW", (0, 0), (-1, -1), 0.5, "black")]))
+    return KeepTogether(
+        [
+            para(f"Supervisor's override ({NOT_FIT})", "h2"),
+            para(
+                "Only if the unit must go despite the failed checks above. Reason for deploying "
+                "it regardless, and what was done to make that safe:"
+            ),
+            lines,
+            Spacer(0, 2 * mm),
+            signature_table(["Technician (checks done as listed)", "Supervisor (override)"], width),
+        ]
+    )
 
 
 def override_section(note: OverrideNote | None, width: float) -> list[Flowable]:
@@ -296,6 +348,7 @@ def render_checklist(doc: ChecklistDocument) -> bytes:
         facts,
         Spacer(0, 3 * mm),
         *override_section(doc.override, width),
+        *not_fit_box(doc, width),
         overall,
         CondPageBreak(30 * mm),
         para("Automated checks", "h2_flow"),
@@ -305,8 +358,12 @@ def render_checklist(doc: ChecklistDocument) -> bytes:
         manual,
         Spacer(0, 4 * mm),
         KeepTogether([cautions_table(doc.cautions, width)]),
-        KeepTogether(
-            [para("Sign-off", "h2"), signature_table(["Technician", "Supervisor"], width)]
-        ),
+        sign_off(doc, width),
     ]
-    return build_pdf(story, title=TITLE, reference=doc.reference, when=doc.prepared_at)
+    return build_pdf(
+        story,
+        title=TITLE,
+        reference=doc.reference,
+        when=doc.prepared_at,
+        banner=NOT_FIT if doc.verdict == Verdict.FAIL else "",
+    )

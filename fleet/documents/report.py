@@ -5,43 +5,30 @@ open one can still change under the paper."""
 from __future__ import annotations
 
 import datetime as dt
-from collections.abc import Callable
 from dataclasses import dataclass
-from functools import partial
 from pathlib import Path
 from typing import Any
 
 from django.core.files.storage import default_storage
-from django.db import models
-from django.utils.text import capfirst
 from reportlab.lib.units import mm
 from reportlab.lib.utils import ImageReader
-from reportlab.platypus import CondPageBreak, Flowable, Image, KeepTogether, Spacer
+from reportlab.platypus import CondPageBreak, Flowable, Image, KeepTogether, Spacer, Table
 
-from fleet.models import (
-    AnodeReading,
-    BatteryInstall,
-    HousingOpening,
-    PressureTest,
-    ReleaseTest,
-    SealChange,
-    SensorCheck,
-    ServiceRecord,
-)
-from fleet.models.records import Entry, amendable_field, entry_kinds
+from fleet import selectors
+from fleet.cautions import record_cautions
+from fleet.due.rules import rules_for
+from fleet.models import AnodeReading, ServiceRecord
 
 from .base import (
-    CAUTIONS,
     build_pdf,
     cautions_table,
     display_name,
     facts_table,
-    fmt_date,
     fmt_datetime,
-    fmt_number,
     frame_width,
     grid_table,
     para,
+    para_bold,
     signature_table,
 )
 
@@ -54,9 +41,16 @@ class RecordOpenError(ValueError):
 
 @dataclass(frozen=True, slots=True)
 class EntrySection:
+    """One entry kind: its labels as headers, one row per entry (values in words with their
+    units), and, for a test, the verdict as the last column. ``failed`` lists the (row,
+    column) cells the verdict failed on: they print bold, with ✖, so a black-and-white copy
+    still shows them."""
+
     title: str
     headers: tuple[str, ...]
     rows: tuple[tuple[str, ...], ...]
+    failed: tuple[tuple[int, int], ...] = ()
+    singular: str = ""  # one entry's title, "Pressure test"
 
 
 @dataclass(frozen=True, slots=True)
@@ -94,122 +88,30 @@ class ReportDocument:
     amendments: tuple[AmendmentLine, ...]
     photos: tuple[PhotoLine, ...]
     cautions: tuple[str, ...]
+    updated_at: dt.datetime | None = None  # the last change after creation, if any
+    updated_by: str = ""
+    failed_tests: int = 0
 
 
-def _yes(value: bool) -> str:
-    return "yes" if value else "no"
-
-
-def _n(value: float | None, unit: str = "") -> str:
-    return fmt_number(value, unit)
-
-
-# The report's own columns for an entry kind: (header, getter). A kind not listed here is
-# printed with its amendable fields (``_field_columns``).
-Column = tuple[str, Callable[[Any], str]]
-COLUMNS: dict[type[Entry], tuple[Column, ...]] = {
-    AnodeReading: (
-        ("#", lambda e: str(e.pk)),
-        ("Position", lambda e: e.position.name),
-        ("Net mass", lambda e: _n(e.mass_g, "g")),
-        ("Remaining", lambda e: _n(e.remaining_percent, "%")),
-        ("Bond", lambda e: _n(e.bond_resistance_ohm, "Ω")),
-        ("Replaced", lambda e: _yes(e.replaced)),
-        ("Note", lambda e: e.note),
-    ),
-    SealChange: (
-        ("#", lambda e: str(e.pk)),
-        ("Position", lambda e: f"{e.position.name} ({e.position.size_label})"),
-        ("Material", lambda e: e.material),
-        ("Cure date", lambda e: fmt_date(e.cure_date)),
-        ("Lot", lambda e: e.lot),
-        ("Reason", lambda e: e.get_reason_display()),
-    ),
-    BatteryInstall: (
-        ("#", lambda e: str(e.pk)),
-        ("Pack", lambda e: e.pack_serial),
-        ("Chemistry", lambda e: e.get_chemistry_display()),
-        ("Nominal", lambda e: f"{_n(e.nominal_voltage_v, 'V')}, {_n(e.capacity_ah, 'Ah')}"),
-        ("Made / installed", lambda e: f"{fmt_date(e.made_on)} / {fmt_date(e.installed_on)}"),
-        ("Removed", lambda e: fmt_date(e.removed_on)),
-        ("OCV install", lambda e: _n(e.ocv_install_v, "V")),
-    ),
-    PressureTest: (
-        ("#", lambda e: str(e.pk)),
-        ("Tested", lambda e: fmt_date(e.tested_on)),
-        ("Test pressure", lambda e: _n(e.test_pressure_dbar, "dbar")),
-        ("Hold", lambda e: _n(e.hold_minutes, "min")),
-        (
-            "Start → end",
-            lambda e: f"{_n(e.start_pressure_dbar)} → {_n(e.end_pressure_dbar, 'dbar')}",
-        ),
-        (
-            "Water",
-            lambda e: f"{_n(e.water_temperature_start_c)} → {_n(e.water_temperature_end_c, '°C')}",
-        ),
-        ("Ingress", lambda e: _yes(e.ingress_found)),
-        ("Facility", lambda e: e.facility),
-    ),
-    ReleaseTest: (
-        ("#", lambda e: str(e.pk)),
-        ("Tested", lambda e: fmt_date(e.tested_on)),
-        ("Kind", lambda e: e.get_kind_display()),
-        ("Load", lambda e: _n(e.load_kg, "kg")),
-        ("Time to release", lambda e: _n(e.seconds_to_release, "s")),
-        ("Motor current", lambda e: _n(e.motor_current_a, "A")),
-        ("Limit switch", lambda e: _yes(e.limit_switch_ok)),
-        ("Acoustic command", lambda e: _yes(e.acoustic_command_ok)),
-    ),
-    SensorCheck: (
-        ("#", lambda e: str(e.pk)),
-        ("Checked", lambda e: fmt_date(e.checked_on)),
-        ("Sensor", lambda e: e.get_sensor_display()),
-        ("Reference", lambda e: _n(e.reference_value)),
-        ("Unit reads", lambda e: _n(e.unit_reading)),
-        ("Error", lambda e: f"{e.error:+.3g}"),
-        ("Raw", lambda e: _n(e.raw_resistance_ohm, "Ω")),
-    ),
-    HousingOpening: (
-        ("#", lambda e: str(e.pk)),
-        ("Opened", lambda e: fmt_datetime(e.opened_at)),
-        ("Closed", lambda e: fmt_datetime(e.closed_at)),
-        ("Vented first", lambda e: _yes(e.vented_before_opening)),
-        ("Pressure found", lambda e: _yes(e.internal_pressure_found)),
-        ("Reason", lambda e: e.reason),
-    ),
-}
-
-
-def _cell(field: Any, entry: Any) -> str:
-    """One field of an entry, printed the way the columns above print its type."""
-    value = getattr(entry, field.name)
-    if field.choices:
-        return str(getattr(entry, f"get_{field.name}_display")())
-    if isinstance(field, models.BooleanField):
-        return _yes(value)
-    if isinstance(field, models.DateTimeField):
-        return fmt_datetime(value)
-    if isinstance(field, models.DateField):
-        return fmt_date(value)
-    if isinstance(field, models.FloatField | models.IntegerField | models.DecimalField):
-        return _n(value)
-    return "" if value is None else str(value)
-
-
-def _field_columns(kind: type[Entry]) -> tuple[Column, ...]:
-    fields = [amendable_field(kind, name) for name in kind.amendable_fields]
-    return (
-        ("#", lambda e: str(e.pk)),
-        *((str(capfirst(f.verbose_name)), partial(_cell, f)) for f in fields),
-    )
-
-
-def entry_sections() -> tuple[tuple[type[Entry], str, tuple[Column, ...]], ...]:
-    """Per entry kind, in the registry's order: the kind, its section title, its columns."""
-    return tuple(
-        (kind, kind.plural_title(), COLUMNS.get(kind) or _field_columns(kind))
-        for kind in entry_kinds()
-    )
+def section_of(section: selectors.EntrySection) -> EntrySection:
+    """The page's section of one kind as the report prints it."""
+    headers = ("#", *section.labels, *(("Verdict",) if section.judged else ()))
+    rows = []
+    failed = []
+    for r, row in enumerate(section.rows):
+        cells = [f"{row.entry.pk}"]
+        for c, cell in enumerate(row.cells, start=1):
+            if cell.failed:
+                failed.append((r, c))
+                cells.append(f"✖ {cell.text}")
+            else:
+                cells.append(cell.text)
+        if section.judged:
+            cells.append(row.verdict.words if row.verdict is not None else "—")
+            if row.verdict is not None and not row.verdict.passed:
+                failed.append((r, len(cells) - 1))
+        rows.append(tuple(cells))
+    return EntrySection(section.title, headers, tuple(rows), tuple(failed), section.singular)
 
 
 def _photo_path(field: Any) -> str:
@@ -223,38 +125,30 @@ def prepare_report(record: ServiceRecord) -> ReportDocument:
     closed_at = record.closed_at
     if closed_at is None:  # the record is open
         raise RecordOpenError("This record is still open; close it before printing a report.")
-    sections = []
-    photos = []
-    for kind, title, columns in entry_sections():
-        entries = list(kind.with_list_related(getattr(record, kind.related_name()).order_by("pk")))
-        if not entries:
-            continue
-        sections.append(
-            EntrySection(
-                title,
-                tuple(h for h, _ in columns),
-                tuple(tuple(get(e) for _, get in columns) for e in entries),
-            )
-        )
-        if kind is AnodeReading:
-            photos += [
-                PhotoLine(f"Anode reading #{e.pk}: {e.position.name}", _photo_path(e.photo))
-                for e in entries
-                if isinstance(e, AnodeReading) and e.photo
-            ]
+    page_sections = selectors.record_sections(
+        record=record, rules=rules_for(record.unit.variant), utc=True
+    )
+    sections = tuple(section_of(s) for s in page_sections if s.rows)
+    photos = [
+        PhotoLine(f"Anode reading #{row.entry.pk}: {row.entry.position.name}", _photo_path(e))
+        for s in page_sections
+        for row in s.rows
+        if isinstance(row.entry, AnodeReading) and (e := row.entry.photo)
+    ]
+    failed_tests = sum(
+        1 for s in page_sections for row in s.rows if row.verdict and not row.verdict.passed
+    )
     amendments = tuple(
         AmendmentLine(
             a.created_at,
             display_name(a.created_by),
-            f"{a.target_type.name} #{a.target_id}",
-            a.field_name,
-            a.original_value or "(empty)",
-            a.corrected_value or "(empty)",
+            a.target_label,
+            a.field_label,
+            a.original_words,
+            a.corrected_words,
             a.reason,
         )
-        for a in record.amendments.select_related("created_by", "target_type").order_by(
-            "created_at", "pk"
-        )
+        for a in selectors.record_amendments(record=record, utc=True)
     )
     unit = record.unit
     return ReportDocument(
@@ -269,11 +163,14 @@ def prepare_report(record: ServiceRecord) -> ReportDocument:
         closed_by=display_name(record.closed_by),
         created_at=record.created_at,
         created_by=display_name(record.created_by),
+        updated_at=record.updated_at if record.updated_by_id else None,
+        updated_by=display_name(record.updated_by) if record.updated_by_id else "",
         summary=record.summary,
-        sections=tuple(sections),
+        sections=sections,
         amendments=amendments,
         photos=tuple(photos),
-        cautions=(CAUTIONS["pressure"], CAUTIONS["lithium"], CAUTIONS["defer"]),
+        cautions=tuple(str(c) for c in record_cautions(record)),
+        failed_tests=failed_tests,
     )
 
 
@@ -290,74 +187,194 @@ def _photo_flowable(photo: PhotoLine, max_w: float, max_h: float) -> Image | Non
     return Image(photo.path, width=w * scale, height=h * scale)
 
 
+# A kind with more columns than this prints each entry as its own block of label/value pairs
+# (a pressure test has ten values and a verdict: too many for one row of A4).
+MAX_GRID_COLUMNS = 8
+
+
+def _grid(section: EntrySection, width: float) -> list[Flowable]:
+    """The section as one table: "#" narrow, the last column twice the others."""
+    first = 9 * mm
+    unit = (width - first) / len(section.headers)
+    widths = [first] + [unit] * (len(section.headers) - 2) + [2 * unit]
+    rows = [section.headers, *section.rows]
+    body = [
+        [para_bold(cell) if (r - 1, c) in section.failed else cell for c, cell in enumerate(row)]
+        for r, row in enumerate(rows)
+    ]
+    return [
+        CondPageBreak(30 * mm),
+        para(section.title, "h2_flow"),
+        grid_table(body, widths),
+    ]
+
+
+def _blocks(section: EntrySection, width: float) -> list[Flowable]:
+    """The section as one block per entry: label/value pairs, three to a row, the verdict
+    across the foot; each block kept on one page."""
+    story: list[Flowable] = [CondPageBreak(40 * mm), para(section.title, "h2_flow")]
+    labels = section.headers[1:-1]
+    pair_w = width / 3
+    for r, row in enumerate(section.rows):
+        cells: list[Any] = []
+        for c, (label, text) in enumerate(zip(labels, row[1:-1], strict=True), start=1):
+            value = para_bold(text) if (r, c) in section.failed else para(text, "cell")
+            cells.append([para(label, "small"), value])
+        grid = [cells[i : i + 3] for i in range(0, len(cells), 3)]
+        grid[-1] += [""] * (3 - len(grid[-1]))
+        verdict_failed = (r, len(row) - 1) in section.failed
+        verdict = para_bold(row[-1]) if verdict_failed else para(row[-1], "cell")
+        head = para_bold(f"{section.singular or section.title} #{row[0]}")
+        table = Table(
+            [[head, "", ""], *grid, [verdict, "", ""]],
+            colWidths=[pair_w] * 3,
+        )
+        box = 2 if verdict_failed else 0.75
+        table.setStyle(
+            [
+                ("SPAN", (0, 0), (-1, 0)),
+                ("SPAN", (0, -1), (-1, -1)),
+                ("BOX", (0, 0), (-1, -1), box, "black"),
+                ("LINEBELOW", (0, 0), (-1, 0), 0.5, "black"),
+                ("LINEABOVE", (0, -1), (-1, -1), 0.5, "black"),
+                ("VALIGN", (0, 0), (-1, -1), "TOP"),
+                ("TOPPADDING", (0, 0), (-1, -1), 1.5),
+                ("BOTTOMPADDING", (0, 0), (-1, -1), 2),
+            ]
+        )
+        story += [KeepTogether([table, Spacer(0, 2 * mm)])]
+    return story
+
+
+def _section(section: EntrySection, width: float) -> list[Flowable]:
+    if section.headers[-1] == "Verdict" and len(section.headers) > MAX_GRID_COLUMNS:
+        return _blocks(section, width)
+    return _grid(section, width)
+
+
+def _facts(doc: ReportDocument, width: float) -> Table:
+    pairs = [
+        ("Unit serial", doc.serial),
+        ("Variant", doc.variant),
+        ("Place", doc.place),
+        ("Technician", doc.technician),
+        ("Opened", fmt_datetime(doc.opened_at)),
+        ("Created", f"{fmt_datetime(doc.created_at)} by {doc.created_by}"),
+    ]
+    if doc.updated_at is not None:
+        pairs.append(("Last changed", f"{fmt_datetime(doc.updated_at)} by {doc.updated_by}"))
+    pairs.append(("Closed", f"{fmt_datetime(doc.closed_at)} by {doc.closed_by}"))
+    return facts_table(pairs, [22 * mm, width / 2 - 22 * mm, 22 * mm, width / 2 - 22 * mm])
+
+
+def _failed_notice(doc: ReportDocument, width: float) -> list[Flowable]:
+    if not doc.failed_tests:
+        return []
+    box = Table(
+        [
+            [
+                para_bold(
+                    f"✖ {doc.failed_tests} test{'s' if doc.failed_tests != 1 else ''} FAILED on "
+                    "this visit (marked ✖ below). Do not deploy the unit until each is "
+                    "repeated and passes.",
+                    "body",
+                )
+            ]
+        ],
+        colWidths=[width],
+    )
+    box.setStyle([("BOX", (0, 0), (-1, -1), 2, "black")])
+    return [Spacer(0, 2 * mm), box]
+
+
+def _amendments(doc: ReportDocument, width: float) -> list[Flowable]:
+    if not doc.amendments:
+        return []
+    return [
+        para("Amendments (the original value is kept)", "h2"),
+        grid_table(
+            [
+                ("When", "By", "Entry", "Value", "Original", "Corrected", "Reason"),
+                *[
+                    (
+                        fmt_datetime(a.when),
+                        a.by,
+                        a.target,
+                        a.field,
+                        a.original,
+                        a.corrected,
+                        a.reason,
+                    )
+                    for a in doc.amendments
+                ],
+            ],
+            [24 * mm, 18 * mm, 24 * mm, 24 * mm, 22 * mm, 22 * mm, width - 134 * mm],
+        ),
+    ]
+
+
+def _photos(doc: ReportDocument, width: float) -> list[Flowable]:
+    if not doc.photos:
+        return []
+    story: list[Flowable] = [para("Photos", "h2")]
+    for photo in doc.photos:
+        image = _photo_flowable(photo, width * 0.6, 70 * mm)
+        if image is None:
+            story.append(para(f"{photo.caption}: photo file missing, not printed.", "small"))
+            continue
+        image.hAlign = "LEFT"
+        story.append(KeepTogether([image, para(photo.caption, "small"), Spacer(0, 3 * mm)]))
+    return story
+
+
+def _sign_off(doc: ReportDocument, width: float) -> list[Flowable]:
+    """Technician and supervisor sign-off, each kept together with its statement."""
+    return [
+        KeepTogether(
+            [
+                para("Sign-off", "h2"),
+                para(
+                    f"Technician ({doc.technician}): the entries above are the work I did and "
+                    "the values I read."
+                ),
+                Spacer(0, 1 * mm),
+                signature_table(["Technician"], width),
+            ]
+        ),
+        Spacer(0, 3 * mm),
+        KeepTogether(
+            [
+                para(
+                    f"Supervisor ({doc.closed_by}): I have checked every entry, value and "
+                    "verdict above" + (", including the failed tests." if doc.failed_tests else ".")
+                ),
+                Spacer(0, 1 * mm),
+                signature_table(["Supervisor"], width),
+            ]
+        ),
+    ]
+
+
 def render_report(doc: ReportDocument) -> bytes:
     width = frame_width()
     story: list[Flowable] = [
         para(TITLE, "title"),
         para(f"Bench visit #{doc.record_id} for unit {doc.serial} ({doc.variant})"),
         Spacer(0, 3 * mm),
-        facts_table(
-            [
-                ("Unit serial", doc.serial),
-                ("Variant", doc.variant),
-                ("Place", doc.place),
-                ("Technician", doc.technician),
-                ("Opened", fmt_datetime(doc.opened_at)),
-                ("Closed", f"{fmt_datetime(doc.closed_at)} by {doc.closed_by}"),
-                ("Created", f"{fmt_datetime(doc.created_at)} by {doc.created_by}"),
-            ],
-            [22 * mm, width / 2 - 22 * mm, 22 * mm, width / 2 - 22 * mm],
-        ),
+        _facts(doc, width),
+        *_failed_notice(doc, width),
     ]
     if doc.summary:
         story += [para("Summary", "h2"), para(doc.summary)]
     if not doc.sections:
         story += [para("Entries", "h2"), para("No entries were recorded on this visit.")]
     for section in doc.sections:
-        # "#" narrow, the last column (note, reason, facility) twice the others.
-        first = 9 * mm
-        unit = (width - first) / len(section.headers)
-        widths = [first] + [unit] * (len(section.headers) - 2) + [2 * unit]
-        story += [
-            CondPageBreak(30 * mm),
-            para(section.title, "h2_flow"),
-            grid_table([section.headers, *section.rows], widths),
-        ]
-    if doc.amendments:
-        story += [
-            para("Amendments (the original value is kept)", "h2"),
-            grid_table(
-                [
-                    ("When", "By", "Entry", "Field", "Original", "Corrected", "Reason"),
-                    *[
-                        (
-                            fmt_datetime(a.when),
-                            a.by,
-                            a.target,
-                            a.field,
-                            a.original,
-                            a.corrected,
-                            a.reason,
-                        )
-                        for a in doc.amendments
-                    ],
-                ],
-                [24 * mm, 18 * mm, 22 * mm, 22 * mm, 24 * mm, 24 * mm, width - 134 * mm],
-            ),
-        ]
-    if doc.photos:
-        story.append(para("Photos", "h2"))
-        for photo in doc.photos:
-            image = _photo_flowable(photo, width * 0.6, 70 * mm)
-            if image is None:
-                story.append(para(f"{photo.caption}: photo file missing, not printed.", "small"))
-                continue
-            image.hAlign = "LEFT"
-            story.append(KeepTogether([image, para(photo.caption, "small"), Spacer(0, 3 * mm)]))
+        story += _section(section, width)
+    story += _amendments(doc, width)
+    story += _photos(doc, width)
     story += [
         Spacer(0, 4 * mm),
         KeepTogether([cautions_table(doc.cautions, width)]),
-        para("Review", "h2"),
-        KeepTogether([signature_table(["Reviewed by (supervisor)"], width)]),
+        *_sign_off(doc, width),
     ]
     return build_pdf(story, title=TITLE, reference=doc.reference, when=doc.closed_at)

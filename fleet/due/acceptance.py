@@ -135,16 +135,54 @@ def sensor_check_failures(check: SensorCheck, variant: Variant, rules: Rules) ->
     return reasons
 
 
+def pressure_failed_fields(
+    test: PressureTest, acceptance: PressureAcceptance, rules: Rules
+) -> tuple[str, ...]:
+    """The recorded values behind each reason the hold failed, in the form's order."""
+    hold = acceptance.hold
+    failed = {
+        "start_pressure_dbar": test.start_pressure_dbar < acceptance.accepted_from_dbar,
+        "hold_minutes": test.hold_minutes < rules.hold_min_minutes,
+        "end_pressure_dbar": hold.drop_percent > rules.allowable_drop_percent
+        or hold.rose_beyond_gauge,
+        "water_temperature_end_c": abs(hold.temperature_change_c)
+        > calc_pressure.DEFAULT_MAX_TEMPERATURE_CHANGE_C,
+        "ingress_found": test.ingress_found,
+    }
+    return tuple(name for name, bad in failed.items() if bad)
+
+
+def release_failed_fields(test: ReleaseTest, rules: Rules) -> tuple[str, ...]:
+    """The recorded values behind each of ``release_test_failures``' reasons."""
+    failed = {
+        "seconds_to_release": test.seconds_to_release > rules.release_max_seconds,
+        "motor_current_a": test.motor_current_a > rules.release_max_motor_current_a,
+        "limit_switch_ok": not test.limit_switch_ok,
+        "acoustic_command_ok": not test.acoustic_command_ok,
+    }
+    return tuple(name for name, bad in failed.items() if bad)
+
+
+def sensor_failed_fields(check: SensorCheck, variant: Variant, rules: Rules) -> tuple[str, ...]:
+    """The recorded values behind each of ``sensor_check_failures``' reasons."""
+    failed = []
+    for reason in sensor_check_failures(check, variant, rules):
+        failed.append("raw_resistance_ohm" if reason.startswith("PT100") else "unit_reading")
+    return tuple(failed)
+
+
 @dataclass(frozen=True, slots=True)
 class EntryVerdict:
-    """A test's verdict as the record page shows it beside the entry."""
+    """A test's verdict as the record page, the unit history and the service report show it
+    beside the entry: the word and a shape, so a black-and-white print still reads."""
 
     passed: bool
     reasons: tuple[str, ...]
+    failed_fields: tuple[str, ...] = ()
 
     @property
     def label(self) -> str:
-        return "Pass" if self.passed else "Fail"
+        return "Pass" if self.passed else "FAIL"
 
     @property
     def icon(self) -> str:
@@ -154,17 +192,29 @@ class EntryVerdict:
     def value(self) -> str:
         return "pass" if self.passed else "fail"
 
+    @property
+    def words(self) -> str:
+        """The verdict in one line: "✖ FAIL: limit switch not confirmed"."""
+        head = f"{self.icon} {self.label}"
+        return f"{head}: {'; '.join(self.reasons)}" if self.reasons else head
+
 
 def entry_verdict(entry: object, variant: Variant, rules: Rules) -> EntryVerdict | None:
     """The verdict of a pressure test, release test or sensor check (the same rules the due
     items and readiness apply); None for an entry that is not a test."""
     if isinstance(entry, PressureTest):
         acceptance = pressure_test_acceptance(entry, variant, rules)
-        return EntryVerdict(acceptance.passed, acceptance.reasons)
+        return EntryVerdict(
+            acceptance.passed,
+            acceptance.reasons,
+            pressure_failed_fields(entry, acceptance, rules),
+        )
     if isinstance(entry, ReleaseTest):
         failures = release_test_failures(entry, rules)
-        return EntryVerdict(not failures, tuple(failures))
+        return EntryVerdict(not failures, tuple(failures), release_failed_fields(entry, rules))
     if isinstance(entry, SensorCheck):
         failures = sensor_check_failures(entry, variant, rules)
-        return EntryVerdict(not failures, tuple(failures))
+        return EntryVerdict(
+            not failures, tuple(failures), sensor_failed_fields(entry, variant, rules)
+        )
     return None

@@ -20,6 +20,7 @@ from __future__ import annotations
 import datetime as dt
 from dataclasses import dataclass
 
+from fleet.formatting import percent
 from fleet.models import Deployment, Transponder, UnitState
 
 from .days import days_between
@@ -49,7 +50,7 @@ class Duty:
             return "in the water now"
         if self.fraction is None:
             return "never deployed"
-        return f"in the water {self.fraction:.0%} of the time so far"
+        return f"in the water {percent(self.fraction)} of the time so far"
 
 
 def duty_of(unit: Transponder, state: UnitState | None, rules: Rules) -> Duty:

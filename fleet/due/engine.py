@@ -34,8 +34,10 @@ from django.db.models import QuerySet
 from fleet.calc import anodes as calc_anodes
 from fleet.calc import battery as calc_battery
 from fleet.calc import seals as calc_seals
+from fleet.formatting import clauses, quantity
 from fleet.models import (
     AnodeState,
+    PressureTest,
     SealState,
     SensorCheck,
     Transponder,
@@ -351,26 +353,36 @@ def battery_outcome(b: BatteryProjection | None, duty: Duty) -> Outcome:
 # --- tests and checks ---------------------------------------------------------------------
 
 
+def pressure_tested_words(test: PressureTest) -> str:
+    """The one phrase that names a pressure test in every basis and check: its date and the
+    pressure it held from."""
+    return f"tested {test.tested_on} at {quantity(test.start_pressure_dbar, 'dbar', 0)}"
+
+
 def pressure_outcome(
     unit: Transponder, state: UnitState | None, rules: Rules, duty: Duty
 ) -> Outcome:
     test = state.last_pressure_test if state else None
     if state is None or test is None:
         return Outcome(None, "no pressure test recorded")
-    tested = f"tested {test.tested_on} at {test.start_pressure_dbar:.0f} dbar"
+    tested = pressure_tested_words(test)
     if state.test_voided_by_opening and state.last_opening_at is not None:
         opened = local_day(state.last_opening_at)
-        return Outcome(opened, f"{tested}; void: the housing was opened on {opened}", (), True)
+        return Outcome(
+            opened, clauses(tested, f"void: the housing was opened on {opened}"), (), True
+        )
     acceptance = pressure_test_acceptance(test, unit.variant, rules)
     if not acceptance.passed:
-        reasons = "; ".join(acceptance.reasons)
-        return Outcome(test.tested_on, f"{tested}; not accepted: {reasons}", (), True)
+        reasons = clauses(*acceptance.reasons)
+        return Outcome(test.tested_on, clauses(tested, f"not accepted: {reasons}"), (), True)
     due = add_months(test.tested_on, rules.pressure_test_valid_months)
     basis = (
-        f"{tested} (proof {rules.proof_factor:g} × rating {unit.variant.depth_rating_m:.0f} m "
-        f"needs {acceptance.required_dbar:.0f} dbar), held {test.hold_minutes:g} min, fell "
-        f"{acceptance.hold.drop_percent:.2f} %; valid {rules.pressure_test_valid_months} months "
-        f"to {due}"
+        f"{tested} (proof {rules.proof_factor:g} × rating "
+        f"{quantity(unit.variant.depth_rating_m, 'm', 0)} needs "
+        f"{quantity(acceptance.required_dbar, 'dbar', 0)}), held "
+        f"{quantity(test.hold_minutes, 'min')}, fell "
+        f"{quantity(acceptance.hold.drop_percent, '%', 2)}; valid "
+        f"{rules.pressure_test_valid_months} months to {due}"
     )
     return Outcome(due, basis)
 
@@ -384,9 +396,10 @@ def release_outcome(state: UnitState | None, rules: Rules) -> Outcome:
     if failures:
         return Outcome(test.tested_on, f"{what} failed: {', '.join(failures)}", (), True)
     due = release_valid_to(test.tested_on, rules)
-    basis = (
-        f"{what}: released in {test.seconds_to_release:g} s at {test.motor_current_a:g} A; "
-        f"valid {rules.release_test_valid_days} days to {due}"
+    basis = clauses(
+        f"{what}: released in {quantity(test.seconds_to_release, 's')} at "
+        f"{quantity(test.motor_current_a, 'A')}",
+        f"valid {rules.release_test_valid_days} days to {due}",
     )
     return Outcome(due, basis)
 
@@ -395,14 +408,17 @@ def sensor_outcome(check: SensorCheck | None, unit: Transponder, rules: Rules) -
     if check is None:
         return Outcome(None, "no check recorded")
     failures = sensor_check_failures(check, unit.variant, rules)
+    reading_unit = check.unit_for("unit_reading")
     what = (
-        f"checked {check.checked_on}: reads {check.unit_reading:g} "
-        f"against {check.reference_value:g}"
+        f"checked {check.checked_on}: reads {quantity(check.unit_reading, reading_unit)} "
+        f"against {quantity(check.reference_value, reading_unit)}"
     )
     if failures:
-        return Outcome(check.checked_on, f"{what}; {'; '.join(failures)}", (), True)
+        return Outcome(check.checked_on, clauses(what, *failures), (), True)
     due = add_months(check.checked_on, rules.sensor_check_interval_months)
-    return Outcome(due, f"{what}; every {rules.sensor_check_interval_months} months, next {due}")
+    return Outcome(
+        due, clauses(what, f"every {rules.sensor_check_interval_months} months, next {due}")
+    )
 
 
 def seal_outcome(row: SealState, rules: Rules, duty: Duty) -> Outcome:

@@ -42,16 +42,19 @@ from enum import StrEnum
 from fleet.calc import buoyancy as calc_buoyancy
 from fleet.calc import ranging as calc_ranging
 from fleet.calc import seawater as calc_seawater
-from fleet.models import Deployment, Site, Transponder
+from fleet.formatting import clauses, number, percent, quantity, signed
+from fleet.models import Deployment, SensorCheck, Site, Transponder
 
 from .condition import Condition, annotate_condition, condition_of
 from .engine import (
     SENSOR_FLAGS,
+    BatteryProjection,
     UnitEvaluation,
     battery_projection,
     evaluate_fleet,
     evaluate_unit,
     fleet_queryset,
+    pressure_tested_words,
     sensor_key,
     state_of,
 )
@@ -203,15 +206,25 @@ def check_status(c: Context) -> list[CheckResult]:
     return [CheckResult("Unit condition", verdict, numbers, "—")]
 
 
+def depth_words(site_m: float, rating_m: float, want_fraction: float) -> str:
+    """The depth check in one sentence. Spare depth is the rating less the site's depth, as a
+    share of the rating; a site deeper than the rating says by how much instead."""
+    site, rating = quantity(site_m, "m"), quantity(rating_m, "m")
+    if site_m > rating_m:
+        return f"site {site} is {quantity(site_m - rating_m, 'm')} deeper than the {rating} rating"
+    spare = (rating_m - site_m) / rating_m
+    return (
+        f"site {site}, rating {rating}: {quantity(rating_m - site_m, 'm')} to spare, "
+        f"{percent(spare)} of the rating (want at least {percent(want_fraction)})"
+    )
+
+
 def check_depth(c: Context, margins: dict[str, float]) -> list[CheckResult]:
     rules, site = c.ev.rules, c.planned.site
     rating = c.ev.unit.variant.depth_rating_m
     spare = (rating - site.water_depth_m) / rating
     margins["depth"] = spare
-    numbers = (
-        f"site {site.water_depth_m:.0f} m, rating {rating:.0f} m, "
-        f"{spare:.0%} to spare (want {rules.depth_margin_fraction:.0%})"
-    )
+    numbers = depth_words(site.water_depth_m, rating, rules.depth_margin_fraction)
     if site.water_depth_m > rating:
         verdict = Verdict.FAIL
     elif spare < rules.depth_margin_fraction:
@@ -231,21 +244,54 @@ def check_pressure_test(c: Context) -> list[CheckResult]:
     item = c.ev.item("pressure_test")
     if test is None or item is None:
         return [CheckResult(name, Verdict.FAIL, "no pressure test recorded", source)]
-    head = f"site {c.site_pressure_dbar:.0f} dbar × {rules.proof_factor:g} = {needed:.0f} dbar"
+    head = (
+        f"this site needs {quantity(needed, 'dbar', 0)} "
+        f"({quantity(c.site_pressure_dbar, 'dbar', 0)} × {rules.proof_factor:g})"
+    )
     if item.failed:
-        return [CheckResult(name, Verdict.FAIL, f"{head}; {item.basis}", source)]
-    tested = f"tested {test.tested_on} at {test.start_pressure_dbar:.0f} dbar"
+        # The item's basis already names the test and what is wrong with it.
+        return [CheckResult(name, Verdict.FAIL, clauses(head, item.basis), source)]
+    tested = pressure_tested_words(test)
     if test.start_pressure_dbar < needed * (1.0 - rules.gauge_tolerance_percent / 100.0):
-        return [CheckResult(name, Verdict.FAIL, f"{head}; {tested}: held less than needed", source)]
+        short = needed - test.start_pressure_dbar
+        numbers = clauses(head, f"{tested}, {quantity(short, 'dbar', 0)} short of it")
+        return [CheckResult(name, Verdict.FAIL, numbers, source)]
     dated = _dated_item_check(
         name, item, c.planned, source, missing=Verdict.FAIL, lapses=Verdict.WARN
     )
-    return [CheckResult(name, dated.verdict, f"{head}; {tested}; {dated.numbers}", source)]
+    return [CheckResult(name, dated.verdict, clauses(head, tested, dated.numbers), source)]
+
+
+def battery_words(
+    battery: BatteryProjection, planned: PlannedDeployment, rate: float, step: int, need: float
+) -> str:
+    """The battery check in one sentence. The reserve is the share of the usable charge kept
+    back for the recovery (the variant's setting); a shortfall says what is short and by
+    how much."""
+    left = battery.remaining_ah - need
+    start = (
+        f"{quantity(battery.remaining_ah, 'Ah')} on {planned.start} at "
+        f"{quantity(battery.temperature_c, '°C', 1)}; {planned.days} days at "
+        f"{number(rate, 0)} replies a day, step {step} "
+        f"({quantity(battery.charge_per_reply_as * 1000, 'mA·s', 1)} a reply) need "
+        f"{quantity(need, 'Ah')}"
+    )
+    reserve = f"{quantity(battery.reserve_ah, 'Ah')} reserve kept back"
+    if left < 0:
+        end = f"short by {quantity(-left, 'Ah')}: the pack runs out before recovery"
+    elif left < battery.reserve_ah:
+        short = quantity(battery.reserve_ah - left, "Ah")
+        end = f"{quantity(left, 'Ah')} left at recovery, {short} short of the {reserve}"
+    else:
+        end = f"{quantity(left, 'Ah')} left at recovery, above the {reserve}"
+    return clauses(start, end)
 
 
 def check_battery(c: Context, margins: dict[str, float]) -> list[CheckResult]:
     ev, planned = c.ev, c.planned
-    source = "capacity vs temperature: Linden's Handbook of Batteries (from memory); charge = I·t"
+    # The capacity-against-temperature figures are recalled from Linden's Handbook (from
+    # memory, see calc.battery); the page names the handbook only.
+    source = "capacity vs temperature: Linden's Handbook of Batteries; charge = I·t"
     state = state_of(ev.unit)
     battery = (
         battery_projection(
@@ -268,12 +314,7 @@ def check_battery(c: Context, margins: dict[str, float]) -> list[CheckResult]:
     days = planned.days
     need = (battery.daily_in_water_ah + battery.self_discharge_daily_ah) * days
     left = battery.remaining_ah - need
-    numbers = (
-        f"{battery.remaining_ah:.1f} Ah on {planned.start} at {battery.temperature_c:g} °C; "
-        f"{days} days at {c.rate:.0f} replies a day, step {c.step} "
-        f"({battery.charge_per_reply_as * 1000:.1f} mA·s a reply) need {need:.1f} Ah; "
-        f"{left:.1f} Ah left at recovery, reserve {battery.reserve_ah:.1f} Ah"
-    )
+    numbers = battery_words(battery, planned, c.rate, c.step, need)
     if left < 0:
         verdict = Verdict.FAIL
     elif left < battery.reserve_ah:
@@ -350,16 +391,23 @@ def check_release(c: Context) -> list[CheckResult]:
     ]
 
 
+def sensor_source(sensor: str) -> str:
+    """The sources behind one sensor's check, each for its own quantity: the PT100 standard
+    for a temperature element only, TEOS-10 for the pressure sensor's full scale only."""
+    source = f"interval and tolerance: {COMMON}"
+    if sensor == SensorCheck.Sensor.TEMPERATURE:
+        return f"{source}; PT100 element: IEC 60751"
+    if sensor == SensorCheck.Sensor.PRESSURE:
+        return f"{source}; full scale at the rated depth: TEOS-10 (gsw)"
+    return source
+
+
 def check_sensors(c: Context) -> list[CheckResult]:
     results = []
     for sensor, flag, _attr in SENSOR_FLAGS:
         if not getattr(c.ev.unit.variant, flag):
             continue
-        source = f"interval and tolerance: {COMMON}"
-        if sensor == sensor.TEMPERATURE:
-            source += "; PT100 element: IEC 60751"
-        elif sensor == sensor.PRESSURE:
-            source += "; full scale at the rated depth: TEOS-10 (gsw)"
+        source = sensor_source(sensor)
         item = c.ev.item(sensor_key(sensor))
         results.append(
             _dated_item_check(
@@ -376,11 +424,27 @@ def check_sensors(c: Context) -> list[CheckResult]:
     return results
 
 
+def buoyancy_words(result: calc_buoyancy.RecoveryBuoyancy, mass_kg: float, volume_m3: float) -> str:
+    """The buoyancy check in one sentence, each number once: the net lift at the least
+    favourable density, what is required, and the shortfall when it is short."""
+    net = signed(result.net_buoyancy_kg, "kgf")
+    head = (
+        f"{net} net at the {result.met_at} ({quantity(result.density_kg_m3, 'kg/m³', 1)}), "
+        f"needs {quantity(result.required_kg, 'kgf')} "
+        f"({quantity(mass_kg, 'kg')} in air, {number(volume_m3, 4)} m³)"
+    )
+    if result.passed:
+        return head
+    if result.net_buoyancy_kg <= 0:
+        return clauses(head, "the unit sinks: it will not come up on its own")
+    return clauses(head, f"{quantity(result.required_kg - result.net_buoyancy_kg, 'kgf')} short")
+
+
 def check_buoyancy(c: Context) -> list[CheckResult]:
     variant, site, rules = c.ev.unit.variant, c.planned.site, c.ev.rules
     source = (
         "Archimedes; density TEOS-10 (gsw) at the seabed and the surface, the lower taken; "
-        f"reserve {rules.recovery_reserve_fraction_of_mass:.0%} of the mass in air, at least "
+        f"reserve {percent(rules.recovery_reserve_fraction_of_mass)} of the mass in air, at least "
         f"{rules.recovery_min_net_buoyancy_kg:g} kgf: {COMMON}"
     )
     name = "Recovery buoyancy"
@@ -404,13 +468,7 @@ def check_buoyancy(c: Context) -> list[CheckResult]:
         min_net_buoyancy_kg=rules.recovery_min_net_buoyancy_kg,
         reserve_fraction_of_mass=rules.recovery_reserve_fraction_of_mass,
     )
-    numbers = (
-        f"{result.net_buoyancy_kg:+.1f} kgf net at the {result.met_at} "
-        f"({result.density_kg_m3:.1f} kg/m³), needs {result.required_kg:.1f} kgf "
-        f"({variant.mass_in_air_kg:g} kg in air, {variant.displaced_volume_m3:g} m³)"
-    )
-    if not result.passed:
-        numbers += "; " + "; ".join(result.reasons)
+    numbers = buoyancy_words(result, variant.mass_in_air_kg, variant.displaced_volume_m3)
     verdict = Verdict.PASS if result.passed else Verdict.FAIL
     return [CheckResult(name, verdict, numbers, source)]
 

@@ -18,12 +18,12 @@ from django.core.exceptions import ValidationError
 from django.core.validators import MaxLengthValidator, MaxValueValidator, MinValueValidator
 from django.db import models
 from django.db.models import Q, QuerySet
-from django.template.defaultfilters import floatformat
 from django.urls import reverse
 from django.utils import timezone
 from django.utils.text import capfirst
 
 from fleet.calc.seawater import pressure_dbar
+from fleet.formatting import quantity, signed, yes_no
 
 from .places import Place
 from .units import Transponder
@@ -163,6 +163,18 @@ class Entry(models.Model):
         return str(record.remote_field.related_name)
 
     @classmethod
+    def shown_fields(cls) -> tuple[str, ...]:
+        """The fields a page or report prints for an entry of this kind, in model order: every
+        recorded value (not the record link, the unit beside it, nor a photo)."""
+        return tuple(
+            f.name
+            for f in cls._meta.concrete_fields
+            if not f.primary_key
+            and f.name not in ("record", "unit")
+            and not isinstance(f, models.FileField)
+        )
+
+    @classmethod
     def plural_title(cls) -> str:
         return str(capfirst(cls._meta.verbose_name_plural))
 
@@ -246,11 +258,11 @@ class AnodeReading(Entry):
     def describe(self) -> str:
         parts = []
         if self.mass_g is not None:
-            parts.append(f"{self.mass_g:g} g")
+            parts.append(quantity(self.mass_g, "g"))
         if self.remaining_percent is not None:
-            parts.append(f"{self.remaining_percent:g} % remaining")
+            parts.append(f"{quantity(self.remaining_percent, '%')} remaining")
         if self.bond_resistance_ohm is not None:
-            parts.append(f"bond {self.bond_resistance_ohm:g} Ω")
+            parts.append(f"bond {quantity(self.bond_resistance_ohm, 'Ω')}")
         if self.replaced:
             parts.append("replaced")
         return ", ".join(parts)
@@ -496,8 +508,13 @@ class PressureTest(Entry):
 
     def describe(self) -> str:
         return (
-            f"Pressure test {floatformat(self.test_pressure_dbar, 0)} dbar, "
-            f"{floatformat(self.hold_minutes, 0)} min hold"
+            f"Pressure test at {quantity(self.test_pressure_dbar, 'dbar')}: "
+            f"{quantity(self.start_pressure_dbar, 'dbar')} to "
+            f"{quantity(self.end_pressure_dbar, 'dbar')} over "
+            f"{quantity(self.hold_minutes, 'min')}, water "
+            f"{quantity(self.water_temperature_start_c, '°C')} to "
+            f"{quantity(self.water_temperature_end_c, '°C')}, ingress "
+            f"{yes_no(self.ingress_found).lower()}"
         )
 
     def warning(self) -> str:
@@ -601,8 +618,13 @@ class ReleaseTest(Entry):
         return f"{self.get_kind_display()} release test on {self.tested_on}"
 
     def describe(self) -> str:
+        load = f" under {quantity(self.load_kg, 'kg')}" if self.load_kg else ""
         return (
-            f"{self.get_kind_display()} release test: {floatformat(self.seconds_to_release, -1)} s"
+            f"{self.get_kind_display()} release test{load}: released in "
+            f"{quantity(self.seconds_to_release, 's')} at "
+            f"{quantity(self.motor_current_a, 'A')}, limit switch "
+            f"{yes_no(self.limit_switch_ok).lower()}, acoustic command "
+            f"{yes_no(self.acoustic_command_ok).lower()}"
         )
 
     def clean(self) -> None:
@@ -622,6 +644,10 @@ SENSOR_RANGES: dict[str, tuple[float, float]] = {
     "pressure": (0.0, 12000.0),
     "tilt": (-90.0, 90.0),
 }
+
+
+# The unit each sensor's readings are in.
+SENSOR_UNITS: dict[str, str] = {"temperature": "°C", "pressure": "dbar", "tilt": "°"}
 
 
 def _sensor_range_check() -> models.CheckConstraint:
@@ -695,10 +721,18 @@ class SensorCheck(Entry):
         return f"{self.get_sensor_display()} check on {self.checked_on}"
 
     def describe(self) -> str:
+        unit = self.unit_for("unit_reading")
         return (
-            f"{self.get_sensor_display()} check: reads {floatformat(self.unit_reading, -3)} "
-            f"against {floatformat(self.reference_value, -3)}"
+            f"{self.get_sensor_display()} check: reads {quantity(self.unit_reading, unit)} "
+            f"against {quantity(self.reference_value, unit)} "
+            f"(error {signed(self.error, unit)})"
         )
+
+    def unit_for(self, field_name: str) -> str:
+        """The unit of one of this check's numbers: the sensor's for its two readings."""
+        if field_name == "raw_resistance_ohm":
+            return "Ω"
+        return SENSOR_UNITS.get(self.sensor, "")
 
     @property
     def error(self) -> float:

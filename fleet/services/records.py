@@ -70,12 +70,25 @@ def _person(user: object) -> str:
     return str(full or user)
 
 
+def last_change(record: ServiceRecord) -> tuple[object, dt.datetime]:
+    """Who moved the record last, and when: its close, if that came after the last edit or
+    amendment; else the last edit or amendment; else its creation."""
+    if record.closed_at is not None and (
+        record.updated_by_id is None or record.closed_at >= record.updated_at
+    ):
+        return record.closed_by, record.closed_at
+    if record.updated_by_id is not None:
+        return record.updated_by, record.updated_at
+    return record.created_by, record.created_at
+
+
 def check_version(current: ServiceRecord, expected_version: int | None) -> None:
     """Refuse an edit built from an older version of the record, naming who changed it."""
     if expected_version is None or current.version == expected_version:
         return
-    who = _person(current.updated_by or current.closed_by or current.created_by)
-    when = timezone.localtime(current.updated_at)
+    who_by, at = last_change(current)
+    who = _person(who_by)
+    when = timezone.localtime(at)
     raise ValidationError(
         "%(who)s changed this record at %(when)s, after you loaded it. Nothing of yours was "
         "saved: reload the page to see their change, then enter yours again.",
@@ -209,6 +222,14 @@ def _save_entry(record: ServiceRecord, entry: Entry) -> None:
         entry.save(update_fields=changed)
 
 
+def _stamp(record: ServiceRecord, **moments: dt.datetime) -> None:
+    """Write the given audit times of an open record (``created_at`` and ``updated_at`` take
+    the clock on every save, so a past moment is written after it)."""
+    ServiceRecord.objects.filter(pk=record.pk, closed_at__isnull=True).update(**moments)
+    for name, value in moments.items():
+        setattr(record, name, value)
+
+
 @transaction.atomic
 def service_record_save(
     *,
@@ -218,6 +239,7 @@ def service_record_save(
     by: User,
     expected_version: int | None = None,
     pack_removal: tuple[dt.date, float | None] | None = None,
+    at: dt.datetime | None = None,
 ) -> ServiceRecord:
     """Create or update an open record with its entries, all or nothing.
 
@@ -225,7 +247,8 @@ def service_record_save(
     fields that changed are written. ``expected_version`` is the version the editor loaded; a
     stale edit is refused (naming who changed the record and when) rather than silently
     overwriting a colleague's work. ``pack_removal`` (date, open-circuit volts) takes out the
-    pack fitted at an earlier visit, as a removal entry of this record.
+    pack fitted at an earlier visit, as a removal entry of this record. ``at`` is when the
+    write happened, for history entered afterwards (the demo's past visits); default now.
     """
     if record.pk is not None:
         unit, current = _lock_record(record.pk)
@@ -239,6 +262,8 @@ def service_record_save(
         current.updated_by = by
         current.full_clean()
         current.save(update_fields=[*changed, "version", "updated_by", "updated_at"])
+        if at is not None:
+            _stamp(current, updated_at=at)
         record.version, record.updated_at = current.version, current.updated_at
         record.updated_by = by
     else:
@@ -248,6 +273,8 @@ def service_record_save(
         record.version = 1
         record.full_clean()
         record.save()
+        if at is not None:
+            _stamp(record, created_at=at, updated_at=at)
         current = record
     current.unit = unit
     record.unit = unit
@@ -299,12 +326,13 @@ def service_record_close(
         raise ValidationError(
             "This record has no entries, so there is nothing to close; discard the visit instead."
         )
+    # Closing is its own event (closed_by, closed_at): the last change to the contents
+    # (updated_by, updated_at) stays who last edited the entries.
     current.closed_at = at
     current.closed_by = by
-    current.updated_by = by
     current.version += 1
-    current.save(update_fields=["closed_at", "closed_by", "updated_by", "version", "updated_at"])
-    for name in ("closed_at", "closed_by", "updated_by", "version", "updated_at"):
+    current.save(update_fields=["closed_at", "closed_by", "version"])
+    for name in ("closed_at", "closed_by", "version"):
         setattr(record, name, getattr(current, name))
 
 
@@ -419,7 +447,7 @@ def amendment_create(
             raise ValidationError({"target": "That entry belongs to another record."})
         fresh = found
     if field_name not in amendable_fields(fresh):
-        raise ValidationError({"field_name": f"{field_name} cannot be amended."})
+        raise ValidationError({"field_name": "That value cannot be corrected by an amendment."})
 
     field = amendable_field(fresh, field_name)
     original = field.value_to_string(fresh)

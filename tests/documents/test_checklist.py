@@ -63,7 +63,7 @@ def test_it_prepares_every_field_for_the_hand_built_history(history):
         "pass",
         "Pass",
         "✔",
-        "site 1350 m, rating 1500 m, 10% to spare (want 10%)",
+        "site 1,350 m, rating 1,500 m: 150 m to spare, 10 % of the rating (want at least 10 %)",
         "margin: common practice, no published source",
     )
     assert doc.checks[8].numbers == "due 2026-08-29, after recovery 2026-07-09"  # 180 days
@@ -109,7 +109,7 @@ def test_the_pdf_states_the_checks_items_cautions_and_sign_off(history):
         "Test site A",
         "2026-04-10 to 2026-07-09",
         "Automated checks overall: ✔ Pass",
-        "site 1350 m, rating 1500 m, 10% to spare (want 10%)",
+        "site 1,350 m, rating 1,500 m: 150 m to spare, 10 % of the rating (want at least 10 %)",
         "✔ Pass",
         "Acoustic address 101 and turnaround delay 12.5 ms set and verified on deck",
         "Vent plug fitted",
@@ -119,7 +119,7 @@ def test_the_pdf_states_the_checks_items_cautions_and_sign_off(history):
         "kilovolt pulses",
         "discharge the drive",
         "never stand in line with an end cap",
-        "Lithium primary packs",
+        "Alkaline pack: alkaline cells can give off hydrogen",  # PK-77 is alkaline
         "pinch points",
         "rated gear",
         "Follow local codes, your company's procedures and licensed practice",
@@ -129,6 +129,8 @@ def test_the_pdf_states_the_checks_items_cautions_and_sign_off(history):
         "Time",
     ):
         assert expected in text, expected
+    assert "Lithium" not in text  # the fitted pack is alkaline
+    assert "NOT FIT TO DEPLOY" not in text
     for number, page in enumerate(pages, start=1):
         assert f"HF-CL-TX-0001-2026-04-10-{history.site.pk}" in page
         assert f"page {number} of {len(pages)}" in page

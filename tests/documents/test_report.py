@@ -53,16 +53,27 @@ def test_it_prepares_every_entry_amendment_and_photo(history):
     ]
     assert doc.sections[0] == EntrySection(
         "Anode readings",
-        ("#", "Position", "Net mass", "Remaining", "Bond", "Replaced", "Note"),
         (
-            (str(a1), "Anode 1", "382 g", "—", "0.03 Ω", "no", ""),  # amended from 380
-            (str(a2), "Anode 2", "390 g", "—", "0.02 Ω", "no", HOSTILE),
+            "#",
+            "Position",
+            "Net mass (g)",
+            "Estimated remaining (%)",
+            "Bond resistance (Ω)",
+            "Replaced",
+            "Note",
         ),
+        (
+            (str(a1), "Anode 1 (Al-Zn-In)", "382 g", "—", "0.03 Ω", "No", "—"),  # amended 380
+            (str(a2), "Anode 2 (Al-Zn-In)", "390 g", "—", "0.02 Ω", "No", HOSTILE),
+        ),
+        singular="Anode reading",
     )
     assert doc.sections[1].rows == (
-        (str(s1), "Seal 1 (AS568-240)", "NBR", "2025-10-01", "L-1", "Interval reached"),
-        (str(s2), "Seal 2 (AS568-240)", "NBR", "2025-10-01", "L-1", "Interval reached"),
+        (str(s1), "Seal 1 (AS568-240)", "NBR (nitrile)", "2025-10-01", "L-1", "Interval reached"),
+        (str(s2), "Seal 2 (AS568-240)", "NBR (nitrile)", "2025-10-01", "L-1", "Interval reached"),
     )
+    # A test carries its verdict, from the same rules readiness applies.
+    assert doc.sections[3].headers[-1] == "Verdict"
     assert doc.sections[4].rows == (
         (
             str(ids["release_tests"][0]),
@@ -71,26 +82,28 @@ def test_it_prepares_every_entry_amendment_and_photo(history):
             "250 kg",
             "12.5 s",
             "1.8 A",
-            "yes",
-            "yes",
+            "Yes",
+            "Yes",
+            "✔ Pass",
         ),
     )
     assert doc.sections[6].rows[0][1:] == (
         "2026-03-02 09:15 UTC",
         "2026-03-02 11:00 UTC",
-        "yes",
-        "no",
+        "Yes",
+        "No",
         "battery change",
     )
     amendment = record.amendments.get()
+    # Labels and values in words, never the field's name or its stored text.
     assert doc.amendments == (
         AmendmentLine(
             amendment.created_at,
             "super",
-            f"anode reading #{a1}",
-            "mass_g",
-            "380.0",
-            "382.0",
+            f"Anode reading #{a1}",
+            "Net mass (g)",
+            "380 g",
+            "382 g",
             f"Scale misread. {HOSTILE}",
         ),
     )
@@ -109,17 +122,18 @@ def test_the_pdf_shows_entries_amendments_people_and_hostile_text_literally(hist
         "Technician tech",
         "2026-03-02 16:00 UTC by super",
         "PK-77",
-        "2000 dbar",
+        "2,000 dbar",
         "Tank 2",
         "12.5 s",
         "Temperature (°C)",
         "battery change",
-        "380.0 382.0",
+        "380 g 382 g",
         "Annual service. <b>bold</b> & <A href=x> S&P <unclosed",
         "Scale misread. <b>bold</b> & <A href=x> S&P <unclosed",
         "Anode reading #",
         "never stand in line with an end cap",
-        "Reviewed by (supervisor)",
+        "Technician (tech): the entries above",
+        "Supervisor (super): I have checked every entry",
     ):
         assert expected in text, expected
     assert text.count("<b>bold</b> & <A href=x> S&P <unclosed") == 3  # summary, note, reason

@@ -195,7 +195,7 @@ def test_a_pressure_test_is_valid_for_twelve_months(unit, technician):
     assert test.due_on == dt.date(2027, 2, 1)
     assert test.state == DueState.CURRENT
     # 1.25 x gsw pressure at 1500 m, 45 deg N: gsw 3.6.23 p_from_z(-1500, 45) = 1517.4 dbar
-    assert "needs 1897 dbar" in test.basis
+    assert "needs 1,897 dbar" in test.basis
 
 
 def test_a_housing_opening_voids_thepressure_test(unit, technician):

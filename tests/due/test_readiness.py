@@ -7,6 +7,7 @@ import pytest
 
 from fleet.due.planned import PlannedDeployment
 from fleet.due.readiness import Verdict, plan_campaign, readiness_for
+from fleet.formatting import quantity, signed
 from fleet.models import (
     AnodeReading,
     BatteryInstall,
@@ -113,7 +114,7 @@ def test_every_check_states_its_numbers_and_source(unit, site, technician):
         assert expected in names
     pressure = next(c for c in result.checks if c.name == "Pressure test")
     # Site 1350 m at 45 deg N: gsw 3.6.23 p_from_z(-1350, 45) = 1365.51 dbar; x 1.25 = 1706.9
-    assert "site 1366 dbar × 1.25 = 1707 dbar" in pressure.numbers
+    assert "this site needs 1,707 dbar (1,366 dbar × 1.25)" in pressure.numbers
     assert "TEOS-10" in pressure.source
     buoyancy = next(c for c in result.checks if c.name == "Recovery buoyancy")
     # Least favourable: the surface at the default 30 degC, SP 35, 0 dbar (TEOS-10 via gsw),
@@ -121,9 +122,10 @@ def test_every_check_states_its_numbers_and_source(unit, site, technician):
     sa = gsw.SA_from_SP(35.0, 0.0, site.longitude_deg, site.latitude_deg)
     rho = float(gsw.rho(sa, gsw.CT_from_t(sa, 30.0, 0.0), 0.0))
     assert buoyancy.verdict == Verdict.PASS
-    assert f"{0.060 * rho - 45.0:+.1f} kgf net at the surface ({rho:.1f} kg/m³)" in (
-        buoyancy.numbers
-    )
+    # Printed with the house convention (fleet.formatting): a sign, thousands grouped,
+    # one decimal at most.
+    net = signed(0.060 * rho - 45.0, "kgf")
+    assert f"{net} net at the surface ({quantity(rho, 'kg/m³', 1)})" in buoyancy.numbers
     # Reserve 10 % of 45 kg in air = 4.5 kgf, above the 2 kgf minimum (common practice).
     assert "needs 4.5 kgf" in buoyancy.numbers
 

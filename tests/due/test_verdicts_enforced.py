@@ -15,6 +15,7 @@ from fleet.due.engine import evaluate_unit, fleet_queryset
 from fleet.due.planned import PlannedDeployment
 from fleet.due.readiness import Verdict, plan_campaign, readiness_for
 from fleet.due.rules import rules_for
+from fleet.formatting import quantity, signed
 from fleet.models import AnodeReading, AnodeState, PressureTest, ReleaseTest, Transponder
 from tests.due.test_engine import ON, t, visit
 from tests.due.test_readiness import serviced, verdicts
@@ -113,8 +114,10 @@ def test_a_floating_unit_must_keep_a_reserve_of_its_mass_in_air(unit, site, tech
     result = readiness_for(unit, PlannedDeployment(site, ON, 30), on=ON)
     buoyancy = checks(result)["Recovery buoyancy"]
     assert buoyancy.verdict == Verdict.FAIL
-    assert "+3.0 kgf net at the surface" in buoyancy.numbers
+    assert "+3 kgf net at the surface" in buoyancy.numbers
     assert "needs 4.5 kgf" in buoyancy.numbers
+    assert "; 1.5 kgf short" in buoyancy.numbers  # 4.5 - 3.0, said once
+    assert buoyancy.numbers.count("kgf net") == 1
 
 
 def test_buoyancy_is_judged_where_the_water_is_least_dense_on_the_way_up(unit, site, technician):
@@ -131,7 +134,8 @@ def test_buoyancy_is_judged_where_the_water_is_least_dense_on_the_way_up(unit, s
     result = readiness_for(unit, PlannedDeployment(site, ON, 30), on=ON)
     buoyancy = checks(result)["Recovery buoyancy"]
     assert buoyancy.verdict == Verdict.FAIL
-    assert f"{at_surface:+.1f} kgf net at the surface ({surface:.1f} kg/m³)" in buoyancy.numbers
+    net = signed(at_surface, "kgf")
+    assert f"{net} net at the surface ({quantity(surface, 'kg/m³', 1)})" in buoyancy.numbers
 
 
 def test_the_minimum_hold_is_one_setting_and_calc_has_no_default_of_its_own(unit, site, technician):

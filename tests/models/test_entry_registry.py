@@ -111,12 +111,6 @@ HISTORY_TEMPLATE = {
     SealChange: "Seal {{ e.position.name }} changed ({{ e.get_reason_display|lower }})",
     BatteryInstall: 'Battery {{ e.pack_serial }} installed {{ e.installed_on|date:"Y-m-d" }}'
     '{% if e.removed_on %}, removed {{ e.removed_on|date:"Y-m-d" }}{% endif %}',
-    PressureTest: "Pressure test {{ e.test_pressure_dbar|floatformat:0 }} dbar, "
-    "{{ e.hold_minutes|floatformat:0 }} min hold",
-    ReleaseTest: "{{ e.get_kind_display }} release test: "
-    '{{ e.seconds_to_release|floatformat:"-1" }} s',
-    SensorCheck: '{{ e.get_sensor_display }} check: reads {{ e.unit_reading|floatformat:"-3" }} '
-    'against {{ e.reference_value|floatformat:"-3" }}',
     HousingOpening: "Housing opened: {{ e.reason }}",
     PackRemoval: 'Battery {{ e.install.pack_serial }} removed {{ e.removed_on|date:"Y-m-d" }}',
 }
@@ -174,8 +168,28 @@ def _entries(unit, record):
 def test_each_kind_describes_itself_as_the_history_template_did(unit, technician):
     record = make_record(unit=unit, by=technician)
     for kind, entry in _entries(unit, record).items():
+        if kind not in HISTORY_TEMPLATE:
+            continue
         expected = Template(HISTORY_TEMPLATE[kind]).render(Context({"e": entry}, autoescape=False))
         assert entry.history_line() == expected, kind.__name__
+
+
+@pytest.mark.django_db
+def test_each_test_kind_reads_its_numbers_with_units_in_the_history(unit, technician):
+    # Worked by hand from the values in _entries: thousands grouped, trailing zeros dropped,
+    # a space before every unit.
+    entries = _entries(unit, make_record(unit=unit, by=technician))
+    assert entries[PressureTest].history_line() == (
+        "Pressure test at 1,900.5 dbar: 1,900 dbar to 1,898 dbar over 44.5 min, "
+        "water 12 °C to 12.2 °C, ingress no"
+    )
+    assert entries[ReleaseTest].history_line() == (
+        "Wet (in tank or alongside) release test: released in 4.25 s at 1.2 A, "
+        "limit switch no, acoustic command no"
+    )
+    assert entries[SensorCheck].history_line() == (
+        "Temperature (°C) check: reads 21.123 °C against 21.1 °C (error +0.023 °C)"
+    )
 
 
 @pytest.mark.django_db
@@ -289,7 +303,8 @@ def test_a_kind_added_by_the_recipe_shows_up_on_every_page(
     # The record page has its section; the unit page's history has its line.
     body = as_technician.get(record.get_absolute_url()).content.decode()
     assert "<h2>Gauge zero checks</h2>" in body
-    assert "gauge zero -0.4 dbar on 2026-03-02" in body
+    assert "<th>Zero offset (dbar)</th>" in body
+    assert "<td>-0.4 dbar</td>" in body
     history = as_technician.get(unit.get_absolute_url()).content.decode().split("<h2>History")[1]
     assert "<li>Gauge reads -0.4 dbar at the surface</li>" in history
 
@@ -301,7 +316,11 @@ def test_a_kind_added_by_the_recipe_shows_up_on_every_page(
     assert amendable_targets(record) == [record, check]
     assert amendable_fields(check) == ("checked_on", "zero_offset_dbar", "note")
     amend = as_supervisor.get(reverse("record-amend", args=[record.pk]))
-    assert f"gaugezerocheck:{check.pk}:zero_offset_dbar" in amend.content.decode()
+    assert f'value="gaugezerocheck:{check.pk}"' in amend.content.decode()
+    amend = as_supervisor.get(
+        reverse("record-amend", args=[record.pk]), {"target": f"gaugezerocheck:{check.pk}"}
+    )
+    assert "Zero offset (dbar) (now: -0.4 dbar)" in amend.content.decode()
     response = as_supervisor.post(
         reverse("record-amend", args=[record.pk]),
         {
@@ -315,13 +334,14 @@ def test_a_kind_added_by_the_recipe_shows_up_on_every_page(
     check.refresh_from_db()
     assert check.zero_offset_dbar == -0.6
 
-    # The service report prints it with its amendable fields as columns.
+    # The service report prints it with its fields, by label, as columns.
     record.refresh_from_db()
     assert prepare_report(record).sections == (
         EntrySection(
             "Gauge zero checks",
             ("#", "Checked on", "Zero offset (dbar)", "Note"),
-            ((str(check.pk), "2026-03-02", "-0.6", ""),),
+            ((str(check.pk), "2026-03-02", "-0.6 dbar", "—"),),
+            singular="Gauge zero check",
         ),
     )
 

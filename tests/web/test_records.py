@@ -63,7 +63,7 @@ def test_the_page_offers_one_anode_row_per_position(as_technician, unit):
     response = as_technician.get(reverse("record-new", args=[unit.serial]))
     assert response.status_code == 200
     assert response.context["formsets"][0][1].total_form_count() == 2
-    assert b"Vent it from behind a shield" in response.content
+    assert b"vent it from behind a shield" in response.content
 
 
 def test_it_saves_a_record_with_all_its_entries(as_technician, unit, workshop, technician):
@@ -372,8 +372,10 @@ def test_the_record_page_shows_who_created_and_closed_it(
     record.refresh_from_db()
     body = as_supervisor.get(record.get_absolute_url()).content.decode()
     assert "Closed, read-only" in body
-    assert f"Created</dt><dd>{technician}" in body
-    assert f"Closed</dt><dd>{supervisor}" in body
+    assert f"Created</dt><dd>by {technician}," in body
+    assert f"Closed</dt><dd>by {supervisor}," in body
+    # Closing is not a change to the contents: nobody edited the record after creating it.
+    assert "Last changed" not in body
 
 
 def test_a_fitted_pack_is_taken_out_with_its_removal_volts(

@@ -227,3 +227,17 @@ def test_the_mid_water_units_can_be_planned_for_their_own_shallow_site(seeded: S
     plan = plan_campaign(planned, wanted=4, on=today)
     ready = {r.unit.serial for r in plan.ready}
     assert {"HF1-0103", "HF1-0109"} <= ready
+
+
+def test_demo_records_carry_their_own_dates_not_the_load_time(seeded: Seeded) -> None:
+    # A visit from 2023 was created in 2023: the record's audit trail tells its own history,
+    # and closing it is not a change to its contents.
+    records = list(ServiceRecord.objects.all())
+    assert records
+    for record in records:
+        assert record.created_at == record.opened_at, record.pk
+        assert record.updated_by_id is None, record.pk
+        if record.closed_at is not None:
+            assert record.closed_at >= record.created_at
+    oldest = min(r.created_at for r in records)
+    assert oldest.date() < timezone.localdate() - dt.timedelta(days=365)

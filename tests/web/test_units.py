@@ -135,12 +135,16 @@ def test_the_history_flags_a_release_test_the_due_rules_fail(as_viewer, unit, te
     body = as_viewer.get(reverse("unit-detail", args=[unit.serial])).content.decode()
     history = body.split("<h2>History")[1]
     assert "release test:" in history
-    assert "fault noted" not in history
+    assert '<span aria-hidden="true">✔</span> Pass' in history
+    assert "FAIL" not in history
     # Both confirmations given, but slower than the rules allow: failed by the same rule
     # the due list applies (release_test_failures), not by a rule of the template's own.
     ReleaseTest.objects.update(seconds_to_release=limit + 1)
     body = as_viewer.get(reverse("unit-detail", args=[unit.serial])).content.decode()
-    assert f"{limit + 1:g} s, <strong>fault noted</strong></li>" in body.split("<h2>History")[1]
+    history = body.split("<h2>History")[1]
+    assert f"released in {limit + 1:g} s" in history
+    assert '<span aria-hidden="true">✖</span> FAIL' in history
+    assert f"<strong>(took {limit + 1:g} s, limit {limit:g} s)</strong>" in history
 
 
 def test_a_deployed_unit_reads_in_the_water_at_its_site_not_at_its_last_place(

@@ -122,26 +122,26 @@ class SealPositionForm(forms.ModelForm[SealPosition]):
 
     gland: GlandReport | None = None
 
-    def clean(self) -> dict[str, Any]:
-        super().clean()
-        data = self.cleaned_data
-        if self.errors or not data.get("gland_kind") or not data.get("as568_dash"):
-            return data
-        if data.get("groove_width_mm") is None:
-            return data  # the model says what is missing
+    def _post_clean(self) -> None:
+        # After the model's own checks (sizes complete, groove inside the bore, dash number
+        # normalised), so a figure's message can sit on its field without emptying it.
+        super()._post_clean()
+        position = self.instance
+        if self.errors or not position.gland_kind or position.groove_width_mm is None:
+            return
         try:
             self.gland = check_gland(
-                dash=data["as568_dash"],
-                kind=GlandKind(data["gland_kind"]),
-                bore_diameter_mm=data.get("bore_diameter_mm"),
-                groove_diameter_mm=data.get("groove_diameter_mm"),
-                groove_depth_mm=data.get("groove_depth_mm"),
-                groove_width_mm=data["groove_width_mm"],
+                dash=position.as568_dash,
+                kind=GlandKind(position.gland_kind),
+                bore_diameter_mm=position.bore_diameter_mm,
+                groove_diameter_mm=position.groove_diameter_mm,
+                groove_depth_mm=position.groove_depth_mm,
+                groove_width_mm=position.groove_width_mm,
             )
-        except ValueError:
-            return data  # missing or impossible sizes: the model's clean() names the field
+        except ValueError as exc:  # the model's clean() refuses these first; never a 500
+            self.add_error(None, str(exc))
+            return
         self._confirm_outside_ranges(self.gland)
-        return data
 
     def _confirm_outside_ranges(self, gland: GlandReport) -> None:
         failed = [f for f in gland.figures if f.verdict == Verdict.FAIL]

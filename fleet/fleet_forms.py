@@ -122,26 +122,24 @@ class SealPositionForm(forms.ModelForm[SealPosition]):
 
     gland: GlandReport | None = None
 
-    def _post_clean(self) -> None:
-        # After the model's own checks (sizes complete, groove inside the bore, dash number
-        # normalised), so a figure's message can sit on its field without emptying it.
-        super()._post_clean()
-        position = self.instance
-        if self.errors or not position.gland_kind or position.groove_width_mm is None:
-            return
+    def clean(self) -> dict[str, Any]:
+        super().clean()
+        data = self.cleaned_data
+        if self.errors or not data.get("gland_kind") or data.get("groove_width_mm") is None:
+            return data  # the model's clean() says what is missing
         try:
             self.gland = check_gland(
-                dash=position.as568_dash,
-                kind=GlandKind(position.gland_kind),
-                bore_diameter_mm=position.bore_diameter_mm,
-                groove_diameter_mm=position.groove_diameter_mm,
-                groove_depth_mm=position.groove_depth_mm,
-                groove_width_mm=position.groove_width_mm,
+                dash=data.get("as568_dash", ""),
+                kind=GlandKind(data["gland_kind"]),
+                bore_diameter_mm=data.get("bore_diameter_mm"),
+                groove_diameter_mm=data.get("groove_diameter_mm"),
+                groove_depth_mm=data.get("groove_depth_mm"),
+                groove_width_mm=data["groove_width_mm"],
             )
-        except ValueError as exc:  # the model's clean() refuses these first; never a 500
-            self.add_error(None, str(exc))
-            return
+        except ValueError:
+            return data  # no AS568 size, or the groove outside the bore: the model names it
         self._confirm_outside_ranges(self.gland)
+        return data
 
     def _confirm_outside_ranges(self, gland: GlandReport) -> None:
         failed = [f for f in gland.figures if f.verdict == Verdict.FAIL]
@@ -152,11 +150,14 @@ class SealPositionForm(forms.ModelForm[SealPosition]):
         if self.cleaned_data.get("confirm_gland"):
             return
         for figure in failed:
+            value = self.cleaned_data.get(figure.field)
             self.add_error(
                 figure.field,
                 f"{capfirst(figure.name)} {figure.percent:.1f} % with {gland.ring}; the usual "
                 f"range is {figure.accepted} (common practice, no published source).",
             )
+            # add_error drops the value; keep it so the model's checks see the whole gland.
+            self.cleaned_data[figure.field] = value
         self.add_error(
             "confirm_gland",
             "Check the gland drawing. If these sizes are right, tick this box to keep them.",

@@ -203,6 +203,7 @@ def variant_formsets(
             formset=VariantPartFormSet,
             extra=extra,
             can_delete=True,
+            can_delete_extra=False,
         )
         formsets.append((title, formset_class(data, instance=variant, prefix=prefix)))
     return formsets

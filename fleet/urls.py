@@ -1,7 +1,19 @@
 from django.contrib import admin
 from django.urls import include, path
 
-from .views import dashboard, deployments, documents, feeds, find, media, planning, records, units
+from .views import (
+    dashboard,
+    deployments,
+    documents,
+    feeds,
+    find,
+    media,
+    planning,
+    records,
+    unit_changes,
+    units,
+    variants,
+)
 
 urlpatterns = [
     path("", dashboard.dashboard, name="dashboard"),
@@ -42,6 +54,16 @@ urlpatterns = [
     path("recall/", find.recall_view, name="recall"),
     path("records/", find.record_list, name="record-list"),
     path("labels/contact/", documents.label_contact, name="label-contact"),
+    # Fleet management (supervisors): variants, units registered, edited, moved and held
+    path("fleet/variants/", variants.variant_list, name="variant-list"),
+    path("fleet/variants/new/", variants.variant_new, name="variant-new"),
+    path("fleet/variants/<int:pk>/", variants.variant_detail, name="variant-detail"),
+    path("fleet/variants/<int:pk>/edit/", variants.variant_edit, name="variant-edit"),
+    path("fleet/units/new/", unit_changes.unit_new, name="unit-new"),
+    path("fleet/units/new-several/", unit_changes.units_new_batch, name="units-new-batch"),
+    path("units/<str:serial>/edit/", unit_changes.unit_edit, name="unit-edit"),
+    path("units/<str:serial>/move/", unit_changes.unit_move_view, name="unit-move"),
+    path("units/<str:serial>/hold/", unit_changes.unit_hold, name="unit-hold"),
     # Documents (PDFs), release certificates and the public verification page
     path("units/<str:serial>/checklist.pdf", documents.checklist_pdf, name="unit-checklist-pdf"),
     path("units/<str:serial>/checklist/", documents.checklist_form, name="unit-checklist"),

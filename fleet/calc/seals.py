@@ -220,6 +220,11 @@ class GlandBands:
 STATIC_RADIAL_BANDS: Final = GlandBands(15.0, 25.0, 30.0)
 STATIC_FACE_BANDS: Final = GlandBands(20.0, 30.0, 30.0)
 
+# Where each part of a gland check comes from, as pages print it.
+SIZE_SOURCE: Final = "SAE AS568 Table 1"
+GEOMETRY_SOURCE: Final = "geometric definitions (squeeze, stretch, fill), no standard needed"
+BANDS_SOURCE: Final = "common practice from seal-design guides, no published source"
+
 
 @dataclass(frozen=True, slots=True)
 class GlandCheck:

@@ -18,12 +18,13 @@ from .records import (
     ServiceRecord,
 )
 from .state import AnodeState, DueRow, SealState, UnitState
-from .units import Transponder, UnitHold, UnitPhoto
+from .units import HoldChange, Transponder, UnitHold, UnitPhoto
 from .variants import (
     AnodeAlloy,
     AnodePosition,
     Chemistry,
     Elastomer,
+    GlandKind,
     HousingAlloy,
     ReplyChargeStep,
     SealPosition,
@@ -43,6 +44,8 @@ __all__ = [
     "Deployment",
     "DueRow",
     "Elastomer",
+    "GlandKind",
+    "HoldChange",
     "HousingAlloy",
     "HousingOpening",
     "LabelSetting",

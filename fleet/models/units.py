@@ -130,6 +130,25 @@ def check_power_step(variant: Variant, step: int, field: str) -> None:
         )
 
 
+class HoldChange(models.Model):
+    """One change of a unit's hold, with who made it, when and why (the unit keeps the latest)."""
+
+    unit = models.ForeignKey(Transponder, on_delete=models.CASCADE, related_name="hold_changes")
+    from_hold = models.CharField(max_length=12, choices=UnitHold.choices)
+    to_hold = models.CharField(max_length=12, choices=UnitHold.choices)
+    reason = models.TextField(
+        max_length=REASON_MAX_CHARS, validators=[MaxLengthValidator(REASON_MAX_CHARS)]
+    )
+    set_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+")
+    set_at = models.DateTimeField()
+
+    class Meta:
+        ordering = ["-set_at", "-pk"]
+
+    def __str__(self) -> str:
+        return f"{self.get_from_hold_display()} to {self.get_to_hold_display()}: {self.reason}"
+
+
 def _photo_path(instance: "UnitPhoto", filename: str) -> str:
     return f"units/{instance.unit.serial}/{filename}"
 

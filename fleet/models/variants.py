@@ -10,6 +10,7 @@ from django.core.exceptions import ValidationError
 from django.core.validators import MaxLengthValidator, MaxValueValidator, MinValueValidator
 from django.db import models
 
+from fleet.calc.seals import AS568
 from fleet.calc.seawater import MAX_PRESSURE_DBAR, pressure_dbar
 
 from .validators import SUMMARY_MAX_CHARS, finite, range_checks
@@ -50,6 +51,18 @@ class Elastomer(models.TextChoices):
     EPDM = "EPDM", "EPDM"
     VMQ = "VMQ", "VMQ (silicone)"
     CR = "CR", "CR (chloroprene)"
+
+
+class GlandKind(models.TextChoices):
+    RADIAL = "radial", "Static radial (ring on the groove bottom, squeezed by the bore)"
+    FACE = "face", "Static face (axial)"
+
+
+_GLAND_FIELDS = ("bore_diameter_mm", "groove_diameter_mm", "groove_depth_mm", "groove_width_mm")
+_GLAND_FIELDS_BY_KIND = {
+    GlandKind.RADIAL: {"bore_diameter_mm", "groove_diameter_mm", "groove_width_mm"},
+    GlandKind.FACE: {"groove_depth_mm", "groove_width_mm"},
+}
 
 
 class Chemistry(models.TextChoices):
@@ -323,12 +336,45 @@ class SealPosition(models.Model):
         validators=[MinValueValidator(1), MaxValueValidator(100)],
         help_text="Housing openings a fitted ring may see before it is replaced.",
     )
+    # The gland as drawn, checked against the AS568 ring by calc.seals (squeeze, stretch, fill).
+    gland_kind = models.CharField(
+        "gland", max_length=8, choices=GlandKind.choices, blank=True, default=""
+    )
+    bore_diameter_mm = models.FloatField(
+        "bore diameter (mm)",
+        null=True,
+        blank=True,
+        validators=[finite, MinValueValidator(1.0), MaxValueValidator(2000.0)],
+        help_text="Radial gland: the bore the ring is squeezed against.",
+    )
+    groove_diameter_mm = models.FloatField(
+        "groove diameter (mm)",
+        null=True,
+        blank=True,
+        validators=[finite, MinValueValidator(0.5), MaxValueValidator(2000.0)],
+        help_text="Radial gland: the groove bottom the ring is stretched over.",
+    )
+    groove_depth_mm = models.FloatField(
+        "groove depth (mm)",
+        null=True,
+        blank=True,
+        validators=[finite, MinValueValidator(0.1), MaxValueValidator(20.0)],
+        help_text="Face gland: the groove depth.",
+    )
+    groove_width_mm = models.FloatField(
+        "groove width (mm)",
+        null=True,
+        blank=True,
+        validators=[finite, MinValueValidator(0.1), MaxValueValidator(50.0)],
+    )
 
     class Meta:
         ordering = ["variant", "name"]
         constraints = [
             models.UniqueConstraint(fields=["variant", "name"], name="uniq_seal_position_name")
         ]
+
+    Meta.constraints = [*Meta.constraints, *range_checks(locals())]
 
     def __str__(self) -> str:
         return f"{self.name} ({self.size_label})"
@@ -358,3 +404,28 @@ class SealPosition(models.Model):
             raise ValidationError(
                 {"as568_dash": "Give an AS568 dash number, or both ISO 3601 d1 and d2."}
             )
+        self._clean_gland()
+
+    def _clean_gland(self) -> None:
+        """The gland's dimensions are complete for its kind, and only its kind's are given.
+        Whether they suit the ring (squeeze, stretch, fill) is ``fleet.due.glands``' call."""
+        given = {name for name in _GLAND_FIELDS if getattr(self, name) is not None}
+        if not self.gland_kind:
+            if given:
+                raise ValidationError({"gland_kind": "Say which kind of gland these sizes are."})
+            return
+        needed = _GLAND_FIELDS_BY_KIND[GlandKind(self.gland_kind)]
+        errors = {name: "Give this for the gland check." for name in needed - given}
+        errors |= {
+            name: f"Not used by a {self.gland_kind} gland; leave it empty."
+            for name in given - needed
+        }
+        if not self.as568_dash:
+            errors["gland_kind"] = "The gland check works from an AS568 size; give its dash number."
+        elif int(self.as568_dash) not in AS568:
+            errors["as568_dash"] = f"AS568-{self.as568_dash} is not a size in SAE AS568 Table 1."
+        bore, groove = self.bore_diameter_mm, self.groove_diameter_mm
+        if bore is not None and groove is not None and groove >= bore:
+            errors["groove_diameter_mm"] = "The groove diameter must be smaller than the bore."
+        if errors:
+            raise ValidationError(errors)

@@ -20,6 +20,7 @@ from fleet.models import (
     ServiceRecord,
     Site,
     Transponder,
+    Variant,
 )
 
 
@@ -59,9 +60,17 @@ def _check(request: HttpRequest, write: bool, supervise: bool = False) -> None:
         raise PermissionDenied
 
 
-def get_unit_for_user(request: HttpRequest, serial: str, *, write: bool = False) -> Transponder:
-    _check(request, write)
+def get_unit_for_user(
+    request: HttpRequest, serial: str, *, write: bool = False, supervise: bool = False
+) -> Transponder:
+    _check(request, write, supervise)
     return get_object_or_404(Transponder.objects.select_related("variant", "place"), serial=serial)
+
+
+def get_variant_for_user(request: HttpRequest, pk: int) -> Variant:
+    """Variants are managed by supervisors: 403 before 404."""
+    _check(request, write=False, supervise=True)
+    return get_object_or_404(Variant, pk=pk)
 
 
 def get_record_for_user(

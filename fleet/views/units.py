@@ -13,6 +13,7 @@ from fleet.due.rules import rules_for
 from fleet.due.store import unit_due_items
 from fleet.exports import csv_response
 from fleet.filters import UnitFilter
+from fleet.fleet_forms import UnitMoveForm
 from fleet.forms import PlannedDeploymentForm, UnitPhotoForm
 from fleet.models import Transponder
 from fleet.selectors import unit_page, with_next_due
@@ -82,5 +83,7 @@ def unit_detail(request: HttpRequest, serial: str) -> HttpResponse:
             "history": page.history,
             "photos": unit.photos.select_related("uploaded_by"),
             "photo_form": UnitPhotoForm(),
+            "move_form": UnitMoveForm(initial={"place": unit.place_id, "version": unit.version}),
+            "hold_changes": unit.hold_changes.select_related("set_by"),
         },
     )

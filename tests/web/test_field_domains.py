@@ -21,7 +21,7 @@ from django.utils import timezone
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from fleet.calc import anodes, battery, buoyancy, pressure, ranging, rtd, seawater
+from fleet.calc import anodes, battery, buoyancy, pressure, ranging, rtd, seals, seawater
 from fleet.forms import PlannedDeploymentForm
 from fleet.models import (
     AnodePosition,
@@ -206,6 +206,16 @@ FEEDS: tuple[Feed, ...] = (
          lambda v: battery.charge_used_ah(v * 24.0, 0.0002, 0, 0.005), integer=True),
     Feed(PlannedDeploymentForm, "rate", "battery.charge_used_ah(replies)",
          lambda v: battery.charge_used_ah(24.0, 0.0002, round(v), 0.005), integer=True),
+    # Seal glands: calc.seals checks them against the AS568 ring (SealPosition.clean keeps
+    # the groove inside the bore).
+    Feed(SealPosition, "bore_diameter_mm", "seals.gland_check_radial(bore_diameter_mm)",
+         lambda v: seals.gland_check_radial(seals.as568(240), v, v / 2.0, 4.75)),
+    Feed(SealPosition, "groove_diameter_mm", "seals.gland_check_radial(groove_diameter_mm)",
+         lambda v: seals.gland_check_radial(seals.as568(240), v + 1.0, v, 4.75)),
+    Feed(SealPosition, "groove_depth_mm", "seals.gland_check_face(groove_depth_mm)",
+         lambda v: seals.gland_check_face(seals.as568(240), v, 4.75)),
+    Feed(SealPosition, "groove_width_mm", "seals.gland_check_face(groove_width_mm)",
+         lambda v: seals.gland_check_face(seals.as568(240), 2.6, v)),
 )  # fmt: skip
 
 # FloatFields that feed no calc function, and why.

@@ -42,7 +42,7 @@ def derived_rows(unit_ids: list[int] | None = None) -> Iterator[DueRow]:
     )
     cache: dict[int, Rules] = {}
     today = timezone.localdate()
-    for unit in fleet_queryset(units.order_by("pk")).iterator(chunk_size=500):
+    for unit in fleet_queryset(units.order_by("pk"), share_variants=True).iterator(chunk_size=500):
         evaluation = evaluate_unit(unit, on=today, rules_cache=cache)
         for index, item in enumerate(evaluation.items):
             yield DueRow(

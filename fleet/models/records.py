@@ -74,6 +74,12 @@ class ServiceRecord(models.Model):
 
     class Meta:
         ordering = ["-opened_at", "-pk"]
+        # The overview's open visits, oldest first, read from the few open rows alone.
+        indexes = [
+            models.Index(
+                fields=["opened_at"], condition=Q(closed_at__isnull=True), name="record_open_by_age"
+            )
+        ]
         constraints = [
             models.CheckConstraint(
                 condition=Q(closed_at__isnull=True) | Q(closed_at__gte=models.F("opened_at")),
@@ -234,6 +240,9 @@ class AnodeReading(Entry):
 
     class Meta:
         ordering = ["position__name"]
+        # One unit's readings at one position (the anode chart) found by its visits, not by
+        # scanning the position's readings across the fleet.
+        indexes = [models.Index(fields=["position", "record"], name="anodereading_position_record")]
 
     Meta.constraints = range_checks(locals())
 

@@ -90,7 +90,8 @@ def _refresh_anodes(
     anode_rows: dict[int, AnodeState] = {
         pk: AnodeState(unit=unit, position_id=pk) for pk in positions
     }
-    sums: dict[int, WearSums] = {pk: WearSums.empty() for pk in positions}
+    # Per position, the (x, kg) points of the anode now fitted, summed once at the end.
+    points: dict[int, list[tuple[float, float]]] = {pk: [] for pk in positions}
     for (position_id, mass_g, percent, bond, replaced, opened_at), x in zip(
         readings, xs, strict=True
     ):
@@ -99,7 +100,7 @@ def _refresh_anodes(
         mass_kg = _mass_kg(new_kg, mass_g, percent)
         if mass_kg is None:
             continue
-        sums[position_id] = sums[position_id].add(max(0.0, x - row.immersed_days_at_fit), mass_kg)
+        points[position_id].append((max(0.0, x - row.immersed_days_at_fit), mass_kg))
         row.last_read_at = opened_at
         row.last_mass_kg = mass_kg
         row.last_bond_resistance_ohm = bond
@@ -109,9 +110,9 @@ def _refresh_anodes(
             row.last_mass_kg = new_kg
             # The bond measured at this visit was the old anode's; the new one has none yet.
             row.last_bond_resistance_ohm = None
-            sums[position_id] = WearSums.empty().add(0.0, new_kg)
+            points[position_id] = [(0.0, new_kg)]
     for pk, row in anode_rows.items():
-        s = sums[pk]
+        s = WearSums.empty().extend(points[pk])
         row.n, row.sum_x, row.sum_y = s.n, s.sum_x, s.sum_y
         row.sum_xx, row.sum_xy, row.sum_yy = s.sum_xx, s.sum_xy, s.sum_yy
     AnodeState.objects.filter(unit=unit).delete()

@@ -25,7 +25,7 @@ evaluation then reads one row per item.
 import datetime as dt
 
 from django.db import transaction
-from django.db.models import Max, Q
+from django.db.models import Q
 from django.utils import timezone
 
 from fleet.calc.anodes import WearSums
@@ -69,32 +69,30 @@ def _mass_kg(new_kg: float, mass_g: float | None, remaining_percent: float | Non
 
 
 def _refresh_anodes(
-    unit: Transponder, intervals: list[tuple[dt.datetime, dt.datetime | None]]
+    unit: Transponder,
+    intervals: list[tuple[dt.datetime, dt.datetime | None]],
+    visits: dict[int, dt.datetime],
 ) -> None:
     """Step 2: rewrite the unit's anode rows from its readings, read as plain values (no
-    model per reading) with every reading's immersed days found in one pass."""
+    model per reading, no date per reading: ``visits`` holds each visit's opening) with
+    every visit's immersed days found in one pass."""
     positions = {p.pk: p for p in unit.variant.anode_positions.all()}
     readings = list(
         AnodeReading.objects.filter(record__unit=unit, position__in=list(positions))
         .order_by("record__opened_at", "pk")
         .values_list(
-            "position_id",
-            "mass_g",
-            "remaining_percent",
-            "bond_resistance_ohm",
-            "replaced",
-            "record__opened_at",
+            "position_id", "mass_g", "remaining_percent", "bond_resistance_ohm", "replaced",
+            "record_id",
         )
-    )
-    xs = immersed_days_at_each(intervals, [reading[5] for reading in readings])
+    )  # fmt: skip
+    x_at = dict(zip(visits, immersed_days_at_each(intervals, visits.values()), strict=True))
     anode_rows: dict[int, AnodeState] = {
         pk: AnodeState(unit=unit, position_id=pk) for pk in positions
     }
     # Per position, the (x, kg) points of the anode now fitted, summed once at the end.
     points: dict[int, list[tuple[float, float]]] = {pk: [] for pk in positions}
-    for (position_id, mass_g, percent, bond, replaced, opened_at), x in zip(
-        readings, xs, strict=True
-    ):
+    for position_id, mass_g, percent, bond, replaced, record_id in readings:
+        opened_at, x = visits[record_id], x_at[record_id]
         row = anode_rows[position_id]
         new_kg = positions[position_id].new_net_mass_g / 1000.0
         mass_kg = _mass_kg(new_kg, mass_g, percent)
@@ -253,7 +251,8 @@ def refresh_unit_state(unit: Transponder, *, at: dt.datetime) -> UnitState:
     recovered = [(d, d.recovered_at) for d in deployments if d.recovered_at is not None]
     open_deployment = next((d for d in deployments if d.recovered_at is None), None)
 
-    _refresh_anodes(unit, intervals)
+    visits = dict(ServiceRecord.objects.filter(unit=unit).values_list("pk", "opened_at"))
+    _refresh_anodes(unit, intervals, visits)
     openings: list[Opening] = list(
         HousingOpening.objects.filter(record__unit=unit)
         .order_by("opened_at")
@@ -268,9 +267,7 @@ def refresh_unit_state(unit: Transponder, *, at: dt.datetime) -> UnitState:
     latest_check = _latest_checks(unit)
 
     events = [over for over, _ in intervals] + [back for _, back in closed_intervals]
-    last_visit = ServiceRecord.objects.filter(unit=unit).aggregate(last=Max("opened_at"))["last"]
-    if last_visit is not None:
-        events.append(last_visit)
+    events += visits.values()
     duty = open_deployment or (recovered[-1][0] if recovered else None)
     state, _ = UnitState.objects.update_or_create(
         unit=unit,

@@ -12,9 +12,10 @@ from dataclasses import dataclass
 from django.utils import timezone
 
 from fleet.calc.exposure import immersed_days_at_each
-from fleet.models import AnodeReading, Deployment
+from fleet.models import Deployment
 
 from .engine import UnitEvaluation
+from .state import unit_readings
 
 
 @dataclass(frozen=True, slots=True)
@@ -36,7 +37,7 @@ def anode_history(ev: UnitEvaluation, position_id: int) -> AnodeHistory | None:
     )
     # Plain values, oldest first; each reading's immersed days found in one pass.
     rows = list(
-        AnodeReading.objects.filter(record__unit=unit, position_id=position_id)
+        unit_readings(unit, [position_id])
         .order_by("record__opened_at", "pk")
         .values_list("mass_g", "remaining_percent", "replaced", "record__opened_at")
     )

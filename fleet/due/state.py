@@ -25,7 +25,7 @@ evaluation then reads one row per item.
 import datetime as dt
 
 from django.db import transaction
-from django.db.models import Q
+from django.db.models import F, Q, QuerySet
 from django.utils import timezone
 
 from fleet.calc.anodes import WearSums
@@ -60,6 +60,19 @@ def test_moment(test: PressureTest) -> dt.datetime:
     return timezone.make_aware(dt.datetime.combine(test.tested_on, test.hold_ended_at))
 
 
+def unit_readings(unit: Transponder, position_ids: list[int]) -> QuerySet[AnodeReading]:
+    """The unit's anode readings at ``position_ids``, found through its visits (the unit's
+    index on visits, then each visit's readings). The position is matched as an expression
+    (``position_id + 0``) so that a planner without statistics (SQLite's) does not pick
+    the position's index instead, which holds that position's readings across the fleet:
+    a third of a million rows on a fleet of 5,000 units over ten years."""
+    return (
+        AnodeReading.objects.filter(record__unit=unit)
+        .alias(position_no=F("position_id") + 0)
+        .filter(position_no__in=position_ids)
+    )
+
+
 def _mass_kg(new_kg: float, mass_g: float | None, remaining_percent: float | None) -> float | None:
     if mass_g is not None:
         return mass_g / 1000.0
@@ -78,7 +91,7 @@ def _refresh_anodes(
     every visit's immersed days found in one pass."""
     positions = {p.pk: p for p in unit.variant.anode_positions.all()}
     readings = list(
-        AnodeReading.objects.filter(record__unit=unit, position__in=list(positions))
+        unit_readings(unit, list(positions))
         .order_by("record__opened_at", "pk")
         .values_list(
             "position_id", "mass_g", "remaining_percent", "bond_resistance_ohm", "replaced",

@@ -240,9 +240,6 @@ class AnodeReading(Entry):
 
     class Meta:
         ordering = ["position__name"]
-        # One unit's readings at one position (the anode chart) found by its visits, not by
-        # scanning the position's readings across the fleet.
-        indexes = [models.Index(fields=["position", "record"], name="anodereading_position_record")]
 
     Meta.constraints = range_checks(locals())
 

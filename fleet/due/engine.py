@@ -36,6 +36,7 @@ from fleet.calc import battery as calc_battery
 from fleet.calc import seals as calc_seals
 from fleet.models import (
     AnodeState,
+    DueRow,
     SealState,
     SensorCheck,
     Transponder,
@@ -558,14 +559,33 @@ def evaluate_unit(
     return ev
 
 
+# A stored due row as plain values, in this order (``stored_rows``).
+STORED_ROW_FIELDS = ("kind", "key", "item", "due_on", "basis", "flags", "failed", "position")
+StoredRow = tuple[str, str, str, dt.date | None, str, str, bool, int]
+
+
+def stored_rows(units: QuerySet[Transponder]) -> dict[int, list[StoredRow]]:
+    """The stored due rows of ``units`` as plain values (no model per row), by unit id, in
+    the unit page's order. One query."""
+    by_unit: dict[int, list[StoredRow]] = {}
+    rows = DueRow.objects.filter(unit__in=units.values("pk")).order_by("unit_id", "position")
+    for unit_id, *row in rows.values_list("unit_id", *STORED_ROW_FIELDS).iterator(2000):
+        by_unit.setdefault(unit_id, []).append(tuple(row))
+    return by_unit
+
+
 def evaluate_stored(
-    unit: Transponder, *, on: dt.date, rules_cache: dict[int, Rules] | None = None
+    unit: Transponder,
+    rows: list[StoredRow],
+    *,
+    on: dt.date,
+    rules_cache: dict[int, Rules] | None = None,
 ) -> UnitEvaluation:
     """``evaluate_unit`` for a unit loaded with ``fleet_queryset`` and its stored due rows
-    (``due_rows`` prefetched): the items are the stored rows (equal to a fresh derivation,
-    which ``rebuild_state --check`` proves), the anode projections are worked out from the
-    state rows; ``battery`` is left unset (a planned deployment projects its own). A unit
-    with no state yet has no stored rows, so it is evaluated in full."""
+    (``stored_rows``): the items are the stored rows (equal to a fresh derivation, which
+    ``rebuild_state --check`` proves), the anode projections are worked out from the state
+    rows; ``battery`` is left unset (a planned deployment projects its own). A unit with no
+    state yet has no stored rows, so it is evaluated in full."""
     state = state_of(unit)
     if state is None:
         return evaluate_unit(unit, on=on, rules_cache=rules_cache)
@@ -583,11 +603,10 @@ def evaluate_stored(
     place = unit.place.name if unit.place else ""
     ev.items = [
         DueItem(
-            unit.pk, unit.serial, unit.variant.name, place, ItemKind(row.kind), row.key,
-            row.item, row.due_on, classify(row.due_on, on, rules.due_soon_days), row.basis,
-            tuple(row.flags.splitlines()), row.failed,
+            unit.pk, unit.serial, unit.variant.name, place, ItemKind(kind), key, item, due_on,
+            classify(due_on, on, rules.due_soon_days), basis, tuple(flags.splitlines()), failed,
         )
-        for row in sorted(unit.due_rows.all(), key=lambda r: r.position)
+        for kind, key, item, due_on, basis, flags, failed, _position in rows
     ]  # fmt: skip
     return ev
 

@@ -55,6 +55,7 @@ from .engine import (
     fleet_queryset,
     sensor_key,
     state_of,
+    stored_rows,
 )
 from .items import DueItem
 from .planned import PlannedDeployment
@@ -622,13 +623,12 @@ def plan_campaign(planned: PlannedDeployment, *, wanted: int, on: dt.date) -> Pl
     memo = SiteMemo(planned)
     results = []
     # The condition comes with the units (one SQL expression), not one query per unit.
-    units = fleet_queryset(
-        annotate_condition(Transponder.objects.exclude(hold__in=INACTIVE), on),
-        share_variants=True,
-    ).prefetch_related("due_rows")
+    active = Transponder.objects.exclude(hold__in=INACTIVE)
+    units = fleet_queryset(annotate_condition(active, on), share_variants=True)
+    rows = stored_rows(active)
     cache: dict[int, Rules] = {}
     for unit in units:
-        ev = evaluate_stored(unit, on=on, rules_cache=cache)
+        ev = evaluate_stored(unit, rows.get(unit.pk, []), on=on, rules_cache=cache)
         others = [s for s in clashes.get(ev.unit.acoustic_address, []) if s != ev.unit.serial]
         results.append(check_unit(ev, planned, address_clashes=others, memo=memo))
     candidates = sorted(

@@ -154,3 +154,28 @@ def test_the_planner_costs_the_same_queries_for_20_and_2000_units(
     # reply steps, the due rows (1 each). None of them grows with the fleet.
     assert count() == small
     assert small <= 10
+
+
+def test_the_overview_costs_the_same_queries_for_20_and_2000_units(
+    as_viewer, variant, site, technician, workshop
+):
+    template = make_unit(serial="TPL-1", variant=variant, place=workshop)
+    serviced_unit(
+        template, by=technician, site=site, day=timezone.localdate() - dt.timedelta(days=400)
+    )
+
+    def queries():
+        with CaptureQueriesContext(connection) as captured:
+            assert as_viewer.get("/").status_code == 200
+        return [q["sql"] for q in captured.captured_queries]
+
+    _copy_units(template, variant, workshop, 19)
+    small = queries()
+    Transponder.objects.filter(serial__startswith="BK-").delete()
+    _copy_units(template, variant, workshop, 1999)
+    large = queries()
+    assert len(large) == len(small)
+    # With no place or variant chosen, the due rows are not filtered by a list of every unit.
+    due_queries = [sql for sql in large if "fleet_duerow" in sql]
+    assert due_queries
+    assert not any('IN (SELECT U0."id"' in sql for sql in due_queries)

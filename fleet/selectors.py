@@ -4,10 +4,11 @@ queries it makes; tests/test_selectors.py holds it to that."""
 import datetime as dt
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
-from typing import Any
+from typing import Any, TypeVar
 
 from django.core.exceptions import ValidationError
-from django.db.models import Count, Field, Model, OuterRef, Prefetch, QuerySet, Subquery
+from django.db.models import Count, F, Field, Model, OuterRef, Prefetch, QuerySet, Subquery, Window
+from django.db.models.functions import RowNumber
 from django.utils import timezone
 from django.utils.text import capfirst
 
@@ -30,6 +31,8 @@ from fleet.models import (
     Variant,
 )
 from fleet.models.records import entry_kinds
+
+_E = TypeVar("_E", AnodeReading, SealChange)
 
 
 @dataclass(frozen=True, slots=True)
@@ -66,13 +69,16 @@ def previous_anode_mass(
 # The unit page
 
 
-def unit_records(*, unit: Transponder) -> list[ServiceRecord]:
-    """The unit's bench visits with every entry loaded. One query, plus one per entry kind
-    and one for amendments (eight) when there is at least one record."""
+def unit_records(*, unit: Transponder, pks: list[int] | None = None) -> list[ServiceRecord]:
+    """The unit's bench visits (only ``pks`` if given) with every entry loaded. One query,
+    plus one per entry kind and one for amendments when there is at least one record."""
+    if pks is not None and not pks:
+        return []
+    records = ServiceRecord.objects.filter(unit=unit)
+    if pks is not None:
+        records = records.filter(pk__in=pks)
     return list(
-        ServiceRecord.objects.filter(unit=unit)
-        .select_related("technician", "place", "closed_by")
-        .prefetch_related(
+        records.select_related("technician", "place", "closed_by").prefetch_related(
             *(
                 Prefetch(kind.related_name(), queryset=kind.with_list_related())
                 for kind in entry_kinds()
@@ -82,36 +88,38 @@ def unit_records(*, unit: Transponder) -> list[ServiceRecord]:
     )
 
 
-def unit_deployments(*, unit: Transponder) -> list[Deployment]:
-    """The unit's deployments with their sites and override authors. One query."""
-    return list(Deployment.objects.filter(unit=unit).select_related("site", "override_by"))
+def unit_deployments(*, unit: Transponder, pks: list[int] | None = None) -> list[Deployment]:
+    """The unit's deployments (only ``pks`` if given) with their sites and override authors.
+    One query (none for an empty ``pks``)."""
+    if pks is not None and not pks:
+        return []
+    deployments = Deployment.objects.filter(unit=unit)
+    if pks is not None:
+        deployments = deployments.filter(pk__in=pks)
+    return list(deployments.select_related("site", "override_by"))
 
 
-def _latest_by_position(entries: list[Any]) -> dict[int, Any]:
-    latest: dict[int, Any] = {}
-    for entry in entries:  # newest first
-        latest.setdefault(entry.position_id, entry)
-    return latest
+def _newest_per_position(entries: QuerySet[_E]) -> dict[int, _E]:
+    """The newest of ``entries`` at each position, picked in SQL (a window numbering each
+    position's entries newest first), so only one row per position is read. One query."""
+    newest = entries.annotate(
+        newness=Window(
+            RowNumber(),
+            partition_by=[F("position_id")],
+            order_by=[F("record__opened_at").desc(), F("pk").desc()],
+        )
+    ).filter(newness=1)
+    return {entry.position_id: entry for entry in newest.select_related("record", "position")}
 
 
 def last_anode_readings(*, unit: Transponder) -> dict[int, AnodeReading]:
     """The newest reading at each anode position, by position id. One query."""
-    readings = list(
-        AnodeReading.objects.filter(record__unit=unit)
-        .select_related("record", "position")
-        .order_by("-record__opened_at", "-pk")
-    )
-    return _latest_by_position(readings)
+    return _newest_per_position(AnodeReading.objects.filter(record__unit=unit))
 
 
 def last_seal_changes(*, unit: Transponder) -> dict[int, SealChange]:
     """The newest seal change at each seal position, by position id. One query."""
-    seal_changes = list(
-        SealChange.objects.filter(record__unit=unit)
-        .select_related("record", "position")
-        .order_by("-record__opened_at", "-pk")
-    )
-    return _latest_by_position(seal_changes)
+    return _newest_per_position(SealChange.objects.filter(record__unit=unit))
 
 
 def fitted_pack(*, unit: Transponder) -> BatteryInstall | None:
@@ -153,6 +161,74 @@ def unit_history(
     return sorted(entries, key=lambda item: item[1], reverse=True)
 
 
+HISTORY_PER_PAGE = 20
+
+
+@dataclass(frozen=True, slots=True)
+class HistoryPage:
+    """One page of a unit's history (bench visits and deployments, newest first)."""
+
+    entries: list[HistoryEntry]
+    number: int
+    total: int
+    per_page: int = HISTORY_PER_PAGE
+
+    @property
+    def num_pages(self) -> int:
+        return max(1, -(-self.total // self.per_page))
+
+    @property
+    def has_previous(self) -> bool:
+        return self.number > 1
+
+    @property
+    def has_next(self) -> bool:
+        return self.number < self.num_pages
+
+    @property
+    def previous_page_number(self) -> int:
+        return self.number - 1
+
+    @property
+    def next_page_number(self) -> int:
+        return self.number + 1
+
+
+def unit_history_page(*, unit: Transponder, rules: Rules, number: int = 1) -> HistoryPage:
+    """Page ``number`` of the unit's history, reading only that page's visits and
+    deployments in full. The newest ``number × per page`` of each kind, as keys, are merged
+    to find the page; so the first page costs the same whatever the unit's history.
+
+    Queries: the two counts, the keys of each kind (4); the page's records (1 + 9 prefetches)
+    and deployments (1), each only when the page has one.
+    """
+    records = ServiceRecord.objects.filter(unit=unit)
+    deployments = Deployment.objects.filter(unit=unit)
+    total = records.count() + deployments.count()
+    per_page = HISTORY_PER_PAGE
+    number = min(max(1, number), max(1, -(-total // per_page)))
+    upto = number * per_page
+    keys: list[tuple[dt.datetime, str, int]] = [
+        (when, "record", pk)
+        for pk, when in records.order_by("-opened_at", "-pk").values_list("pk", "opened_at")[:upto]
+    ]
+    keys += [
+        (when, "deployment", pk)
+        for pk, when in deployments.order_by("-over_side_at", "-pk").values_list(
+            "pk", "over_side_at"
+        )[:upto]
+    ]
+    keys.sort(key=lambda key: key[0], reverse=True)
+    shown = keys[upto - per_page : upto]
+    page_records = unit_records(unit=unit, pks=[pk for _, kind, pk in shown if kind == "record"])
+    page_deployments = unit_deployments(
+        unit=unit, pks=[pk for _, kind, pk in shown if kind == "deployment"]
+    )
+    return HistoryPage(
+        unit_history(page_records, page_deployments, rules, unit.variant), number, total
+    )
+
+
 @dataclass(frozen=True, slots=True)
 class UnitPage:
     anodes: list[tuple[AnodePosition, AnodeReading | None]]
@@ -160,14 +236,21 @@ class UnitPage:
     fitted_pack: BatteryInstall | None
     open_deployment: Deployment | None
     open_record: ServiceRecord | None
-    history: list[HistoryEntry]
+    history_page: HistoryPage
+
+    @property
+    def history(self) -> list[HistoryEntry]:
+        return self.history_page.entries
 
 
-def unit_page(*, unit: Transponder, rules: Rules) -> UnitPage:
-    """What the unit page shows besides the due items, for a unit loaded with its variant.
+def unit_page(*, unit: Transponder, rules: Rules, history_page: int = 1) -> UnitPage:
+    """What the unit page shows besides the due items, for a unit loaded with its variant;
+    the history one page at a time (``unit_history_page``), so the page costs the same
+    whatever the unit's history.
 
-    Queries: anode positions, seal positions, anode readings, seal changes, fitted pack,
-    records (plus eight prefetches when there are records), deployments: 7, or 15.
+    Queries: anode positions, seal positions, last anode readings, last seal changes, fitted
+    pack, open deployment, open record, then the history page (4, plus 10 for its records
+    and 1 for its deployments when it has any): 11 to 22.
     """
     variant = unit.variant
     anode_positions = list(variant.anode_positions.all())
@@ -175,15 +258,19 @@ def unit_page(*, unit: Transponder, rules: Rules) -> UnitPage:
     last_reading = last_anode_readings(unit=unit)
     last_seal = last_seal_changes(unit=unit)
     pack = fitted_pack(unit=unit)
-    records = unit_records(unit=unit)
-    deployments = unit_deployments(unit=unit)
+    open_deployment = (
+        Deployment.objects.filter(unit=unit, recovered_at__isnull=True)
+        .select_related("site")
+        .first()
+    )
+    open_record = ServiceRecord.objects.filter(unit=unit, closed_at__isnull=True).first()
     return UnitPage(
         anodes=[(p, last_reading.get(p.pk)) for p in anode_positions],
         seals=[(p, last_seal.get(p.pk)) for p in seal_positions],
         fitted_pack=pack,
-        open_deployment=next((d for d in deployments if d.recovered_at is None), None),
-        open_record=next((r for r in records if r.closed_at is None), None),
-        history=unit_history(records, deployments, rules, variant),
+        open_deployment=open_deployment,
+        open_record=open_record,
+        history_page=unit_history_page(unit=unit, rules=rules, number=history_page),
     )
 
 

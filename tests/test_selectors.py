@@ -8,7 +8,15 @@ from django.utils import timezone
 
 from fleet.due.condition import Condition
 from fleet.due.rules import rules_for
-from fleet.models import AnodeReading, BatteryInstall, SealChange, ServiceRecord, Transponder
+from fleet.models import (
+    AnodeReading,
+    BatteryInstall,
+    Deployment,
+    SealChange,
+    ServiceRecord,
+    Site,
+    Transponder,
+)
 from fleet.selectors import (
     fleet_counts,
     last_anode_readings,
@@ -18,6 +26,7 @@ from fleet.selectors import (
     record_sections,
     unit_deployments,
     unit_history,
+    unit_history_page,
     unit_page,
     unit_records,
     units_in_water,
@@ -168,10 +177,12 @@ def test_the_unit_page_reads_in_a_fixed_number_of_queries(
 ):
     anode1, anode2 = story["anodes"]
     seal1, seal2 = story["seals"]
-    # Expect 16 queries: anode positions, seal positions, last anode readings, last seal
-    # changes, fitted pack, records (1 + 9 prefetches, see above), deployments.
+    # Expect 22 queries: anode positions, seal positions, last anode readings, last seal
+    # changes, fitted pack, open deployment, open record; the history page: the counts of
+    # records and deployments, the keys of each, its records (1 + 9 prefetches, see above)
+    # and its deployments.
     unit = loaded(unit)
-    with django_assert_num_queries(16):
+    with django_assert_num_queries(22):
         page = unit_page(unit=unit, rules=rules_for(unit.variant))
     assert [(p.pk, r.mass_g if r else None) for p, r in page.anodes] == [
         (anode1.pk, 380.0),
@@ -191,14 +202,14 @@ def test_the_unit_page_reads_in_a_fixed_number_of_queries(
     )
     visit(unit, technician, t(2026, 6, 25, 9), AnodeReading(position=anode2, mass_g=385.0))
     unit = loaded(unit)
-    with django_assert_num_queries(16):
+    with django_assert_num_queries(22):
         assert len(unit_page(unit=unit, rules=rules_for(unit.variant)).history) == 5
 
 
-def test_a_unit_with_no_records_reads_in_seven_queries(unit, django_assert_num_queries):
-    # Expect 7 queries: as above, with no prefetches because there are no records.
+def test_a_unit_with_no_records_reads_in_eleven_queries(unit, django_assert_num_queries):
+    # Expect 11 queries: as above, with no record or deployment to load for the history.
     unit = loaded(unit)
-    with django_assert_num_queries(7):
+    with django_assert_num_queries(11):
         page = unit_page(unit=unit, rules=rules_for(unit.variant))
     assert page.fitted_pack is None
     assert page.open_deployment is None
@@ -290,3 +301,77 @@ def test_open_records_and_units_in_water_are_oldest_first(
         assert [(d.pk, d.unit.serial, d.site.name) for d in in_water] == [
             (story["deployments"][1].pk, unit.serial, story["deployments"][1].site.name)
         ]
+
+
+def _bulk_history(unit, technician, visits: int) -> None:
+    """``visits`` closed bench visits a week apart, each with a reading at every anode and a
+    deployment between them, written in bulk (the page only reads them)."""
+    positions = list(unit.variant.anode_positions.all())
+    start = t(2000, 1, 3)
+    records = ServiceRecord.objects.bulk_create(
+        ServiceRecord(
+            unit=unit,
+            opened_at=start + dt.timedelta(days=7 * i),
+            closed_at=start + dt.timedelta(days=7 * i, hours=8),
+            technician=technician,
+            place=unit.place,
+            created_by=technician,
+        )
+        for i in range(visits)
+    )
+    AnodeReading.objects.bulk_create(
+        AnodeReading(record=r, position=p, mass_g=390.0 - i * 0.01)
+        for i, r in enumerate(records)
+        for p in positions
+    )
+    Deployment.objects.bulk_create(
+        Deployment(
+            unit=unit,
+            site=Site.objects.first(),
+            over_side_at=start + dt.timedelta(days=7 * i + 1),
+            recovered_at=start + dt.timedelta(days=7 * i + 6),
+            planned_days=5,
+            planned_interrogations_per_day=100,
+            transmit_power_step=1,
+            created_by=technician,
+        )
+        for i in range(visits)
+    )
+
+
+def test_the_unit_page_costs_the_same_for_10_and_1000_readings(
+    variant, workshop, site, technician, django_assert_num_queries
+):
+
+    small = make_unit(serial="HS-0001", variant=variant, place=workshop)
+    large = make_unit(serial="HS-0002", acoustic_address="102", variant=variant, place=workshop)
+    _bulk_history(small, technician, 5)  # 10 readings at the two anodes
+    _bulk_history(large, technician, 500)  # 1,000 readings
+    assert AnodeReading.objects.filter(record__unit=large).count() == 1000
+    # Expect 22 queries for each: as in the test above, whatever the history's length.
+    for unit in (small, large):
+        unit = loaded(unit)
+        with django_assert_num_queries(22):
+            page = unit_page(unit=unit, rules=rules_for(unit.variant))
+        assert len(page.history) == (10 if unit == small else 20)
+    assert page.history_page.total == 1000
+    newest = t(2000, 1, 3) + dt.timedelta(days=7 * 499 + 1)
+    assert page.history[0][1] == newest  # the last deployment, newest first
+    assert {p.pk: r.mass_g for p, r in page.anodes} == {
+        p.pk: pytest.approx(390.0 - 499 * 0.01) for p in variant.anode_positions.all()
+    }
+
+
+def test_the_unit_history_pages_run_back_in_time_without_gaps(variant, workshop, site, technician):
+
+    unit = loaded(make_unit(serial="HS-0003", variant=variant, place=workshop))
+    _bulk_history(unit, technician, 25)  # 50 events: 25 visits, 25 deployments
+    rules = rules_for(unit.variant)
+    pages = [unit_history_page(unit=unit, rules=rules, number=n) for n in (1, 2, 3)]
+    assert [p.num_pages for p in pages] == [3, 3, 3]
+    whens = [when for p in pages for _, when, _, _ in p.entries]
+    assert len(whens) == 50
+    assert whens == sorted(whens, reverse=True)
+    assert len(set(whens)) == 50
+    # A page number past the end shows the last page.
+    assert unit_history_page(unit=unit, rules=rules, number=99).number == 3

@@ -550,6 +550,23 @@ class WearSums:
             self.sum_yy + y * y,
         )
 
+    def extend(self, points: Iterable[tuple[float, float]]) -> WearSums:
+        """Sums with every reading of ``points`` added in order: the same floats as calling
+        ``add`` for each, without a new object per reading (a long history in one step)."""
+        n, sx, sy, sxx, sxy, syy = (
+            self.n, self.sum_x, self.sum_y, self.sum_xx, self.sum_xy, self.sum_yy
+        )  # fmt: skip
+        for x, y in points:
+            if not (math.isfinite(x) and math.isfinite(y) and x >= 0.0 and y >= 0.0):
+                x, y = _check_point(x, y)  # raises, naming the bad value
+            n += 1
+            sx += x
+            sy += y
+            sxx += x * x
+            sxy += x * y
+            syy += y * y
+        return WearSums(n, sx, sy, sxx, sxy, syy)
+
     def remove(self, x: float, y: float) -> WearSums:
         """Sums without a reading that was added before (pass its original values)."""
         x, y = _check_point(x, y)

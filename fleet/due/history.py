@@ -11,10 +11,11 @@ from dataclasses import dataclass
 
 from django.utils import timezone
 
-from fleet.calc.exposure import immersed_days
-from fleet.models import AnodeReading, Deployment
+from fleet.calc.exposure import immersed_days_at_each
+from fleet.models import Deployment
 
 from .engine import UnitEvaluation
+from .state import unit_readings
 
 
 @dataclass(frozen=True, slots=True)
@@ -34,38 +35,38 @@ def anode_history(ev: UnitEvaluation, position_id: int) -> AnodeHistory | None:
     intervals = list(
         Deployment.objects.filter(unit=unit).values_list("over_side_at", "recovered_at")
     )
-    readings = (
-        AnodeReading.objects.filter(record__unit=unit, position_id=position_id)
-        .select_related("record", "position")
+    # Plain values, oldest first; each reading's immersed days found in one pass.
+    rows = list(
+        unit_readings(unit, [position_id])
         .order_by("record__opened_at", "pk")
+        .values_list("mass_g", "remaining_percent", "replaced", "record__opened_at")
     )
+    xs = immersed_days_at_each(intervals, [row[3] for row in rows])
     points = []
     fitted = []
-    fit_from_x = None
-    rows = list(readings)
+    fit_from_x = 0.0
+    wearing = projection.fit is not None and bool(projection.fit.rate_kg_per_day)
     # The current anode's life starts at the last replacement.
-    last_replaced = max((i for i, r in enumerate(rows) if r.replaced), default=None)
+    last_replaced = max((i for i, row in enumerate(rows) if row[2]), default=None)
     if last_replaced is not None:
-        fit_from_x = immersed_days(intervals, rows[last_replaced].record.opened_at)
-        if projection.fit is not None and projection.fit.rate_kg_per_day:
-            start_mass = projection.fit.mass_at_kg(0.0)
-            if start_mass is not None:
-                fitted.append(
-                    (
-                        timezone.localdate(rows[last_replaced].record.opened_at),
-                        100.0 * start_mass / projection.new_kg,
-                    )
-                )
-    for index, reading in enumerate(rows):
-        pct = reading.effective_remaining_percent
+        fit_from_x = xs[last_replaced]
+        start_mass = projection.fit.mass_at_kg(0.0) if projection.fit and wearing else None
+        if start_mass is not None:
+            day = timezone.localdate(rows[last_replaced][3])
+            fitted.append((day, 100.0 * start_mass / projection.new_kg))
+    new_g = next(
+        p.new_net_mass_g for p in unit.variant.anode_positions.all() if p.pk == position_id
+    )
+    for index, (mass_g, remaining_percent, _replaced, opened_at) in enumerate(rows):
+        # As ``AnodeReading.effective_remaining_percent``.
+        pct = remaining_percent if mass_g is None else 100.0 * mass_g / new_g
         if pct is None:
             continue
-        day = timezone.localdate(reading.record.opened_at)
+        day = timezone.localdate(opened_at)
         points.append((day, pct))
         current_anode = last_replaced is None or index > last_replaced
-        if current_anode and projection.fit is not None and projection.fit.rate_kg_per_day:
-            x = immersed_days(intervals, reading.record.opened_at) - (fit_from_x or 0.0)
-            mass = projection.fit.mass_at_kg(max(0.0, x))
+        if current_anode and wearing and projection.fit is not None:
+            mass = projection.fit.mass_at_kg(max(0.0, xs[index] - fit_from_x))
             if mass is not None:
                 fitted.append((day, 100.0 * mass / projection.new_kg))
     future: list[tuple[dt.date, float]] = []

@@ -47,19 +47,22 @@ from fleet.models import Deployment, SensorCheck, Site, Transponder
 
 from .condition import Condition, annotate_condition, condition_of
 from .engine import (
+    INACTIVE,
     SENSOR_FLAGS,
     BatteryProjection,
     UnitEvaluation,
     battery_projection,
-    evaluate_fleet,
+    evaluate_stored,
     evaluate_unit,
     fleet_queryset,
     pressure_tested_words,
     sensor_key,
     state_of,
+    stored_rows,
 )
 from .items import DueItem
 from .planned import PlannedDeployment
+from .rules import Rules
 
 
 class Verdict(StrEnum):
@@ -149,6 +152,30 @@ class Context:
     rate: float
     step: int
     site_pressure_dbar: float
+    memo: SiteMemo
+
+
+class SiteMemo:
+    """Figures that depend only on the planned site and the variant, not on the unit: worked
+    out once per plan and shared by every unit checked for it (the results are frozen)."""
+
+    def __init__(self, planned: PlannedDeployment) -> None:
+        site = planned.site
+        self.pressure_dbar = calc_seawater.pressure_dbar(site.water_depth_m, site.latitude_deg)
+        self._sound_speed: float | None = None
+        self.buoyancy: dict[int, list[CheckResult]] = {}
+        self.ranging: dict[tuple[int, float], list[CheckResult]] = {}
+
+    def sound_speed_m_s(self, site: Site) -> float:
+        if self._sound_speed is None:
+            self._sound_speed = calc_seawater.sound_speed_m_s(
+                site.bottom_temperature_c,
+                site.practical_salinity,
+                self.pressure_dbar,
+                site.latitude_deg,
+                site.longitude_deg,
+            )
+        return self._sound_speed
 
 
 def _dated_item_check(
@@ -441,6 +468,14 @@ def buoyancy_words(result: calc_buoyancy.RecoveryBuoyancy, mass_kg: float, volum
 
 
 def check_buoyancy(c: Context) -> list[CheckResult]:
+    """Depends on the variant and the site only: worked out once per variant in a plan."""
+    variant_id = c.ev.unit.variant_id
+    if variant_id not in c.memo.buoyancy:
+        c.memo.buoyancy[variant_id] = _buoyancy(c)
+    return c.memo.buoyancy[variant_id]
+
+
+def _buoyancy(c: Context) -> list[CheckResult]:
     variant, site, rules = c.ev.unit.variant, c.planned.site, c.ev.rules
     source = (
         "Archimedes; density TEOS-10 (gsw) at the seabed and the surface, the lower taken; "
@@ -475,7 +510,15 @@ def check_buoyancy(c: Context) -> list[CheckResult]:
 
 def check_ranging(c: Context) -> list[CheckResult]:
     """The reply must arrive after the interrogator's blanking and end before its next
-    interrogation, at the farthest planned geometry (and the nearest: straight overhead)."""
+    interrogation, at the farthest planned geometry (and the nearest: straight overhead).
+    Depends on the unit only through its turnaround delay (and its variant's rules)."""
+    key = (c.ev.unit.variant_id, c.ev.unit.turnaround_delay_ms)
+    if key not in c.memo.ranging:
+        c.memo.ranging[key] = _ranging(c)
+    return c.memo.ranging[key]
+
+
+def _ranging(c: Context) -> list[CheckResult]:
     unit, site, rules = c.ev.unit, c.planned.site, c.ev.rules
     offset = (
         rules.ranging_horizontal_offset_m
@@ -487,13 +530,7 @@ def check_ranging(c: Context) -> list[CheckResult]:
         if c.planned.ping_interval_s is None
         else c.planned.ping_interval_s
     )
-    speed = calc_seawater.sound_speed_m_s(
-        site.bottom_temperature_c,
-        site.practical_salinity,
-        c.site_pressure_dbar,
-        site.latitude_deg,
-        site.longitude_deg,
-    )
+    speed = c.memo.sound_speed_m_s(site)
     source = (
         "two-way travel time 2r/c + turnaround; sound speed TEOS-10 (gsw) at the seabed; "
         f"blanking {rules.ranging_blanking_s:g} s and reply {rules.ranging_reply_pulse_s:g} s: "
@@ -541,8 +578,10 @@ def check_unit(
     planned: PlannedDeployment,
     *,
     address_clashes: list[str] | None = None,
+    memo: SiteMemo | None = None,
 ) -> Readiness:
-    """Every check of ``ev``'s unit for ``planned``, in the order of the module docstring."""
+    """Every check of ``ev``'s unit for ``planned``, in the order of the module docstring.
+    ``memo``: the plan's site figures, shared by the units of one plan."""
     unit = ev.unit
     rate = (
         ev.duty.replies_per_day
@@ -550,9 +589,8 @@ def check_unit(
         else planned.interrogations_per_day
     )
     step = unit.transmit_power_step if planned.power_step is None else planned.power_step
-    site = planned.site
-    site_p = calc_seawater.pressure_dbar(site.water_depth_m, site.latitude_deg)
-    c = Context(ev, planned, rate, step, site_p)
+    memo = memo if memo is not None else SiteMemo(planned)
+    c = Context(ev, planned, rate, step, memo.pressure_dbar, memo)
     r = Readiness(unit, planned, round(rate), step)
     checks: tuple[Callable[[], list[CheckResult]], ...] = (
         lambda: check_status(c),
@@ -595,6 +633,14 @@ def readiness_for(unit: Transponder, planned: PlannedDeployment, *, on: dt.date)
 
 
 @dataclass(frozen=True, slots=True)
+class RejectedGroup:
+    """Units that cannot go, grouped by the name of their first failed check."""
+
+    reason: str
+    units: list[Readiness]
+
+
+@dataclass(frozen=True, slots=True)
 class Plan(_OfAPlan):
     planned: PlannedDeployment
     wanted: int
@@ -611,16 +657,38 @@ class Plan(_OfAPlan):
         counts = Counter(c.name.split(":")[0] for r in self.rejected for c in r.failures)
         return counts.most_common()
 
+    @property
+    def rejected_groups(self) -> list[RejectedGroup]:
+        """The rejected units grouped by their first reason (the check's name up to a colon),
+        largest group first, each in serial order."""
+        groups: dict[str, list[Readiness]] = {}
+        for r in self.rejected:
+            first = r.first_failure
+            groups.setdefault(first.name.split(":")[0] if first else "", []).append(r)
+        return [
+            RejectedGroup(reason, units)
+            for reason, units in sorted(groups.items(), key=lambda g: (-len(g[1]), g[0]))
+        ]
+
 
 def plan_campaign(planned: PlannedDeployment, *, wanted: int, on: dt.date) -> Plan:
-    """Every active unit checked for the job; those that pass, most margin first."""
+    """Every active unit checked for the job; those that pass, most margin first.
+
+    Read from the stored rows in a constant number of queries (``evaluate_stored``): the
+    units with their state, condition and due rows, the variants once each; the site's
+    seawater figures are worked out once (``SiteMemo``)."""
     clashes = address_clashes_at(planned.site.pk)
+    memo = SiteMemo(planned)
     results = []
     # The condition comes with the units (one SQL expression), not one query per unit.
-    units = annotate_condition(Transponder.objects.all(), on)
-    for ev in evaluate_fleet(on=on, queryset=units):
+    active = Transponder.objects.exclude(hold__in=INACTIVE)
+    units = fleet_queryset(annotate_condition(active, on), share_variants=True)
+    rows = stored_rows(active)
+    cache: dict[int, Rules] = {}
+    for unit in units:
+        ev = evaluate_stored(unit, rows.get(unit.pk, []), on=on, rules_cache=cache)
         others = [s for s in clashes.get(ev.unit.acoustic_address, []) if s != ev.unit.serial]
-        results.append(check_unit(ev, planned, address_clashes=others))
+        results.append(check_unit(ev, planned, address_clashes=others, memo=memo))
     candidates = sorted(
         (r for r in results if r.verdict != Verdict.FAIL),
         key=lambda r: (-r.verdict.rank, -r.margin, r.unit.serial),

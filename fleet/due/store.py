@@ -42,7 +42,7 @@ def derived_rows(unit_ids: list[int] | None = None) -> Iterator[DueRow]:
     )
     cache: dict[int, Rules] = {}
     today = timezone.localdate()
-    for unit in fleet_queryset(units.order_by("pk")).iterator(chunk_size=500):
+    for unit in fleet_queryset(units.order_by("pk"), share_variants=True).iterator(chunk_size=500):
         evaluation = evaluate_unit(unit, on=today, rules_cache=cache)
         for index, item in enumerate(evaluation.items):
             yield DueRow(
@@ -81,9 +81,36 @@ def refresh_units(units: QuerySet[Transponder], *, at: dt.datetime) -> int:
     return count
 
 
+REBUILD_CHUNK = 200
+
+
 def rebuild_all(*, at: dt.datetime) -> int:
-    """Recompute every unit's state and stored due items from its records; the unit count."""
-    return refresh_units(Transponder.objects.all(), at=at)
+    """Recompute every unit's state and stored due items from its records; the unit count.
+
+    In chunks of units, each in its own transaction with its units locked: the state rows
+    unit by unit (``refresh_unit_state``), then the chunk's due rows at once, read through
+    one set of prefetches (``derived_rows``), deleted and written in bulk."""
+    unit_ids = list(Transponder.objects.order_by("pk").values_list("pk", flat=True))
+    for first in range(0, len(unit_ids), REBUILD_CHUNK):
+        _rebuild_chunk(unit_ids[first : first + REBUILD_CHUNK], at=at)
+    return len(unit_ids)
+
+
+@transaction.atomic
+def _rebuild_chunk(unit_ids: list[int], *, at: dt.datetime) -> None:
+    units = list(
+        Transponder.objects.select_for_update(of=("self",))
+        .filter(pk__in=unit_ids)
+        .select_related("variant")
+        .prefetch_related(
+            "variant__anode_positions", "variant__seal_positions", "variant__reply_steps"
+        )
+        .order_by("pk")
+    )
+    for unit in units:
+        refresh_unit_state(unit, at=at)
+    DueRow.objects.filter(unit_id__in=unit_ids).delete()
+    DueRow.objects.bulk_create(derived_rows(unit_ids), batch_size=1000)
 
 
 def due_rows_snapshot() -> dict[tuple[int, str], tuple[object, ...]]:

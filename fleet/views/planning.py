@@ -1,5 +1,7 @@
 import datetime as dt
+from typing import Any
 
+from django.core.paginator import Page, Paginator
 from django.http import Http404, HttpRequest, HttpResponse
 from django.shortcuts import render
 from django.utils import timezone
@@ -7,7 +9,7 @@ from django.utils import timezone
 from fleet import charts, roles
 from fleet.due.engine import UnitEvaluation, evaluate_unit, fleet_queryset
 from fleet.due.history import anode_history, battery_history
-from fleet.due.readiness import plan_campaign, readiness_for
+from fleet.due.readiness import Plan, RejectedGroup, plan_campaign, readiness_for
 from fleet.forms import PlanForm, PlannedDeploymentForm
 from fleet.models import Transponder
 
@@ -37,23 +39,46 @@ def readiness(request: HttpRequest, serial: str) -> HttpResponse:
     )
 
 
+# Ready units shown beyond the number wanted; rejected units shown a page at a time.
+PLAN_SPARE_ROWS = 20
+REJECTED_PER_PAGE = 20
+
+
+def _rejected_pages(request: HttpRequest, result: Plan) -> list[tuple[RejectedGroup, Page[Any]]]:
+    """Each group of rejected units with one page of it: the page asked for (``reason`` and
+    ``page`` in the query) for that group, the first page for the others."""
+    chosen = request.GET.get("reason", "")
+    number = request.GET.get("page", 1)
+    return [
+        (group, Paginator(group.units, REJECTED_PER_PAGE).get_page(
+            number if group.reason == chosen else 1
+        ))
+        for group in result.rejected_groups
+    ]  # fmt: skip
+
+
 @require(roles.can_read)
 def plan(request: HttpRequest) -> HttpResponse:
     on = _today()
     form = PlanForm(request.GET or None, today=on)
-    result = None
+    context: dict[str, Any] = {"form": form, "result": None}
     status = 200
     if form.is_bound:
         if form.is_valid():
-            result = plan_campaign(form.planned(), wanted=form.cleaned_data["wanted"], on=on)
+            wanted = form.cleaned_data["wanted"]
+            result = plan_campaign(form.planned(), wanted=wanted, on=on)
+            query = request.GET.copy()
+            query.pop("reason", None)
+            query.pop("page", None)
+            context.update(
+                result=result,
+                shown_ready=result.ready[: wanted + PLAN_SPARE_ROWS],
+                rejected_pages=_rejected_pages(request, result),
+                plan_query=query.urlencode(),
+            )
         else:
             status = 400
-    return render(
-        request,
-        "fleet/plan.html",
-        {"form": form, "result": result},
-        status=status,
-    )
+    return render(request, "fleet/plan.html", context, status=status)
 
 
 def _evaluation(request: HttpRequest, serial: str) -> tuple[UnitEvaluation, dt.date]:

@@ -63,7 +63,11 @@ def unit_list(request: HttpRequest) -> HttpResponse:
 
 def unit_detail(request: HttpRequest, serial: str) -> HttpResponse:
     unit = get_unit_for_user(request, serial)
-    page = unit_page(unit=unit, rules=rules_for(unit.variant))
+    try:
+        history_page = int(request.GET.get("history", "1"))
+    except ValueError:
+        history_page = 1
+    page = unit_page(unit=unit, rules=rules_for(unit.variant), history_page=history_page)
     on = timezone.localdate()
     soon_days = settings.HOLDFAST["DUE_SOON_DAYS"]
     return render(
@@ -81,6 +85,7 @@ def unit_detail(request: HttpRequest, serial: str) -> HttpResponse:
             "open_deployment": page.open_deployment,
             "open_record": page.open_record,
             "history": page.history,
+            "history_page": page.history_page,
             "photos": unit.photos.select_related("uploaded_by"),
             "photo_form": UnitPhotoForm(),
             "move_form": UnitMoveForm(initial={"place": unit.place_id, "version": unit.version}),

@@ -386,6 +386,21 @@ def test_sums_survive_merge_and_remove(
     _assert_same_fit(anodes.fit_wear_from_sums(sums), anodes.fit_wear(kept))
 
 
+@SETTINGS
+@given(start=readings, more=readings)
+def test_extending_the_sums_gives_the_same_floats_as_adding_one_by_one(
+    start: list[tuple[float, float]], more: list[tuple[float, float]]
+) -> None:
+    # the least-squares sums are a left fold (same order, same floats), however they are kept
+    base = anodes.WearSums.of(start)
+    assert base.extend(more) == anodes.WearSums.of(start + more)
+
+
+def test_extending_the_sums_refuses_a_negative_mass() -> None:
+    with pytest.raises(ValueError, match="mass_kg"):
+        anodes.WearSums.empty().extend([(1.0, 0.3), (2.0, -0.1)])
+
+
 def test_removing_the_last_reading_empties_the_sums() -> None:
     sums = anodes.WearSums.empty().add(0.1, 0.3).remove(0.1, 0.3)
     assert sums == anodes.WearSums.empty()

@@ -4,7 +4,7 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from fleet.calc.exposure import immersed_days, overlap_days
+from fleet.calc.exposure import immersed_days, immersed_days_at_each, overlap_days
 
 
 def t(*args: int) -> dt.datetime:
@@ -56,3 +56,34 @@ def test_immersed_days_never_decrease_with_time(a, b):
     assert immersed_days(intervals, base + dt.timedelta(days=early)) <= immersed_days(
         intervals, base + dt.timedelta(days=late)
     )
+
+
+# One pass over many moments: the same float as asking for each moment alone (the definition
+# above; common practice, no published source).
+@given(
+    gaps=st.lists(st.tuples(st.integers(1, 90 * 24), st.integers(0, 90 * 24)), max_size=12),
+    open_last=st.booleans(),
+    moments=st.lists(st.integers(-30 * 24, 3000 * 24), max_size=20),
+)
+def test_it_gives_each_moment_the_same_days_as_one_at_a_time(gaps, open_last, moments):
+    intervals: list[tuple[dt.datetime, dt.datetime | None]] = []
+    at = t(2025, 1, 1)
+    for dry_h, wet_h in gaps:
+        start = at + dt.timedelta(hours=dry_h)
+        at = start + dt.timedelta(hours=wet_h)
+        intervals.append((start, at))
+    if open_last and intervals:
+        intervals[-1] = (intervals[-1][0], None)
+    asked = [t(2025, 1, 1) + dt.timedelta(hours=h) for h in moments]
+    shuffled = intervals[::-1]  # the order given does not matter
+    assert immersed_days_at_each(shuffled, asked) == [immersed_days(intervals, m) for m in asked]
+
+
+def test_it_gives_the_worked_example_for_each_moment():
+    intervals = [(t(2025, 1, 1), t(2025, 4, 11)), (t(2025, 6, 1), None)]
+    assert immersed_days_at_each(intervals, [t(2025, 3, 2), t(2025, 6, 11)]) == [60.0, 110.0]
+
+
+def test_it_rejects_overlaps_when_asked_for_many_moments():
+    with pytest.raises(ValueError, match="over_side_at .* overlaps"):
+        immersed_days_at_each([(t(2025, 1, 1), None), (t(2025, 2, 1), None)], [t(2025, 6, 1)])

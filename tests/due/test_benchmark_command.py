@@ -1,0 +1,41 @@
+"""The benchmark command keeps working (timings are measured by running it, not here)."""
+
+import io
+
+import pytest
+from django.core.management import call_command
+from django.core.management.base import CommandError
+
+from fleet.models import AnodeReading, AnodeState, Transponder
+
+pytestmark = pytest.mark.django_db
+
+
+def test_it_builds_a_tiny_fleet_and_reports_every_scenario_against_the_goals(settings):
+    settings.ALLOWED_HOSTS = ["localhost"]
+    out = io.StringIO()
+    call_command("benchmark", quick=True, units=3, years=1, sizes="10,60", repeat=1, stdout=out)
+    report = out.getvalue()
+    assert Transponder.objects.count() == 5  # three of the fleet, one per size
+    # The sized units: 10 readings -> 4 visits x 3 anodes; 60 -> 20 visits x 3 anodes.
+    assert AnodeReading.objects.filter(record__unit__serial="H-000060").count() == 60
+    assert AnodeState.objects.filter(unit__serial="H-000060", n=20).count() == 3
+    for line in (
+        "overview",
+        "planner",
+        "save @60",
+        "unit page @60",
+        "anode chart @10",
+        "readiness page",
+        "checklist PDF",
+        "rebuild_state --check",
+        "planner peak MiB",
+        "goals:",
+        "planner under 1 s",
+    ):
+        assert line in report
+
+
+def test_it_refuses_a_database_that_already_holds_units(unit):
+    with pytest.raises(CommandError, match="empty scratch database"):
+        call_command("benchmark", units=1, sizes="10", repeat=1)

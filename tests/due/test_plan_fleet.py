@@ -1,0 +1,181 @@
+"""The planner reads the stored rows: the same verdicts as checking each unit alone, and the
+same number of queries for any size of fleet."""
+
+import datetime as dt
+import random
+
+import pytest
+from django.db import connection
+from django.test.utils import CaptureQueriesContext
+from django.utils import timezone
+
+from fleet.due.planned import PlannedDeployment
+from fleet.due.readiness import plan_campaign, readiness_for
+from fleet.models import (
+    AnodeReading,
+    DueRow,
+    Transponder,
+    UnitHold,
+    UnitState,
+)
+from tests.builders import make_site, make_unit, pressure_test, serviced_unit
+from tests.due.test_engine import deploy, visit
+
+pytestmark = pytest.mark.django_db
+
+
+def _random_fleet(rng, variant, site, technician, workshop, n):
+    """``n`` units with histories drawn at random: fully serviced (some with a failed release
+    test), half serviced, deployed now, held, or never touched."""
+    today = timezone.localdate()
+    for i in range(n):
+        unit = make_unit(
+            serial=f"RF-{i:03d}",
+            acoustic_address=str(rng.choice([300, 301, 302, 400 + i])),  # some share one
+            turnaround_delay_ms=rng.choice([12.5, 12.5, 40.0, 900.0]),
+            variant=variant,
+            place=workshop,
+        )
+        shape = rng.choice(["ready", "ready", "failed", "partial", "deployed", "held", "none"])
+        # Mostly recent visits (ready for a job soon), some long ago (lapsed by now).
+        day = today - dt.timedelta(days=rng.choice([rng.randint(1, 30), rng.randint(30, 700)]))
+        if shape in ("ready", "failed", "deployed", "held"):
+            extra = {"limit_switch_ok": False} if shape == "failed" else {}
+            serviced_unit(unit, by=technician, site=site, day=day, **extra)
+        elif shape == "partial":
+            when = dt.datetime.combine(day, dt.time(9), tzinfo=dt.UTC)
+            anode = variant.anode_positions.first()
+            mass = anode.new_net_mass_g * rng.uniform(0.2, 1.0)
+            visit(
+                unit,
+                technician,
+                when,
+                AnodeReading(position=anode, mass_g=mass),
+                pressure_test(day),
+            )
+        if shape == "deployed":
+            deploy(unit, site, technician, timezone.now() - dt.timedelta(hours=1))
+        if shape == "held":
+            Transponder.objects.filter(pk=unit.pk).update(
+                hold=UnitHold.QUARANTINED, hold_reason="leak found"
+            )
+
+
+def _checks(readiness):
+    return [(c.name, c.verdict, c.numbers, c.source) for c in readiness.checks]
+
+
+@pytest.mark.parametrize("seed", [3, 11])
+def test_the_plan_gives_every_unit_the_verdicts_it_gets_checked_alone(
+    variant, site, technician, workshop, seed
+):
+    rng = random.Random(seed)
+    _random_fleet(rng, variant, site, technician, workshop, 14)
+    on = timezone.localdate()
+    planned = PlannedDeployment(
+        site, on + dt.timedelta(days=rng.randint(1, 60)), rng.randint(20, 400)
+    )
+    plan = plan_campaign(planned, wanted=3, on=on)
+    planned_results = plan.ready + plan.rejected
+    assert len(planned_results) == Transponder.objects.count()
+    for result in planned_results:
+        alone = readiness_for(result.unit, planned, on=on)
+        checks = _checks(result)
+        if checks[0][2].endswith("ranked higher in this plan"):
+            checks = checks[1:]  # the plan's own rule: one unit per address in one job
+        assert checks == _checks(alone), result.unit.serial
+        assert result.margins == alone.margins
+    assert plan.ready and plan.rejected
+
+
+def _copy_units(template, variant, workshop, n):
+    """``n`` more units carrying a copy of ``template``'s stored state and due rows, written in
+    bulk (what the planner reads; their records do not matter to its query count)."""
+    units = Transponder.objects.bulk_create(
+        Transponder(
+            serial=f"BK-{i:05d}",
+            variant=variant,
+            place=workshop,
+            acoustic_address=str(5000 + i),
+            turnaround_delay_ms=12.5,
+        )
+        for i in range(n)
+    )
+    state = UnitState.objects.get(unit=template)
+    rows = list(DueRow.objects.filter(unit=template))
+    states, due = [], []
+    for unit in units:
+        state.pk = None
+        state.unit = unit
+        states.append(
+            UnitState(
+                **{f.attname: getattr(state, f.attname) for f in UnitState._meta.concrete_fields}
+            )
+        )
+        for row in rows:
+            due.append(
+                DueRow(
+                    **{
+                        **{
+                            f.attname: getattr(row, f.attname) for f in DueRow._meta.concrete_fields
+                        },
+                        "id": None,
+                        "unit_id": unit.pk,
+                    }
+                )
+            )
+    UnitState.objects.bulk_create(states)
+    DueRow.objects.bulk_create(due, batch_size=2000)
+
+
+def test_the_planner_costs_the_same_queries_for_20_and_2000_units(
+    variant, site, technician, workshop
+):
+    template = make_unit(serial="TPL-1", variant=variant, place=workshop)
+    serviced_unit(
+        template, by=technician, site=site, day=timezone.localdate() - dt.timedelta(days=3)
+    )
+    other_site = make_site(name="Other site", water_depth_m=800.0)
+    on = timezone.localdate()
+    planned = PlannedDeployment(other_site, on + dt.timedelta(days=5), 60)
+
+    def count():
+        with CaptureQueriesContext(connection) as captured:
+            plan_campaign(planned, wanted=4, on=on)
+        return len(captured)
+
+    _copy_units(template, variant, workshop, 19)
+    small = count()
+    Transponder.objects.filter(serial__startswith="BK-").delete()
+    _copy_units(template, variant, workshop, 1999)
+    assert Transponder.objects.count() == 2000
+    # Units in the water at the site (1); the units with their state and condition (1);
+    # anode states, seal states, the variants, their anode positions, seal positions and
+    # reply steps, the due rows (1 each). None of them grows with the fleet.
+    assert count() == small
+    assert small <= 10
+
+
+def test_the_overview_costs_the_same_queries_for_20_and_2000_units(
+    as_viewer, variant, site, technician, workshop
+):
+    template = make_unit(serial="TPL-1", variant=variant, place=workshop)
+    serviced_unit(
+        template, by=technician, site=site, day=timezone.localdate() - dt.timedelta(days=400)
+    )
+
+    def queries():
+        with CaptureQueriesContext(connection) as captured:
+            assert as_viewer.get("/").status_code == 200
+        return [q["sql"] for q in captured.captured_queries]
+
+    _copy_units(template, variant, workshop, 19)
+    small = queries()
+    Transponder.objects.filter(serial__startswith="BK-").delete()
+    _copy_units(template, variant, workshop, 1999)
+    large = queries()
+    assert len(large) == len(small)
+    # With no place or variant chosen, the due rows are not filtered by a list of every unit.
+    due_queries = [sql for sql in large if "fleet_duerow" in sql]
+    assert due_queries
+    assert not any('IN (SELECT U0."id"' in sql for sql in due_queries)

@@ -642,3 +642,14 @@ class UnitPhotoForm(forms.ModelForm[UnitPhoto]):
         if image is None:
             raise forms.ValidationError("Choose a photo to upload.")
         return clean_photo(image)
+
+
+class TimelineFilterForm(forms.Form):
+    """Which units the fleet timeline draws."""
+
+    variant = forms.ModelChoiceField(
+        queryset=Variant.objects.all(), required=False, empty_label="Any variant"
+    )
+    place = forms.ModelChoiceField(
+        queryset=Place.objects.all(), required=False, empty_label="Any place"
+    )

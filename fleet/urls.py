@@ -1,7 +1,19 @@
 from django.contrib import admin
 from django.urls import include, path
 
-from .views import dashboard, deployments, documents, feeds, media, planning, records, units
+from .views import (
+    dashboard,
+    deployments,
+    documents,
+    feeds,
+    help,
+    media,
+    planning,
+    records,
+    signin,
+    timeline,
+    units,
+)
 
 urlpatterns = [
     path("", dashboard.dashboard, name="dashboard"),
@@ -37,6 +49,10 @@ urlpatterns = [
     path("sites/new/", deployments.site_new, name="site-new"),
     path("sites/<int:pk>/", deployments.site_detail, name="site-detail"),
     path("sites/<int:pk>/edit/", deployments.site_edit, name="site-edit"),
+    path("help/", help.help_page, name="help"),
+    path("timeline/", timeline.timeline, name="timeline"),
+    # The admin's sign-in: ours (a technician gets our 403 page, not the framework's login).
+    path("admin/login/", signin.admin_login, name="admin-login"),
     # Documents (PDFs), release certificates and the public verification page
     path("units/<str:serial>/checklist.pdf", documents.checklist_pdf, name="unit-checklist-pdf"),
     path("units/<str:serial>/checklist/", documents.checklist_form, name="unit-checklist"),

@@ -167,8 +167,13 @@ def render(chart: Chart) -> str:
 
 
 def anode_chart_svg(history: AnodeHistory, *, serial: str, today: dt.date) -> str:
+    return render(anode_chart(history, serial=serial, today=today))
+
+
+def anode_chart(history: AnodeHistory, *, serial: str, today: dt.date) -> Chart:
     """One anode position: readings as % of new mass, the fitted wear line, the projection to
-    the replacement threshold, and the threshold itself across the drawn span."""
+    the replacement threshold, and the threshold itself across the drawn span. Drawn as SVG
+    here (``render``) and in the service report (``fleet.documents.report``)."""
     chart = Chart(
         title=f"{serial}: anode {history.name}",
         y_label="% of new mass",
@@ -191,10 +196,14 @@ def anode_chart_svg(history: AnodeHistory, *, serial: str, today: dt.date) -> st
                 dash="2 3",
             )
         )
-    return render(chart)
+    return chart
 
 
 def battery_chart_svg(history: BatteryHistory | None, *, serial: str, today: dt.date) -> str:
+    return render(battery_chart(history, serial=serial, today=today))
+
+
+def battery_chart(history: BatteryHistory | None, *, serial: str, today: dt.date) -> Chart:
     """The fitted pack: charge used so far, the projection at the duty, and the reserve; an
     empty chart when no pack is fitted."""
     chart = Chart(title=f"{serial}: battery charge", y_label="Ah left", today=today)
@@ -212,7 +221,7 @@ def battery_chart_svg(history: BatteryHistory | None, *, serial: str, today: dt.
                 dash="2 3",
             )
         )
-    return render(chart)
+    return chart
 
 
 # --- The fleet timeline: one row per unit, over a window of days -----------------------------

@@ -1,3 +1,5 @@
+import datetime as dt
+
 import django_tables2 as tables
 from django.urls import reverse
 from django.utils.formats import date_format
@@ -62,6 +64,9 @@ class UnitTable(tables.Table):
     def render_condition(self, value: str) -> str:
         return condition_badge(Condition(value))
 
+    def value_last_service(self, value: dt.datetime | None) -> str:
+        return iso_timestamp(value) if value else ""
+
     def value_condition(self, value: str) -> str:
         return Condition(value).label
 
@@ -116,6 +121,9 @@ class DeploymentTable(tables.Table):
         order_by = "-over_side_at"
         attrs = {"class": "grid"}
         per_page = 50
+
+    def value_over_side_at(self, value: dt.datetime) -> str:
+        return iso_timestamp(value)
 
     def render_recovered_at(self, record: Deployment) -> str:
         if record.recovered_at is not None:

@@ -16,8 +16,19 @@ from django.db import models
 from django.utils.text import capfirst
 from reportlab.lib.units import mm
 from reportlab.lib.utils import ImageReader
-from reportlab.platypus import CondPageBreak, Flowable, Image, KeepTogether, Spacer
+from reportlab.platypus import (
+    CondPageBreak,
+    Flowable,
+    Image,
+    KeepTogether,
+    Spacer,
+    Table,
+    TableStyle,
+)
 
+from fleet.charts import Chart, anode_chart, battery_chart
+from fleet.due.engine import evaluate_unit, fleet_queryset
+from fleet.due.history import anode_history, battery_history
 from fleet.models import (
     AnodeReading,
     BatteryInstall,
@@ -27,6 +38,7 @@ from fleet.models import (
     SealChange,
     SensorCheck,
     ServiceRecord,
+    Transponder,
 )
 from fleet.models.records import Entry, amendable_field, entry_kinds
 
@@ -36,6 +48,7 @@ from .base import (
     cautions_table,
     display_name,
     facts_table,
+    fitted_widths,
     fmt_date,
     fmt_datetime,
     fmt_number,
@@ -44,6 +57,7 @@ from .base import (
     para,
     signature_table,
 )
+from .chart_drawing import chart_drawing
 
 TITLE = "Service report"
 
@@ -94,6 +108,8 @@ class ReportDocument:
     amendments: tuple[AmendmentLine, ...]
     photos: tuple[PhotoLine, ...]
     cautions: tuple[str, ...]
+    charts: tuple[Chart, ...] = ()
+    charts_on: dt.date | None = None
 
 
 def _yes(value: bool) -> str:
@@ -105,11 +121,12 @@ def _n(value: float | None, unit: str = "") -> str:
 
 
 # The report's own columns for an entry kind: (header, getter). A kind not listed here is
-# printed with its amendable fields (``_field_columns``).
+# printed with its amendable fields (``_field_columns``). Every section starts with a "#"
+# column, the entry's number within its section (1, 2, ...): the paper never shows a
+# database id, and amendments and photos name entries by that number.
 Column = tuple[str, Callable[[Any], str]]
 COLUMNS: dict[type[Entry], tuple[Column, ...]] = {
     AnodeReading: (
-        ("#", lambda e: str(e.pk)),
         ("Position", lambda e: e.position.name),
         ("Net mass", lambda e: _n(e.mass_g, "g")),
         ("Remaining", lambda e: _n(e.remaining_percent, "%")),
@@ -118,7 +135,6 @@ COLUMNS: dict[type[Entry], tuple[Column, ...]] = {
         ("Note", lambda e: e.note),
     ),
     SealChange: (
-        ("#", lambda e: str(e.pk)),
         ("Position", lambda e: f"{e.position.name} ({e.position.size_label})"),
         ("Material", lambda e: e.material),
         ("Cure date", lambda e: fmt_date(e.cure_date)),
@@ -126,7 +142,6 @@ COLUMNS: dict[type[Entry], tuple[Column, ...]] = {
         ("Reason", lambda e: e.get_reason_display()),
     ),
     BatteryInstall: (
-        ("#", lambda e: str(e.pk)),
         ("Pack", lambda e: e.pack_serial),
         ("Chemistry", lambda e: e.get_chemistry_display()),
         ("Nominal", lambda e: f"{_n(e.nominal_voltage_v, 'V')}, {_n(e.capacity_ah, 'Ah')}"),
@@ -135,7 +150,6 @@ COLUMNS: dict[type[Entry], tuple[Column, ...]] = {
         ("OCV install", lambda e: _n(e.ocv_install_v, "V")),
     ),
     PressureTest: (
-        ("#", lambda e: str(e.pk)),
         ("Tested", lambda e: fmt_date(e.tested_on)),
         ("Test pressure", lambda e: _n(e.test_pressure_dbar, "dbar")),
         ("Hold", lambda e: _n(e.hold_minutes, "min")),
@@ -151,7 +165,6 @@ COLUMNS: dict[type[Entry], tuple[Column, ...]] = {
         ("Facility", lambda e: e.facility),
     ),
     ReleaseTest: (
-        ("#", lambda e: str(e.pk)),
         ("Tested", lambda e: fmt_date(e.tested_on)),
         ("Kind", lambda e: e.get_kind_display()),
         ("Load", lambda e: _n(e.load_kg, "kg")),
@@ -161,7 +174,6 @@ COLUMNS: dict[type[Entry], tuple[Column, ...]] = {
         ("Acoustic command", lambda e: _yes(e.acoustic_command_ok)),
     ),
     SensorCheck: (
-        ("#", lambda e: str(e.pk)),
         ("Checked", lambda e: fmt_date(e.checked_on)),
         ("Sensor", lambda e: e.get_sensor_display()),
         ("Reference", lambda e: _n(e.reference_value)),
@@ -170,7 +182,6 @@ COLUMNS: dict[type[Entry], tuple[Column, ...]] = {
         ("Raw", lambda e: _n(e.raw_resistance_ohm, "Ω")),
     ),
     HousingOpening: (
-        ("#", lambda e: str(e.pk)),
         ("Opened", lambda e: fmt_datetime(e.opened_at)),
         ("Closed", lambda e: fmt_datetime(e.closed_at)),
         ("Vented first", lambda e: _yes(e.vented_before_opening)),
@@ -198,10 +209,7 @@ def _cell(field: Any, entry: Any) -> str:
 
 def _field_columns(kind: type[Entry]) -> tuple[Column, ...]:
     fields = [amendable_field(kind, name) for name in kind.amendable_fields]
-    return (
-        ("#", lambda e: str(e.pk)),
-        *((str(capfirst(f.verbose_name)), partial(_cell, f)) for f in fields),
-    )
+    return (*((str(capfirst(f.verbose_name)), partial(_cell, f)) for f in fields),)
 
 
 def entry_sections() -> tuple[tuple[type[Entry], str, tuple[Column, ...]], ...]:
@@ -219,26 +227,36 @@ def _photo_path(field: Any) -> str:
         return ""
 
 
-def prepare_report(record: ServiceRecord) -> ReportDocument:
+def prepare_report(record: ServiceRecord, *, charts_on: dt.date | None = None) -> ReportDocument:
+    """The report's content. With ``charts_on``, the unit page's charts as of that day too."""
     closed_at = record.closed_at
     if closed_at is None:  # the record is open
         raise RecordOpenError("This record is still open; close it before printing a report.")
     sections = []
     photos = []
+    # (model, pk) -> how the paper names the entry: "anode reading 2".
+    names: dict[tuple[type[models.Model], int], str] = {(ServiceRecord, record.pk): "bench visit"}
     for kind, title, columns in entry_sections():
         entries = list(kind.with_list_related(getattr(record, kind.related_name()).order_by("pk")))
         if not entries:
             continue
+        for number, e in enumerate(entries, start=1):
+            names[(kind, e.pk)] = f"{kind.kind_label} {number}"
         sections.append(
             EntrySection(
                 title,
-                tuple(h for h, _ in columns),
-                tuple(tuple(get(e) for _, get in columns) for e in entries),
+                ("#", *(h for h, _ in columns)),
+                tuple(
+                    (str(number), *(get(e) for _, get in columns))
+                    for number, e in enumerate(entries, start=1)
+                ),
             )
         )
         if kind is AnodeReading:
             photos += [
-                PhotoLine(f"Anode reading #{e.pk}: {e.position.name}", _photo_path(e.photo))
+                PhotoLine(
+                    f"{capfirst(names[(kind, e.pk)])}: {e.position.name}", _photo_path(e.photo)
+                )
                 for e in entries
                 if isinstance(e, AnodeReading) and e.photo
             ]
@@ -246,7 +264,7 @@ def prepare_report(record: ServiceRecord) -> ReportDocument:
         AmendmentLine(
             a.created_at,
             display_name(a.created_by),
-            f"{a.target_type.name} #{a.target_id}",
+            names.get((a.target_type.model_class(), a.target_id), a.target_type.name),
             a.field_name,
             a.original_value or "(empty)",
             a.corrected_value or "(empty)",
@@ -256,6 +274,7 @@ def prepare_report(record: ServiceRecord) -> ReportDocument:
             "created_at", "pk"
         )
     )
+    charts = _unit_charts(record, charts_on) if charts_on is not None else ()
     unit = record.unit
     return ReportDocument(
         reference=f"HF-SR-{record.pk}",
@@ -274,6 +293,23 @@ def prepare_report(record: ServiceRecord) -> ReportDocument:
         amendments=amendments,
         photos=tuple(photos),
         cautions=(CAUTIONS["pressure"], CAUTIONS["lithium"], CAUTIONS["defer"]),
+        charts=charts,
+        charts_on=charts_on,
+    )
+
+
+def _unit_charts(record: ServiceRecord, on: dt.date) -> tuple[Chart, ...]:
+    """The unit page's charts (each anode position, the battery) as of ``on``."""
+    unit = fleet_queryset(Transponder.objects.filter(pk=record.unit_id)).get()
+    ev = evaluate_unit(unit, on=on)
+    anodes = [anode_history(ev, p.position_id) for p in ev.anodes]
+    return (
+        *(
+            anode_chart(history, serial=unit.serial, today=on)
+            for history in anodes
+            if history is not None
+        ),
+        battery_chart(battery_history(ev), serial=unit.serial, today=on),
     )
 
 
@@ -288,6 +324,26 @@ def _photo_flowable(photo: PhotoLine, max_w: float, max_h: float) -> Image | Non
         return None
     scale = min(max_w / w, max_h / h, 1.0)
     return Image(photo.path, width=w * scale, height=h * scale)
+
+
+def _charts_section(doc: ReportDocument, width: float) -> list[Flowable]:
+    """The unit page's charts, two to a row."""
+    if not doc.charts:
+        return []
+    cell = (width - 4 * mm) / 2
+    drawings: list[Any] = [chart_drawing(c, cell, 55 * mm) for c in doc.charts]
+    if len(drawings) % 2:
+        drawings.append("")
+    rows = [drawings[i : i + 2] for i in range(0, len(drawings), 2)]
+    table = Table(rows, colWidths=[cell + 2 * mm, cell + 2 * mm])
+    table.setStyle(
+        TableStyle([("LEFTPADDING", (0, 0), (-1, -1), 0), ("VALIGN", (0, 0), (-1, -1), "TOP")])
+    )
+    return [
+        CondPageBreak(70 * mm),
+        para(f"Charts, as of {fmt_date(doc.charts_on)}", "h2_flow"),
+        table,
+    ]
 
 
 def render_report(doc: ReportDocument) -> bytes:
@@ -314,10 +370,8 @@ def render_report(doc: ReportDocument) -> bytes:
     if not doc.sections:
         story += [para("Entries", "h2"), para("No entries were recorded on this visit.")]
     for section in doc.sections:
-        # "#" narrow, the last column (note, reason, facility) twice the others.
-        first = 9 * mm
-        unit = (width - first) / len(section.headers)
-        widths = [first] + [unit] * (len(section.headers) - 2) + [2 * unit]
+        # Each column at least as wide as its longest word (a serial, a date), so none breaks.
+        widths = fitted_widths([section.headers, *section.rows], width)
         story += [
             CondPageBreak(30 * mm),
             para(section.title, "h2_flow"),
@@ -354,10 +408,17 @@ def render_report(doc: ReportDocument) -> bytes:
                 continue
             image.hAlign = "LEFT"
             story.append(KeepTogether([image, para(photo.caption, "small"), Spacer(0, 3 * mm)]))
+    story += _charts_section(doc, width)
+    # The review signs for what is above it: cautions and sign-off move together, never
+    # leaving the sign-off alone on a last page.
     story += [
         Spacer(0, 4 * mm),
-        KeepTogether([cautions_table(doc.cautions, width)]),
-        para("Review", "h2"),
-        KeepTogether([signature_table(["Reviewed by (supervisor)"], width)]),
+        KeepTogether(
+            [
+                cautions_table(doc.cautions, width),
+                para("Review", "h2"),
+                signature_table(["Reviewed by (supervisor)"], width),
+            ]
+        ),
     ]
     return build_pdf(story, title=TITLE, reference=doc.reference, when=doc.closed_at)

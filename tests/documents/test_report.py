@@ -55,17 +55,18 @@ def test_it_prepares_every_entry_amendment_and_photo(history):
         "Anode readings",
         ("#", "Position", "Net mass", "Remaining", "Bond", "Replaced", "Note"),
         (
-            (str(a1), "Anode 1", "382 g", "—", "0.03 Ω", "no", ""),  # amended from 380
-            (str(a2), "Anode 2", "390 g", "—", "0.02 Ω", "no", HOSTILE),
+            # Numbered within the section, never by database id.
+            ("1", "Anode 1", "382 g", "—", "0.03 Ω", "no", ""),  # amended from 380
+            ("2", "Anode 2", "390 g", "—", "0.02 Ω", "no", HOSTILE),
         ),
     )
     assert doc.sections[1].rows == (
-        (str(s1), "Seal 1 (AS568-240)", "NBR", "2025-10-01", "L-1", "Interval reached"),
-        (str(s2), "Seal 2 (AS568-240)", "NBR", "2025-10-01", "L-1", "Interval reached"),
+        ("1", "Seal 1 (AS568-240)", "NBR", "2025-10-01", "L-1", "Interval reached"),
+        ("2", "Seal 2 (AS568-240)", "NBR", "2025-10-01", "L-1", "Interval reached"),
     )
     assert doc.sections[4].rows == (
         (
-            str(ids["release_tests"][0]),
+            "1",
             "2026-03-02",
             "Under load",
             "250 kg",
@@ -87,16 +88,14 @@ def test_it_prepares_every_entry_amendment_and_photo(history):
         AmendmentLine(
             amendment.created_at,
             "super",
-            f"anode reading #{a1}",
+            "anode reading 1",
             "mass_g",
             "380.0",
             "382.0",
             f"Scale misread. {HOSTILE}",
         ),
     )
-    assert doc.photos == (
-        PhotoLine(f"Anode reading #{a2}: Anode 2", history.photo_reading.photo.path),
-    )
+    assert doc.photos == (PhotoLine("Anode reading 2: Anode 2", history.photo_reading.photo.path),)
 
 
 def test_the_pdf_shows_entries_amendments_people_and_hostile_text_literally(history):
@@ -117,7 +116,7 @@ def test_the_pdf_shows_entries_amendments_people_and_hostile_text_literally(hist
         "380.0 382.0",
         "Annual service. <b>bold</b> & <A href=x> S&P <unclosed",
         "Scale misread. <b>bold</b> & <A href=x> S&P <unclosed",
-        "Anode reading #",
+        "Anode reading 2: Anode 2",
         "never stand in line with an end cap",
         "Reviewed by (supervisor)",
     ):

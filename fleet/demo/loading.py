@@ -39,7 +39,6 @@ from fleet.demo.scenario import (
 from fleet.demo.simulation import FleetRows, plan_fleet, write_unit
 from fleet.due.condition import annotate_condition
 from fleet.integrity import purging
-from fleet.services.certificates import certificate_issue, certificate_withdraw
 from fleet.models import (
     Amendment,
     AnodePosition,
@@ -55,6 +54,7 @@ from fleet.models import (
     Transponder,
     Variant,
 )
+from fleet.services.certificates import certificate_issue, certificate_withdraw
 
 # --- Idempotency and logins -------------------------------------------------------------------
 

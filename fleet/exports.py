@@ -58,7 +58,7 @@ def csv_rows_response(rows: Iterable[Sequence[object]], filename: str) -> HttpRe
 
 def csv_response(table: Table, filename: str) -> HttpResponse:
     rows = table.as_values()
-    header = next(rows, [])
+    header: list[object] = list(next(rows, []))
     return csv_rows_response(
         [header, *([export_cell(cell) for cell in row] for row in rows)], filename
     )

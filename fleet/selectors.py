@@ -317,7 +317,8 @@ def timeline_rows(
         .order_by("due_on")
         .values_list("unit_id", "due_on", "item")
     ):
-        due[unit_id].append((due_on, item))
+        if due_on is not None:  # within the range: never None, but the column allows it
+            due[unit_id].append((due_on, item))
     return [
         TimelineRow(
             serial=u.serial,

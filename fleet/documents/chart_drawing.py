@@ -6,8 +6,11 @@ from __future__ import annotations
 
 import datetime as dt
 from collections.abc import Callable
+from typing import Literal
 
 from reportlab.graphics.shapes import Circle, Drawing, Line, PolyLine, Rect, String
+from reportlab.lib import colors
+from reportlab.lib.colors import Color
 from reportlab.lib.units import mm
 
 from fleet.charts import Chart, Series
@@ -15,10 +18,30 @@ from fleet.charts import Chart, Series
 from .base import FONT, FONT_BOLD
 
 LEFT, RIGHT, TOP, BOTTOM = 14 * mm, 3 * mm, 8 * mm, 13 * mm
+Anchor = Literal["start", "middle", "end"]
+ANCHORS: tuple[Anchor, Anchor, Anchor] = ("start", "middle", "end")
 
 
-def _dash(series: Series) -> list[float] | None:
-    return [float(part) for part in series.dash.split()] if series.dash else None
+def _dash(series: Series) -> list[float]:
+    return [float(part) for part in series.dash.split()]
+
+
+def _stroke(shape: Line | PolyLine, series: Series) -> Line | PolyLine:
+    shape.strokeWidth = 1.2
+    if series.dash:
+        shape.strokeDashArray = _dash(series)
+    return shape
+
+
+def _box(x: float, y: float, w: float, h: float, *, fill: Color | None, width: float) -> Rect:
+    rect = Rect(x, y, w, h)
+    rect.fillColor = fill
+    rect.strokeWidth = width
+    return rect
+
+
+def _dot(x: float, y: float) -> Circle:
+    return Circle(x, y, 2.5, fillColor=colors.white, strokeWidth=0.8)
 
 
 def _span(chart: Chart) -> tuple[dt.date, dt.date, float, float]:
@@ -39,12 +62,12 @@ def _series(
     coords = [(x(d), y(v)) for d, v in s.points]
     if s.line and len(coords) > 1:
         flat = [c for xy in coords for c in xy]
-        drawing.add(PolyLine(flat, strokeWidth=1.2, strokeDashArray=_dash(s)))
+        drawing.add(_stroke(PolyLine(flat), s))
     for cx, cy in coords:
         if s.marker == "circle":
-            drawing.add(Circle(cx, cy, 2.5, fillColor="white", strokeWidth=0.8))
+            drawing.add(_dot(cx, cy))
         elif s.marker == "square":
-            drawing.add(Rect(cx - 2, cy - 2, 4, 4, fillColor="black", strokeWidth=0))
+            drawing.add(_box(cx - 2, cy - 2, 4, 4, fill=colors.black, width=0))
 
 
 def _axes(
@@ -71,7 +94,7 @@ def _axes(
     # Three dates (start, middle, end): five overlap at half a page's width.
     for i in range(3):
         day = d0 + dt.timedelta(days=round((d1 - d0).days * i / 2))
-        anchor = ("start", "middle", "end")[i]
+        anchor: Anchor = ANCHORS[i]
         drawing.add(
             String(
                 x(day), BOTTOM - 8, day.isoformat(), fontName=FONT, fontSize=6.5, textAnchor=anchor
@@ -99,7 +122,7 @@ def _axes(
                 "today",
                 fontName=FONT,
                 fontSize=6.5,
-                textAnchor="end" if near_end else "start",
+                textAnchor=ANCHORS[2] if near_end else ANCHORS[0],
             )
         )
 
@@ -109,7 +132,7 @@ def chart_drawing(chart: Chart, width: float, height: float) -> Drawing:
     drawing = Drawing(width, height)
     drawing.add(String(LEFT, height - TOP + 2 * mm, chart.title, fontName=FONT_BOLD, fontSize=8))
     plot_w, plot_h = width - LEFT - RIGHT, height - TOP - BOTTOM
-    drawing.add(Rect(LEFT, BOTTOM, plot_w, plot_h, fillColor=None, strokeWidth=0.6))
+    drawing.add(_box(LEFT, BOTTOM, plot_w, plot_h, fill=None, width=0.6))
     if not any(s.points for s in chart.series):
         drawing.add(
             String(
@@ -144,11 +167,9 @@ def _legend_item(drawing: Drawing, s: Series, legend_x: float) -> None:
     """One series' sample line, marker and label in the row under the plot."""
     ly = 3.0
     if s.line:
-        drawing.add(
-            Line(legend_x, ly + 2, legend_x + 14, ly + 2, strokeWidth=1.2, strokeDashArray=_dash(s))
-        )
+        drawing.add(_stroke(Line(legend_x, ly + 2, legend_x + 14, ly + 2), s))
     if s.marker == "circle":
-        drawing.add(Circle(legend_x + 7, ly + 2, 2.5, fillColor="white", strokeWidth=0.8))
+        drawing.add(_dot(legend_x + 7, ly + 2))
     elif s.marker == "square":
-        drawing.add(Rect(legend_x + 5, ly, 4, 4, fillColor="black", strokeWidth=0))
+        drawing.add(_box(legend_x + 5, ly, 4, 4, fill=colors.black, width=0))
     drawing.add(String(legend_x + 17, ly, s.label, fontName=FONT, fontSize=6.5))

@@ -264,7 +264,7 @@ def prepare_report(record: ServiceRecord, *, charts_on: dt.date | None = None) -
         AmendmentLine(
             a.created_at,
             display_name(a.created_by),
-            names.get((a.target_type.model_class(), a.target_id), a.target_type.name),
+            _entry_name(names, a.target_type.model_class(), a.target_id, a.target_type.name),
             a.field_name,
             a.original_value or "(empty)",
             a.corrected_value or "(empty)",
@@ -296,6 +296,15 @@ def prepare_report(record: ServiceRecord, *, charts_on: dt.date | None = None) -
         charts=charts,
         charts_on=charts_on,
     )
+
+
+def _entry_name(
+    names: dict[tuple[type[models.Model], int], str],
+    model: type[models.Model] | None,
+    pk: int,
+    fallback: str,
+) -> str:
+    return names.get((model, pk), fallback) if model is not None else fallback
 
 
 def _unit_charts(record: ServiceRecord, on: dt.date) -> tuple[Chart, ...]:

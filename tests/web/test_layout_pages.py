@@ -308,3 +308,17 @@ def test_the_overview_keeps_the_flags_column_when_a_row_has_one(as_viewer, unit)
     page = as_viewer.get(reverse("dashboard"), {"show": "all"}).content.decode()
     assert FLAGS_HEADER.search(page)
     assert "wearing fast" in page
+
+
+def test_a_lost_units_page_does_not_say_it_is_in_the_water(as_technician, lost_at_sea):
+    page = as_technician.get(reverse("unit-detail", args=["TX-0001"])).content.decode()
+    assert "still in the water" not in page
+    assert "not recovered: the unit is held as lost" in page
+    assert "last deployed at Test site A on" in page
+    assert reverse("deployment-recover", args=[lost_at_sea.pk]) not in page
+
+
+def test_the_unit_filter_labels_its_condition_field(as_viewer):
+    page = as_viewer.get(reverse("unit-list")).content.decode()
+    assert "[invalid name]" not in page
+    assert '<label for="id_condition">Condition</label>' in page

@@ -102,12 +102,12 @@ def _axes(
         )
     drawing.add(
         String(
-            drawing.width - RIGHT,
-            drawing.height - TOP + 2 * mm,
+            LEFT,
+            drawing.height - TOP + 1.5,
             chart.y_label,
             fontName=FONT,
             fontSize=6.5,
-            textAnchor="end",
+            textAnchor="start",
         )
     )
     if chart.today and d0 <= chart.today <= d1:
@@ -130,7 +130,8 @@ def _axes(
 def chart_drawing(chart: Chart, width: float, height: float) -> Drawing:
     """``chart`` as a reportlab ``Drawing`` of ``width`` x ``height`` points."""
     drawing = Drawing(width, height)
-    drawing.add(String(LEFT, height - TOP + 2 * mm, chart.title, fontName=FONT_BOLD, fontSize=8))
+    # The title on the top line, the value label under it just above the plot.
+    drawing.add(String(LEFT, height - 8, chart.title, fontName=FONT_BOLD, fontSize=8))
     plot_w, plot_h = width - LEFT - RIGHT, height - TOP - BOTTOM
     drawing.add(_box(LEFT, BOTTOM, plot_w, plot_h, fill=None, width=0.6))
     if not any(s.points for s in chart.series):
@@ -155,17 +156,20 @@ def chart_drawing(chart: Chart, width: float, height: float) -> Drawing:
         return BOTTOM + plot_h * (clamped - y_min) / ((y_max - y_min) or 1.0)
 
     _axes(drawing, chart, span, x, y)
-    legend_x = LEFT
+    # The key under the dates, on a second row when one is not wide enough.
+    legend_x, legend_y = LEFT, 15.0
     for s in chart.series:
         _series(drawing, s, x, y)
-        _legend_item(drawing, s, legend_x)
-        legend_x += 22 + 3.6 * len(s.label)
+        needed = 22 + 3.6 * len(s.label)
+        if legend_x > LEFT and legend_x + needed > width:
+            legend_x, legend_y = LEFT, legend_y - 10
+        _legend_item(drawing, s, legend_x, legend_y)
+        legend_x += needed
     return drawing
 
 
-def _legend_item(drawing: Drawing, s: Series, legend_x: float) -> None:
+def _legend_item(drawing: Drawing, s: Series, legend_x: float, ly: float) -> None:
     """One series' sample line, marker and label in the row under the plot."""
-    ly = 3.0
     if s.line:
         drawing.add(_stroke(Line(legend_x, ly + 2, legend_x + 14, ly + 2), s))
     if s.marker == "circle":

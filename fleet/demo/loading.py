@@ -288,10 +288,10 @@ def load_demo(*, today: dt.date) -> LoadSummary:
     )
 
 
-# What the demo does with the latest passing release test of its first three release units
-# (by serial), so that a newcomer sees a certificate in each state: issued; issued, then
-# issued again (the first superseded); issued, then withdrawn. Dated half an hour after the
-# visit closed.
+# What the demo does with the latest passing release test of three units (the earliest
+# closed visits first, so the numbers run with the dates), so that a newcomer sees a
+# certificate in each state: issued; issued, then issued again (the first superseded);
+# issued, then withdrawn. Dated half an hour after the visit closed.
 CERTIFICATE_STORIES = ("issued", "superseded", "withdrawn")
 WITHDRAWN_REASON = "Issued against the wrong test sheet; the unit is retested before it goes out."
 
@@ -306,7 +306,7 @@ def _issue_certificates(units: Any, *, by: User) -> dict[str, str]:
             pk__in=units.values("state__last_release_test"),
         )
         .select_related("record__unit")
-        .order_by("record__unit__serial")
+        .order_by("record__closed_at", "pk")
     )
     stories: dict[str, str] = {}
     for test in tests:

@@ -315,8 +315,9 @@ def _timeline_row(
     row: TimelineRow, index: int, scale: _Scale, today: dt.date, unit_url: Callable[[str], str]
 ) -> list[str]:
     top = TIMELINE_HEAD + index * TIMELINE_ROW
+    href = escape(unit_url(row.serial), {'"': "&quot;"})
     out = [
-        f'<a href="{escape(unit_url(row.serial))}"><text x="4" y="{top + 16}" fill="#0b5c7a" '
+        f'<a href="{href}"><text x="4" y="{top + 16}" fill="#0b5c7a" '
         f'text-decoration="underline">{escape(row.serial)}</text></a>'
     ]
     out += [_span_rect(s, scale, top, today, bench=False) for s in row.deployments]

@@ -322,3 +322,28 @@ def test_the_unit_filter_labels_its_condition_field(as_viewer):
     page = as_viewer.get(reverse("unit-list")).content.decode()
     assert "[invalid name]" not in page
     assert '<label for="id_condition">Condition</label>' in page
+
+
+def test_the_timeline_escapes_what_it_draws():
+    from fleet.charts import timeline_svg
+    from fleet.selectors import TimelineRow, TimelineSpan
+
+    on = dt.date(2026, 12, 2)
+    row = TimelineRow(
+        serial='TX-<1>"',
+        variant="v",
+        deployments=(TimelineSpan(dt.date(2026, 1, 1), None, "Site <b>&amp;", lost=True),),
+        visits=(),
+        due=((dt.date(2027, 1, 1), 'Seal "A" <x>'),),
+    )
+    svg = timeline_svg(
+        [row],
+        start=on - dt.timedelta(days=730),
+        end=on + dt.timedelta(days=365),
+        today=on,
+        unit_url=lambda serial: f"/units/{serial}/",
+    )
+    assert "<b>" not in svg and "<x>" not in svg and "<1>" not in svg
+    assert "Site &lt;b&gt;&amp;amp;: 2026-01-01 to lost" in svg
+    assert 'href="/units/TX-&lt;1&gt;&quot;/"' in svg
+    assert 'Seal "A" &lt;x&gt;: due 2027-01-01' in svg

@@ -14,6 +14,12 @@ from .services.reference import site_save, unit_save, variant_changed
 
 _M = TypeVar("_M", bound=Model)
 
+# The admin is where supervisors keep the reference data: branded as ours. Its sign-in page
+# is replaced by ours (``fleet.views.signin.admin_login``, routed in fleet/urls.py).
+admin.site.site_header = "Holdfast reference data"
+admin.site.site_title = "Holdfast reference data"
+admin.site.index_title = "Variants, units, places and sites"
+
 
 class AnodePositionInline(admin.TabularInline[models.AnodePosition, models.Variant]):
     model = models.AnodePosition

@@ -7,13 +7,14 @@ The unit page's two charts are assembled here from the ``fleet.due.history`` dat
 from __future__ import annotations
 
 import datetime as dt
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING
 from xml.sax.saxutils import escape
 
 if TYPE_CHECKING:
     from fleet.due.history import AnodeHistory, BatteryHistory
+    from fleet.selectors import TimelineRow, TimelineSpan
 
 WIDTH, HEIGHT = 640, 260
 LEFT, RIGHT, TOP, BOTTOM = 56, 16, 28, 40
@@ -166,8 +167,13 @@ def render(chart: Chart) -> str:
 
 
 def anode_chart_svg(history: AnodeHistory, *, serial: str, today: dt.date) -> str:
+    return render(anode_chart(history, serial=serial, today=today))
+
+
+def anode_chart(history: AnodeHistory, *, serial: str, today: dt.date) -> Chart:
     """One anode position: readings as % of new mass, the fitted wear line, the projection to
-    the replacement threshold, and the threshold itself across the drawn span."""
+    the replacement threshold, and the threshold itself across the drawn span. Drawn as SVG
+    here (``render``) and in the service report (``fleet.documents.report``)."""
     chart = Chart(
         title=f"{serial}: anode {history.name}",
         y_label="% of new mass",
@@ -190,10 +196,14 @@ def anode_chart_svg(history: AnodeHistory, *, serial: str, today: dt.date) -> st
                 dash="2 3",
             )
         )
-    return render(chart)
+    return chart
 
 
 def battery_chart_svg(history: BatteryHistory | None, *, serial: str, today: dt.date) -> str:
+    return render(battery_chart(history, serial=serial, today=today))
+
+
+def battery_chart(history: BatteryHistory | None, *, serial: str, today: dt.date) -> Chart:
     """The fitted pack: charge used so far, the projection at the duty, and the reserve; an
     empty chart when no pack is fitted."""
     chart = Chart(title=f"{serial}: battery charge", y_label="Ah left", today=today)
@@ -211,4 +221,156 @@ def battery_chart_svg(history: BatteryHistory | None, *, serial: str, today: dt.
                 dash="2 3",
             )
         )
-    return render(chart)
+    return chart
+
+
+# --- The fleet timeline: one row per unit, over a window of days -----------------------------
+
+TIMELINE_WIDTH = 1080
+TIMELINE_LABEL = 92  # the serial column
+TIMELINE_HEAD = 34  # quarter labels above the rows
+TIMELINE_ROW = 24
+TIMELINE_FOOT = 30  # the key under the rows
+_DEPLOYED_FILL, _DEPLOYED_EDGE = "#b9d6e2", "#0b5c7a"
+_BENCH_FILL = "#15212b"
+_OVERDUE_FILL = "#a1261c"
+
+
+@dataclass(frozen=True, slots=True)
+class _Scale:
+    start: dt.date
+    end: dt.date
+
+    def x(self, day: dt.date) -> float:
+        day = min(max(day, self.start), self.end)
+        plot_w = TIMELINE_WIDTH - TIMELINE_LABEL - 8
+        return TIMELINE_LABEL + plot_w * (day - self.start).days / max(
+            1, (self.end - self.start).days
+        )
+
+
+def _quarters(start: dt.date, end: dt.date) -> list[dt.date]:
+    first = dt.date(start.year, 3 * ((start.month - 1) // 3) + 1, 1)
+    days = []
+    while first <= end:
+        if first >= start:
+            days.append(first)
+        month = first.month + 3
+        first = dt.date(first.year + (month - 1) // 12, (month - 1) % 12 + 1, 1)
+    return days
+
+
+def _timeline_grid(scale: _Scale, height: float, today: dt.date) -> list[str]:
+    out = []
+    for day in _quarters(scale.start, scale.end):
+        xx = scale.x(day)
+        out.append(
+            f'<line x1="{xx:.1f}" y1="{TIMELINE_HEAD - 6}" x2="{xx:.1f}" y2="{height}" '
+            'stroke="#cfd6dc" stroke-width="1"/>'
+            f'<text x="{xx + 3:.1f}" y="{TIMELINE_HEAD - 10}">{day:%Y-%m}</text>'
+        )
+    tx = scale.x(today)
+    out.append(
+        f'<line x1="{tx:.1f}" y1="{TIMELINE_HEAD - 22}" x2="{tx:.1f}" y2="{height}" '
+        'stroke="#000" stroke-width="1.5"/>'
+        f'<text x="{tx + 3:.1f}" y="{TIMELINE_HEAD - 22}" font-weight="bold">today</text>'
+    )
+    return out
+
+
+def _span_rect(span: TimelineSpan, scale: _Scale, top: float, today: dt.date, bench: bool) -> str:
+    x0 = scale.x(span.start)
+    x1 = max(scale.x(span.end or today), x0 + 2)
+    until = span.end.isoformat() if span.end else ("lost" if span.lost else "now")
+    tip = escape(f"{span.label}: {span.start.isoformat()} to {until}")
+    if bench:
+        shape = (
+            f'<rect x="{x0:.1f}" y="{top + 8}" width="{x1 - x0:.1f}" height="8" '
+            f'fill="{_BENCH_FILL}"/>'
+        )
+    elif span.lost:
+        shape = (
+            f'<rect x="{x0:.1f}" y="{top + 4}" width="{x1 - x0:.1f}" height="16" fill="#fff" '
+            f'stroke="{_OVERDUE_FILL}" stroke-dasharray="3 2"/>'
+        )
+    else:
+        shape = (
+            f'<rect x="{x0:.1f}" y="{top + 4}" width="{x1 - x0:.1f}" height="16" '
+            f'fill="{_DEPLOYED_FILL}" stroke="{_DEPLOYED_EDGE}"/>'
+        )
+    return f"<g><title>{tip}</title>{shape}</g>"
+
+
+def _due_mark(day: dt.date, item: str, scale: _Scale, top: float, today: dt.date) -> str:
+    xx = scale.x(day)
+    fill = _OVERDUE_FILL if day <= today else "#fff"
+    tip = escape(f"{item}: due {day.isoformat()}")
+    return (
+        f"<g><title>{tip}</title>"
+        f'<path d="M{xx:.1f},{top + 3} l5,9 h-10 z" fill="{fill}" stroke="#000"/></g>'
+    )
+
+
+def _timeline_row(
+    row: TimelineRow, index: int, scale: _Scale, today: dt.date, unit_url: Callable[[str], str]
+) -> list[str]:
+    top = TIMELINE_HEAD + index * TIMELINE_ROW
+    href = escape(unit_url(row.serial), {'"': "&quot;"})
+    out = [
+        f'<a href="{href}"><text x="4" y="{top + 16}" fill="#0b5c7a" '
+        f'text-decoration="underline">{escape(row.serial)}</text></a>'
+    ]
+    out += [_span_rect(s, scale, top, today, bench=False) for s in row.deployments]
+    out += [_span_rect(s, scale, top, today, bench=True) for s in row.visits]
+    out += [_due_mark(day, item, scale, top, today) for day, item in row.due]
+    return out
+
+
+def _timeline_key(top: float) -> list[str]:
+    y = top + 18
+    return [
+        f'<rect x="4" y="{y - 12}" width="22" height="14" fill="{_DEPLOYED_FILL}" '
+        f'stroke="{_DEPLOYED_EDGE}"/><text x="30" y="{y}">deployed</text>',
+        f'<rect x="110" y="{y - 12}" width="22" height="14" fill="#fff" stroke="{_OVERDUE_FILL}" '
+        f'stroke-dasharray="3 2"/><text x="136" y="{y}">lost (held)</text>',
+        f'<rect x="230" y="{y - 9}" width="22" height="8" fill="{_BENCH_FILL}"/>'
+        f'<text x="256" y="{y}">bench visit</text>',
+        f'<path d="M365,{y - 12} l5,9 h-10 z" fill="#fff" stroke="#000"/>'
+        f'<text x="376" y="{y}">due</text>',
+        f'<path d="M425,{y - 12} l5,9 h-10 z" fill="{_OVERDUE_FILL}" stroke="#000"/>'
+        f'<text x="436" y="{y}">due, today or past (overdue)</text>',
+    ]
+
+
+def timeline_svg(
+    rows: Sequence[TimelineRow],
+    *,
+    start: dt.date,
+    end: dt.date,
+    today: dt.date,
+    unit_url: Callable[[str], str],
+) -> str:
+    """The fleet timeline from ``fleet.selectors.timeline_rows``: per unit, its deployments
+    (bars), bench visits (thin dark bars) and due dates (triangles, filled when today or
+    past), quarters marked, today a line. Shapes differ as well as colours, for print."""
+    scale = _Scale(start, end)
+    height = TIMELINE_HEAD + TIMELINE_ROW * len(rows) + TIMELINE_FOOT
+    out = [
+        f'<svg xmlns="http://www.w3.org/2000/svg" width="{TIMELINE_WIDTH}" height="{height}" '
+        f'viewBox="0 0 {TIMELINE_WIDTH} {height}" font-family="DejaVu Sans, sans-serif" '
+        'font-size="12" role="img" aria-labelledby="timeline-title">',
+        f'<title id="timeline-title">Fleet timeline, {start.isoformat()} to {end.isoformat()}'
+        "</title>",
+        f'<rect width="{TIMELINE_WIDTH}" height="{height}" fill="#fff"/>',
+    ]
+    out += [
+        f'<rect x="0" y="{TIMELINE_HEAD + i * TIMELINE_ROW}" width="{TIMELINE_WIDTH}" '
+        f'height="{TIMELINE_ROW}" fill="#f3f5f7"/>'
+        for i in range(1, len(rows), 2)
+    ]
+    out += _timeline_grid(scale, TIMELINE_HEAD + TIMELINE_ROW * len(rows), today)
+    for index, row in enumerate(rows):
+        out += _timeline_row(row, index, scale, today, unit_url)
+    out += _timeline_key(TIMELINE_HEAD + TIMELINE_ROW * len(rows))
+    out.append("</svg>")
+    return "".join(out)

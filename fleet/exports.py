@@ -1,6 +1,12 @@
-"""CSV export of a django-tables2 table, safe to open in a spreadsheet."""
+"""CSV export of a django-tables2 table, safe to open in a spreadsheet.
+
+One type per column: a timestamp column holds ISO 8601 timestamps in UTC
+(``2026-11-17T12:45:00Z``), a date column ISO 8601 dates (``2026-11-17``), and an empty cell is
+empty, never a placeholder word or dash the screen shows.
+"""
 
 import csv
+import datetime as dt
 import re
 from collections.abc import Iterable, Sequence
 
@@ -9,6 +15,26 @@ from django_tables2 import Table
 
 _NUMBER = re.compile(r"^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
 _FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
+
+
+# What the screen shows for an empty cell; the file leaves the cell empty.
+_PLACEHOLDERS = frozenset({"—", "-"})
+
+
+def iso_timestamp(value: dt.datetime) -> str:
+    """An aware timestamp in UTC, to the second: ``2026-11-17T12:45:00Z``."""
+    return value.astimezone(dt.UTC).replace(microsecond=0).isoformat().replace("+00:00", "Z")
+
+
+def export_cell(value: object) -> object:
+    """A table's value for the file: timestamps and dates in ISO 8601, placeholders empty."""
+    if isinstance(value, dt.datetime):
+        return iso_timestamp(value)
+    if isinstance(value, dt.date):
+        return value.isoformat()
+    if isinstance(value, str) and value in _PLACEHOLDERS:
+        return ""
+    return value
 
 
 def spreadsheet_safe(value: object) -> str:
@@ -31,4 +57,8 @@ def csv_rows_response(rows: Iterable[Sequence[object]], filename: str) -> HttpRe
 
 
 def csv_response(table: Table, filename: str) -> HttpResponse:
-    return csv_rows_response(table.as_values(), filename)
+    rows = table.as_values()
+    header: list[object] = list(next(rows, []))
+    return csv_rows_response(
+        [header, *([export_cell(cell) for cell in row] for row in rows)], filename
+    )

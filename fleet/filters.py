@@ -19,7 +19,10 @@ if TYPE_CHECKING:
 class UnitFilter(django_filters.FilterSet):
     q = django_filters.CharFilter(method="search", label="Search")
     condition = django_filters.ChoiceFilter(
-        choices=Condition.choices(), empty_label="Any condition", method="by_condition"
+        choices=Condition.choices(),
+        empty_label="Any condition",
+        method="by_condition",
+        label="Condition",
     )
     place = django_filters.ModelChoiceFilter(queryset=Place.objects.all(), empty_label="Any place")
     variant = django_filters.ModelChoiceFilter(

@@ -732,3 +732,14 @@ class LabelContactForm(forms.ModelForm[LabelSetting]):
     class Meta:
         model = LabelSetting
         fields = ["contact_line"]
+
+
+class TimelineFilterForm(forms.Form):
+    """Which units the fleet timeline draws."""
+
+    variant = forms.ModelChoiceField(
+        queryset=Variant.objects.all(), required=False, empty_label="Any variant"
+    )
+    place = forms.ModelChoiceField(
+        queryset=Place.objects.all(), required=False, empty_label="Any place"
+    )

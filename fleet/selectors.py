@@ -2,12 +2,24 @@
 queries it makes; tests/test_selectors.py holds it to that."""
 
 import datetime as dt
+from collections import defaultdict
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any, TypeVar
 
 from django.core.exceptions import ValidationError
-from django.db.models import Count, F, Field, Model, OuterRef, Prefetch, QuerySet, Subquery, Window
+from django.db.models import (
+    Count,
+    F,
+    Field,
+    Model,
+    OuterRef,
+    Prefetch,
+    Q,
+    QuerySet,
+    Subquery,
+    Window,
+)
 from django.db.models.functions import RowNumber
 from django.utils import timezone
 from django.utils.text import capfirst
@@ -378,6 +390,7 @@ class AmendmentLine:
     original_words: str
     corrected_words: str
     reason: str
+    target_key: tuple[Any, int] | None = None  # (model, pk) of what was corrected
 
 
 def amendment_line(amendment: Amendment, *, utc: bool = False) -> AmendmentLine:
@@ -400,6 +413,7 @@ def amendment_line(amendment: Amendment, *, utc: bool = False) -> AmendmentLine:
         original,
         corrected,
         amendment.reason,
+        (model, amendment.target_id) if model is not None else None,
     )
 
 
@@ -450,9 +464,10 @@ def open_records(*, limit: int = 20) -> list[ServiceRecord]:
 
 def units_in_water(*, limit: int = 50) -> list[Deployment]:
     """Deployments not yet recovered, longest in the water first, with unit and site. One
-    query."""
+    query. A unit held as lost is left out: it is not in the water as far as anyone knows."""
     return list(
         Deployment.objects.filter(recovered_at__isnull=True)
+        .exclude(unit__hold=UnitHold.LOST)
         .select_related("unit", "site")
         .order_by("over_side_at")[:limit]
     )
@@ -515,3 +530,86 @@ def label_units(
         left_out=sorted(held),
         unknown=sorted(set(serials or ()) - known),
     )
+
+
+@dataclass(frozen=True, slots=True)
+class TimelineSpan:
+    """A stretch of time on the timeline: a deployment or a bench visit. ``end`` None: still
+    open (drawn to the window's "today")."""
+
+    start: dt.date
+    end: dt.date | None
+    label: str
+    lost: bool = False
+
+
+@dataclass(frozen=True, slots=True)
+class TimelineRow:
+    serial: str
+    variant: str
+    deployments: tuple[TimelineSpan, ...]
+    visits: tuple[TimelineSpan, ...]
+    due: tuple[tuple[dt.date, str], ...]  # (due date, item)
+
+
+def timeline_rows(
+    *, units: Sequence[Transponder], start: dt.date, end: dt.date
+) -> list[TimelineRow]:
+    """Each unit's deployments, bench visits and due dates touching ``start``..``end``.
+
+    Three queries whatever the number of units (deployments with their site, bench visits,
+    due rows); ``units`` come in with their variant selected.
+    """
+    ids = [u.pk for u in units]
+    lo = dt.datetime.combine(start, dt.time.min, tzinfo=dt.UTC)
+    hi = dt.datetime.combine(end, dt.time.max, tzinfo=dt.UTC)
+    deployments: dict[int, list[TimelineSpan]] = defaultdict(list)
+    lost = {u.pk for u in units if u.hold == UnitHold.LOST}
+    for d in (
+        Deployment.objects.filter(unit_id__in=ids, over_side_at__lte=hi)
+        .filter(Q(recovered_at__isnull=True) | Q(recovered_at__gte=lo))
+        .select_related("site")
+        .order_by("over_side_at")
+    ):
+        open_and_lost = d.recovered_at is None and d.unit_id in lost
+        deployments[d.unit_id].append(
+            TimelineSpan(
+                timezone.localdate(d.over_side_at),
+                timezone.localdate(d.recovered_at) if d.recovered_at else None,
+                d.site.name,
+                lost=open_and_lost,
+            )
+        )
+    visits: dict[int, list[TimelineSpan]] = defaultdict(list)
+    for r in (
+        ServiceRecord.objects.filter(unit_id__in=ids, opened_at__lte=hi)
+        .filter(Q(closed_at__isnull=True) | Q(closed_at__gte=lo))
+        .order_by("opened_at")
+        .values_list("unit_id", "opened_at", "closed_at")
+    ):
+        unit_id, opened_at, closed_at = r
+        visits[unit_id].append(
+            TimelineSpan(
+                timezone.localdate(opened_at),
+                timezone.localdate(closed_at) if closed_at else None,
+                "bench visit",
+            )
+        )
+    due: dict[int, list[tuple[dt.date, str]]] = defaultdict(list)
+    for unit_id, due_on, item in (
+        DueRow.objects.filter(unit_id__in=ids, due_on__range=(start, end))
+        .order_by("due_on")
+        .values_list("unit_id", "due_on", "item")
+    ):
+        if due_on is not None:  # within the range: never None, but the column allows it
+            due[unit_id].append((due_on, item))
+    return [
+        TimelineRow(
+            serial=u.serial,
+            variant=u.variant.name,
+            deployments=tuple(deployments[u.pk]),
+            visits=tuple(visits[u.pk]),
+            due=tuple(due[u.pk]),
+        )
+        for u in units
+    ]

@@ -3,11 +3,22 @@ import datetime as dt
 import django_tables2 as tables
 from django.db.models import F, QuerySet
 from django.urls import reverse
+from django.utils.formats import date_format
 from django.utils.html import format_html
+from django.utils.timezone import localtime
 
 from .due.condition import Condition
 from .due.items import DueState, ItemKind
-from .models import Deployment, ServiceRecord, Site, Transponder
+from .exports import iso_timestamp
+from .models import Deployment, ServiceRecord, Site, Transponder, UnitHold
+
+# Cell classes (static/fleet/holdfast.css): a serial, date or address never breaks at its
+# hyphen; a column a narrow screen can spare is hidden there; a long text in the due list
+# goes under the row's other cells on a narrow screen.
+NOWRAP = {"th": {"class": "nowrap"}, "td": {"class": "nowrap"}}
+WIDE_ONLY = {"th": {"class": "wide-only"}, "td": {"class": "wide-only"}}
+NOWRAP_WIDE_ONLY = {"th": {"class": "nowrap wide-only"}, "td": {"class": "nowrap wide-only"}}
+STACK = {"th": {"class": "stack"}, "td": {"class": "stack"}}
 
 
 def condition_badge(condition: Condition) -> str:
@@ -35,18 +46,24 @@ class UnitTable(tables.Table):
         attrs={"input": {"name": "unit", "form": "label-sheet"}},
         exclude_from_export=True,
     )
-    serial = tables.Column(linkify=True)
+    serial = tables.Column(linkify=True, attrs=NOWRAP)
     variant = tables.Column(accessor="variant__name", verbose_name="Variant")
     # Needs the list's queryset annotated with ``annotate_condition`` (one query for the page).
     condition = tables.Column(verbose_name="Condition", orderable=False)
     place = tables.Column(accessor="place__name", verbose_name="Place", default="—")
-    acoustic_address = tables.Column(verbose_name="Address")
-    turnaround_delay_ms = tables.Column(verbose_name="Turnaround (ms)")
+    acoustic_address = tables.Column(verbose_name="Address", attrs=NOWRAP)
+    turnaround_delay_ms = tables.Column(verbose_name="Turnaround (ms)", attrs=WIDE_ONLY)
     last_service = tables.DateTimeColumn(
-        accessor="last_service", verbose_name="Last bench visit", format="Y-m-d", default="—"
+        accessor="last_service",
+        verbose_name="Last bench visit",
+        format="Y-m-d",
+        default="—",
+        attrs=NOWRAP,
     )
     # Needs the queryset through ``fleet.selectors.with_next_due`` (subqueries, no query more).
-    next_due_on = tables.DateColumn(verbose_name="Next due", format="Y-m-d", default="—")
+    next_due_on = tables.DateColumn(
+        verbose_name="Next due", format="Y-m-d", default="—", attrs=NOWRAP
+    )
     next_due_item = tables.Column(verbose_name="Next due item", default="—", orderable=False)
 
     class Meta:
@@ -69,6 +86,9 @@ class UnitTable(tables.Table):
 
     def render_condition(self, value: str) -> str:
         return condition_badge(Condition(value))
+
+    def value_last_service(self, value: dt.datetime | None) -> str:
+        return iso_timestamp(value) if value else ""
 
     def value_condition(self, value: str) -> str:
         return Condition(value).label
@@ -93,19 +113,29 @@ class DeploymentTable(tables.Table):
         accessor="unit__serial",
         verbose_name="Unit",
         linkify=lambda record: record.unit.get_absolute_url(),
+        attrs=NOWRAP,
     )
     site = tables.Column(
         accessor="site__name",
         verbose_name="Site",
         linkify=lambda record: record.site.get_absolute_url(),
     )
-    over_side_at = tables.DateTimeColumn(format="Y-m-d H:i", verbose_name="Over the side")
-    recovered_at = tables.DateTimeColumn(
-        format="Y-m-d H:i", verbose_name="Recovered", default="in the water"
+    over_side_at = tables.DateTimeColumn(
+        format="Y-m-d H:i", verbose_name="Over the side", attrs=NOWRAP
+    )
+    # Not recovered: in the water, unless the unit is held as lost (then it is not in the
+    # water as far as anyone knows, and there is nothing to recover).
+    recovered_at = tables.Column(verbose_name="Recovered", empty_values=(), attrs=NOWRAP)
+    # The export's word for where the deployment stands (the recovered column holds only
+    # timestamps there).
+    status = tables.Column(
+        verbose_name="Status", accessor="recovered_at", empty_values=(), visible=False
     )
     planned_days = tables.Column(verbose_name="Planned days")
-    planned_interrogations_per_day = tables.Column(verbose_name="Interrogations / day")
-    replies_counted = tables.Column(verbose_name="Replies counted", default="—")
+    planned_interrogations_per_day = tables.Column(
+        verbose_name="Interrogations / day", attrs=WIDE_ONLY
+    )
+    replies_counted = tables.Column(verbose_name="Replies counted", default="—", attrs=WIDE_ONLY)
     actions = tables.TemplateColumn(
         template_name="fleet/partials/deployment_actions.html",
         orderable=False,
@@ -123,10 +153,38 @@ class DeploymentTable(tables.Table):
             "planned_days",
             "planned_interrogations_per_day",
             "replies_counted",
+            "status",
         )
         order_by = "-over_side_at"
         attrs = {"class": "grid"}
         per_page = 50
+
+    def value_over_side_at(self, value: dt.datetime) -> str:
+        return iso_timestamp(value)
+
+    def render_recovered_at(self, record: Deployment) -> str:
+        if record.recovered_at is not None:
+            return date_format(localtime(record.recovered_at), "Y-m-d H:i")
+        return deployment_status(record)
+
+    def value_recovered_at(self, record: Deployment) -> str:
+        return iso_timestamp(record.recovered_at) if record.recovered_at else ""
+
+    def render_status(self, record: Deployment) -> str:
+        return deployment_status(record)
+
+    def value_status(self, record: Deployment) -> str:
+        return deployment_status(record)
+
+
+def deployment_status(deployment: Deployment) -> str:
+    """Recovered; else lost when the unit is held as lost (not in the water as far as anyone
+    knows, and nothing to recover); else in the water."""
+    if deployment.recovered_at is not None:
+        return "recovered"
+    if deployment.unit.hold == UnitHold.LOST:
+        return "lost"
+    return "in the water"
 
 
 class SiteTable(tables.Table):
@@ -161,15 +219,19 @@ class DueItemTable(tables.Table):
         accessor="unit__serial",
         verbose_name="Unit",
         linkify=lambda record: reverse("unit-detail", args=[record.unit.serial]),
+        attrs=NOWRAP,
     )
-    variant = tables.Column(accessor="unit__variant__name", verbose_name="Variant")
-    place = tables.Column(accessor="unit__place__name", verbose_name="Place", default="—")
+    variant = tables.Column(accessor="unit__variant__name", verbose_name="Variant", attrs=WIDE_ONLY)
+    place = tables.Column(
+        accessor="unit__place__name", verbose_name="Place", default="—", attrs=WIDE_ONLY
+    )
     # The item names its kind on screen; the export keeps the kind as a column to filter on.
     kind = tables.Column(verbose_name="Kind", visible=False)
     item = tables.Column(verbose_name="Item")
-    due_on = tables.DateColumn(verbose_name="Due", format="Y-m-d", default="—")
-    basis = tables.Column(verbose_name="Basis", orderable=False)
-    flags = tables.Column(verbose_name="Flags", orderable=False, default="")
+    due_on = tables.DateColumn(verbose_name="Due", format="Y-m-d", default="—", attrs=NOWRAP)
+    basis = tables.Column(verbose_name="Basis", orderable=False, attrs=STACK)
+    # The view drops this column when no row of the list has a flag.
+    flags = tables.Column(verbose_name="Flags", orderable=False, default="", attrs=STACK)
 
     class Meta:
         attrs = {"class": "grid due-list"}

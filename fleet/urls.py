@@ -7,9 +7,12 @@ from .views import (
     documents,
     feeds,
     find,
+    help,
     media,
     planning,
     records,
+    signin,
+    timeline,
     unit_changes,
     units,
     variants,
@@ -64,6 +67,10 @@ urlpatterns = [
     path("units/<str:serial>/edit/", unit_changes.unit_edit, name="unit-edit"),
     path("units/<str:serial>/move/", unit_changes.unit_move_view, name="unit-move"),
     path("units/<str:serial>/hold/", unit_changes.unit_hold, name="unit-hold"),
+    path("help/", help.help_page, name="help"),
+    path("timeline/", timeline.timeline, name="timeline"),
+    # The admin's sign-in: ours (a technician gets our 403 page, not the framework's login).
+    path("admin/login/", signin.admin_login, name="admin-login"),
     # Documents (PDFs), release certificates and the public verification page
     path("units/<str:serial>/checklist.pdf", documents.checklist_pdf, name="unit-checklist-pdf"),
     path("units/<str:serial>/checklist/", documents.checklist_form, name="unit-checklist"),

@@ -15,6 +15,7 @@ from typing import Any
 
 from django.contrib.auth import get_user_model
 from django.contrib.auth.models import Group, User
+from django.core.exceptions import ValidationError
 from django.db import transaction
 from django.db.models import ProtectedError
 
@@ -45,6 +46,7 @@ from fleet.models import (
     Deployment,
     Place,
     ReleaseCertificate,
+    ReleaseTest,
     ReplyChargeStep,
     SealPosition,
     ServiceRecord,
@@ -52,6 +54,7 @@ from fleet.models import (
     Transponder,
     Variant,
 )
+from fleet.services.certificates import certificate_issue, certificate_withdraw
 
 # --- Idempotency and logins -------------------------------------------------------------------
 
@@ -264,6 +267,7 @@ def load_demo(*, today: dt.date) -> LoadSummary:
     for plan in plan_fleet(today):
         entries += write_unit(plan, rows)
     units = Transponder.objects.filter(variant__in=rows.variants.values())
+    _issue_certificates(units, by=logins.users["supervisor"])
     deployments = Deployment.objects.filter(unit__in=units)
     records = ServiceRecord.objects.filter(unit__in=units)
     conditions = Counter(
@@ -282,6 +286,52 @@ def load_demo(*, today: dt.date) -> LoadSummary:
         conditions=dict(sorted(conditions.items())),
         own_password=logins.own_password,
     )
+
+
+# What the demo does with the latest passing release test of three units (the earliest
+# closed visits first, so the numbers run with the dates), so that a newcomer sees a
+# certificate in each state: issued; issued, then issued again (the first superseded);
+# issued, then withdrawn. Dated half an hour after the visit closed.
+CERTIFICATE_STORIES = ("issued", "superseded", "withdrawn")
+WITHDRAWN_REASON = "Issued against the wrong test sheet; the unit is retested before it goes out."
+
+
+def _issue_certificates(units: Any, *, by: User) -> dict[str, str]:
+    """Certificates through the service (``fleet.services.certificates``). Returns
+    {serial: story}."""
+    tests = (
+        ReleaseTest.objects.filter(
+            record__unit__in=units,
+            record__closed_at__isnull=False,
+            pk__in=units.values("state__last_release_test"),
+        )
+        .select_related("record__unit")
+        .order_by("record__closed_at", "pk")
+    )
+    stories: dict[str, str] = {}
+    for test in tests:
+        if len(stories) == len(CERTIFICATE_STORIES):
+            break
+        closed_at = test.record.closed_at
+        if closed_at is None:  # filtered out above; never certify an open visit
+            continue
+        at = closed_at + dt.timedelta(minutes=30)
+        try:
+            certificate = certificate_issue(release_test=test, by=by, at=at)
+        except ValidationError:  # a failed test gets no certificate: try the next unit
+            continue
+        story = CERTIFICATE_STORIES[len(stories)]
+        if story == "superseded":
+            certificate_issue(release_test=test, by=by, at=at + dt.timedelta(minutes=20))
+        elif story == "withdrawn":
+            certificate_withdraw(
+                certificate=certificate,
+                reason=WITHDRAWN_REASON,
+                by=by,
+                at=at + dt.timedelta(minutes=40),
+            )
+        stories[test.record.unit.serial] = story
+    return stories
 
 
 @transaction.atomic

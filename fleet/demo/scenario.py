@@ -107,7 +107,7 @@ class VariantSpec:
     power_steps: tuple[int, ...]
     sensor_check_pressure_dbar: float
     serial_prefix: str
-    address_band: str
+    address_channel: int  # acoustic addresses "C<channel>-<number>", e.g. C3-17
 
 
 # Buoyancy of the invented designs at 1021.7 kg/m³ (30 °C surface water, the least dense a
@@ -150,7 +150,7 @@ VARIANTS: tuple[VariantSpec, ...] = (
         power_steps=(1, 2),
         sensor_check_pressure_dbar=300.0,
         serial_prefix="HF1",
-        address_band="A",
+        address_channel=1,
     ),
     VariantSpec(
         key="rl",
@@ -187,7 +187,7 @@ VARIANTS: tuple[VariantSpec, ...] = (
         power_steps=(2,),
         sensor_check_pressure_dbar=1000.0,
         serial_prefix="HF2",
-        address_band="B",
+        address_channel=2,
     ),
     VariantSpec(
         key="dp",
@@ -222,7 +222,7 @@ VARIANTS: tuple[VariantSpec, ...] = (
         power_steps=(2, 3),
         sensor_check_pressure_dbar=2000.0,
         serial_prefix="HF3",
-        address_band="C",
+        address_channel=3,
     ),
 )
 DEMO_VARIANT_NAMES: tuple[str, ...] = tuple(v.name for v in VARIANTS)

@@ -868,11 +868,13 @@ def plan_unit(spec: UnitSpec, today: dt.date) -> UnitPlan:
 
 def plan_fleet(today: dt.date) -> list[UnitPlan]:
     plans = [plan_unit(spec, today) for spec in ROSTER]
-    # Acoustic addresses: unique within a band, except one clash kept on purpose.
-    pool = random.Random(f"{SEED}:addresses").sample(range(100, 900), len(plans))
+    # Acoustic addresses, our own plain scheme: a channel (one per variant) and a number,
+    # "C3-17"; unique in the fleet, except one clash kept on purpose.
+    pool = random.Random(f"{SEED}:addresses").sample(range(1, 100), len(plans))
     by_serial = {}
     for plan, number in zip(plans, pool, strict=True):
-        plan.acoustic_address = f"{VARIANTS_BY_KEY[plan.spec.variant].address_band}{number}"
+        channel = VARIANTS_BY_KEY[plan.spec.variant].address_channel
+        plan.acoustic_address = f"C{channel}-{number:02d}"
         by_serial[plan.spec.serial] = plan
     by_serial["HF2-0202"].acoustic_address = by_serial["HF2-0201"].acoustic_address
     return plans

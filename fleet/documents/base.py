@@ -182,6 +182,37 @@ def grid_table(
     return table
 
 
+def fitted_widths(
+    rows: Sequence[Sequence[str]], total: float, *, font_size: float = 8, padding: float = 7
+) -> list[float]:
+    """Column widths for ``grid_table`` that add up to ``total`` and, where they fit, keep each
+    column at least as wide as its longest word, so a serial or a date never breaks.
+
+    Each column first gets its longest word; what is left is shared in proportion to how much
+    more each column's longest cell would like, capped at its longest cell; anything still
+    left goes to the last column (the note or reason). If even the longest words do not fit,
+    the columns shrink in proportion to them.
+    """
+    register_fonts()
+    columns = list(zip(*rows, strict=True))
+
+    def measure(text: str) -> float:
+        return pdfmetrics.stringWidth(text, FONT_BOLD, font_size) + padding
+
+    least = [max(measure(w) for cell in col for w in (cell.split() or [""])) for col in columns]
+    most = [
+        max(max(measure(cell) for cell in col), lo) for col, lo in zip(columns, least, strict=True)
+    ]
+    if sum(least) >= total:
+        return [total * w / sum(least) for w in least]
+    spare = total - sum(least)
+    wants = [hi - lo for lo, hi in zip(least, most, strict=True)]
+    share = min(1.0, spare / sum(wants)) if sum(wants) else 0.0
+    widths = [lo + want * share for lo, want in zip(least, wants, strict=True)]
+    widths[-1] += total - sum(widths)
+    return widths
+
+
 def facts_table(pairs: Sequence[tuple[str, str]], widths: Sequence[float]) -> Table:
     """Label/value pairs, two pairs to a row when ``widths`` has four columns."""
     per_row = len(widths) // 2

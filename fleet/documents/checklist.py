@@ -8,6 +8,7 @@ import datetime as dt
 from dataclasses import dataclass
 
 from django.utils import timezone
+from django.utils.text import slugify
 from reportlab.lib.units import mm
 from reportlab.platypus import CondPageBreak, Flowable, KeepTogether, Spacer, Table, TableStyle
 
@@ -89,8 +90,10 @@ class ChecklistDocument:
     override: OverrideNote | None = None
 
 
-def checklist_reference(serial: str, start: dt.date, site_id: int) -> str:
-    return f"HF-CL-{serial}-{start.isoformat()}-{site_id}"
+def checklist_reference(serial: str, start: dt.date, site: str) -> str:
+    """The printed reference: unit, start and site by name (site names are unique), never a
+    database id: ``HF-CL-TX-0001-2026-04-10-GREY-SHOAL-ARRAY``."""
+    return f"HF-CL-{serial}-{start.isoformat()}-{slugify(site).upper()}"
 
 
 def manual_items(unit: Transponder, pack: BatteryInstall | None) -> tuple[ManualItem, ...]:
@@ -151,7 +154,7 @@ def prepare_checklist(
         else None
     )
     return ChecklistDocument(
-        reference=checklist_reference(unit.serial, start, site.pk),
+        reference=checklist_reference(unit.serial, start, site.name),
         prepared_at=at,
         serial=unit.serial,
         variant=unit.variant.name,
@@ -290,7 +293,7 @@ def render_checklist(doc: ChecklistDocument) -> bytes:
         [
             ("Serial", doc.serial),
             ("Variant", doc.variant),
-            ("Site", f"{doc.site} (id {doc.site_id}), {doc.site_depth_m:g} m"),
+            ("Site", f"{doc.site}, {doc.site_depth_m:g} m"),
             ("Deployment", f"{fmt_date(doc.start)} to {fmt_date(doc.end)}, {doc.days} days"),
             ("Acoustic address", doc.acoustic_address),
             ("Turnaround delay", doc.turnaround_delay),
@@ -353,12 +356,17 @@ def render_checklist(doc: ChecklistDocument) -> bytes:
         CondPageBreak(30 * mm),
         para("Automated checks", "h2_flow"),
         checks,
-        CondPageBreak(30 * mm),
-        para("Manual checks on deck", "h2_flow"),
-        manual,
-        Spacer(0, 4 * mm),
-        KeepTogether([cautions_table(doc.cautions, width)]),
-        sign_off(doc, width),
+        # The sign-off signs for the manual checks: they, the cautions and the sign-off move
+        # to a new page together rather than leave the sign-off alone on a last page.
+        KeepTogether(
+            [
+                para("Manual checks on deck", "h2_flow"),
+                manual,
+                Spacer(0, 4 * mm),
+                cautions_table(doc.cautions, width),
+                sign_off(doc, width),
+            ]
+        ),
     ]
     return build_pdf(
         story,

@@ -12,18 +12,31 @@ from typing import Any
 from django.core.files.storage import default_storage
 from reportlab.lib.units import mm
 from reportlab.lib.utils import ImageReader
-from reportlab.platypus import CondPageBreak, Flowable, Image, KeepTogether, Spacer, Table
+from reportlab.platypus import (
+    CondPageBreak,
+    Flowable,
+    Image,
+    KeepTogether,
+    Spacer,
+    Table,
+    TableStyle,
+)
 
 from fleet import selectors
 from fleet.cautions import record_cautions
+from fleet.charts import Chart, anode_chart, battery_chart
+from fleet.due.engine import evaluate_unit, fleet_queryset
+from fleet.due.history import anode_history, battery_history
 from fleet.due.rules import rules_for
-from fleet.models import AnodeReading, ServiceRecord
+from fleet.models import AnodeReading, ServiceRecord, Transponder
 
 from .base import (
     build_pdf,
     cautions_table,
     display_name,
     facts_table,
+    fitted_widths,
+    fmt_date,
     fmt_datetime,
     frame_width,
     grid_table,
@@ -31,6 +44,7 @@ from .base import (
     para_bold,
     signature_table,
 )
+from .chart_drawing import chart_drawing
 
 TITLE = "Service report"
 
@@ -91,15 +105,18 @@ class ReportDocument:
     updated_at: dt.datetime | None = None  # the last change after creation, if any
     updated_by: str = ""
     failed_tests: int = 0
+    charts: tuple[Chart, ...] = ()
+    charts_on: dt.date | None = None
 
 
 def section_of(section: selectors.EntrySection) -> EntrySection:
-    """The page's section of one kind as the report prints it."""
+    """The page's section of one kind as the report prints it. The "#" column numbers the
+    entries within their section (1, 2, ...): the paper never shows a database id."""
     headers = ("#", *section.labels, *(("Verdict",) if section.judged else ()))
     rows = []
     failed = []
     for r, row in enumerate(section.rows):
-        cells = [f"{row.entry.pk}"]
+        cells = [str(r + 1)]
         for c, cell in enumerate(row.cells, start=1):
             if cell.failed:
                 failed.append((r, c))
@@ -121,7 +138,8 @@ def _photo_path(field: Any) -> str:
         return ""
 
 
-def prepare_report(record: ServiceRecord) -> ReportDocument:
+def prepare_report(record: ServiceRecord, *, charts_on: dt.date | None = None) -> ReportDocument:
+    """The report's content. With ``charts_on``, the unit page's charts as of that day too."""
     closed_at = record.closed_at
     if closed_at is None:  # the record is open
         raise RecordOpenError("This record is still open; close it before printing a report.")
@@ -129,8 +147,16 @@ def prepare_report(record: ServiceRecord) -> ReportDocument:
         record=record, rules=rules_for(record.unit.variant), utc=True
     )
     sections = tuple(section_of(s) for s in page_sections if s.rows)
+    # (model, pk) -> how the paper names an entry: "Anode reading 2", its number in its section.
+    names: dict[tuple[Any, int], str] = {
+        (type(row.entry), row.entry.pk): f"{s.singular} {n}"
+        for s in page_sections
+        for n, row in enumerate(s.rows, start=1)
+    }
     photos = [
-        PhotoLine(f"Anode reading #{row.entry.pk}: {row.entry.position.name}", _photo_path(e))
+        PhotoLine(
+            f"{names[(AnodeReading, row.entry.pk)]}: {row.entry.position.name}", _photo_path(e)
+        )
         for s in page_sections
         for row in s.rows
         if isinstance(row.entry, AnodeReading) and (e := row.entry.photo)
@@ -142,7 +168,7 @@ def prepare_report(record: ServiceRecord) -> ReportDocument:
         AmendmentLine(
             a.created_at,
             display_name(a.created_by),
-            a.target_label,
+            names.get(a.target_key, a.target_label) if a.target_key else a.target_label,
             a.field_label,
             a.original_words,
             a.corrected_words,
@@ -150,6 +176,7 @@ def prepare_report(record: ServiceRecord) -> ReportDocument:
         )
         for a in selectors.record_amendments(record=record, utc=True)
     )
+    charts = _unit_charts(record, charts_on) if charts_on is not None else ()
     unit = record.unit
     return ReportDocument(
         reference=f"HF-SR-{record.pk}",
@@ -171,6 +198,23 @@ def prepare_report(record: ServiceRecord) -> ReportDocument:
         photos=tuple(photos),
         cautions=tuple(str(c) for c in record_cautions(record)),
         failed_tests=failed_tests,
+        charts=charts,
+        charts_on=charts_on,
+    )
+
+
+def _unit_charts(record: ServiceRecord, on: dt.date) -> tuple[Chart, ...]:
+    """The unit page's charts (each anode position, the battery) as of ``on``."""
+    unit = fleet_queryset(Transponder.objects.filter(pk=record.unit_id)).get()
+    ev = evaluate_unit(unit, on=on)
+    anodes = [anode_history(ev, p.position_id) for p in ev.anodes]
+    return (
+        *(
+            anode_chart(history, serial=unit.serial, today=on)
+            for history in anodes
+            if history is not None
+        ),
+        battery_chart(battery_history(ev), serial=unit.serial, today=on),
     )
 
 
@@ -194,10 +238,9 @@ MAX_GRID_COLUMNS = 8
 
 def _grid(section: EntrySection, width: float) -> list[Flowable]:
     """The section as one table: "#" narrow, the last column twice the others."""
-    first = 9 * mm
-    unit = (width - first) / len(section.headers)
-    widths = [first] + [unit] * (len(section.headers) - 2) + [2 * unit]
     rows = [section.headers, *section.rows]
+    # Each column at least as wide as its longest word (a serial, a date), so none breaks.
+    widths = fitted_widths(rows, width)
     body = [
         [para_bold(cell) if (r - 1, c) in section.failed else cell for c, cell in enumerate(row)]
         for r, row in enumerate(rows)
@@ -355,6 +398,26 @@ def _sign_off(doc: ReportDocument, width: float) -> list[Flowable]:
     ]
 
 
+def _charts_section(doc: ReportDocument, width: float) -> list[Flowable]:
+    """The unit page's charts, two to a row."""
+    if not doc.charts or doc.charts_on is None:
+        return []
+    cell = (width - 4 * mm) / 2
+    drawings: list[Any] = [chart_drawing(c, cell, 55 * mm) for c in doc.charts]
+    if len(drawings) % 2:
+        drawings.append("")
+    rows = [drawings[i : i + 2] for i in range(0, len(drawings), 2)]
+    table = Table(rows, colWidths=[cell + 2 * mm, cell + 2 * mm])
+    table.setStyle(
+        TableStyle([("LEFTPADDING", (0, 0), (-1, -1), 0), ("VALIGN", (0, 0), (-1, -1), "TOP")])
+    )
+    return [
+        CondPageBreak(70 * mm),
+        para(f"Charts, as of {fmt_date(doc.charts_on)}", "h2_flow"),
+        table,
+    ]
+
+
 def render_report(doc: ReportDocument) -> bytes:
     width = frame_width()
     story: list[Flowable] = [
@@ -372,9 +435,13 @@ def render_report(doc: ReportDocument) -> bytes:
         story += _section(section, width)
     story += _amendments(doc, width)
     story += _photos(doc, width)
+    story += _charts_section(doc, width)
+    # The sign-off signs for what is above it: the cautions move with the technician's block,
+    # never leaving a sign-off alone on a last page.
+    sign_off = _sign_off(doc, width)
     story += [
         Spacer(0, 4 * mm),
-        KeepTogether([cautions_table(doc.cautions, width)]),
-        *_sign_off(doc, width),
+        KeepTogether([cautions_table(doc.cautions, width), sign_off[0]]),
+        *sign_off[1:],
     ]
     return build_pdf(story, title=TITLE, reference=doc.reference, when=doc.closed_at)

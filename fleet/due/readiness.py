@@ -139,6 +139,16 @@ class Readiness(_OfAPlan):
     def margin(self) -> float:
         return min(self.margins.values(), default=0.0)
 
+    @property
+    def margin_percent(self) -> float:
+        """The margin as a percentage, as the planner prints it (0.37 -> 37.0)."""
+        return self.margin * 100.0
+
+    @property
+    def margin_by(self) -> str:
+        """Which margin is the smallest: "battery", "anodes" or "depth" ("" when none)."""
+        return min(self.margins, key=self.margins.__getitem__, default="")
+
 
 COMMON = "common practice, no published source"
 

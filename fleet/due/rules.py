@@ -97,3 +97,9 @@ def rules_for(variant: Variant) -> Rules:
         ranging_reply_pulse_s=d["RANGING"]["REPLY_PULSE_S"],
         default_latitude_deg=d["DEFAULT_LATITUDE_DEG"],
     )
+
+
+def default_rules() -> Rules:
+    """The settings' values alone, as for a variant that sets none of its own (the help page
+    quotes these)."""
+    return rules_for(Variant())

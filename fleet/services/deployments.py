@@ -31,7 +31,7 @@ from fleet.due.condition import Condition, condition_of
 from fleet.due.planned import PlannedDeployment
 from fleet.due.readiness import CheckResult, Verdict, readiness_for
 from fleet.due.store import refresh_unit
-from fleet.models import Deployment, Place, Transponder
+from fleet.models import Deployment, Place, Transponder, UnitHold
 
 OVERRIDE_MIN_CHARS = 10
 
@@ -165,6 +165,11 @@ def deployment_recover(
     current = Deployment.objects.select_for_update().get(pk=deployment.pk)
     if current.recovered_at is not None:
         raise ValidationError("This deployment is already recovered.")
+    if unit.hold == UnitHold.LOST:
+        raise ValidationError(
+            "This unit is held as lost. If it has been found, a supervisor clears the hold "
+            "first; then record the recovery."
+        )
     current.recovered_at = recovered_at
     current.replies_counted = replies_counted
     current.full_clean()

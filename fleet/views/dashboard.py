@@ -40,7 +40,9 @@ def dashboard(request: HttpRequest) -> HttpResponse:
     rows = due_queryset(on=on, soon_days=soon_days, show=show, units=units, kind=kind)
     if request.GET.get("export") == "csv":
         return csv_rows_response(export_rows(rows), f"holdfast-due-{on.isoformat()}.csv")
-    table = DueItemTable(rows)
+    # An empty column keeps its width: drop the flags column when no listed row has a flag.
+    has_flags = rows.exclude(flags="").exists()
+    table = DueItemTable(rows, exclude=() if has_flags else ("flags",))
     RequestConfig(request, paginate={"per_page": 100}).configure(table)
 
     counts = fleet_counts(on=on)

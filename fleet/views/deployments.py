@@ -10,7 +10,7 @@ from django_tables2 import RequestConfig
 from fleet import roles
 from fleet.exports import csv_response
 from fleet.forms import DeploymentForm, DeploymentOverrideForm, RecoveryForm, SiteForm
-from fleet.models import Deployment, Site, Transponder
+from fleet.models import Deployment, Site, Transponder, UnitHold
 from fleet.services.deployments import ReadinessError, deployment_recover, deployment_start
 from fleet.services.reference import site_save
 from fleet.tables import DeploymentTable, SiteTable
@@ -29,13 +29,17 @@ def _apply_errors(form: BaseForm, exc: ValidationError) -> None:
 @require(roles.can_read)
 def deployment_list(request: HttpRequest) -> HttpResponse:
     queryset = Deployment.objects.select_related("unit", "site")
-    if request.GET.get("open") == "1":
-        queryset = queryset.filter(recovered_at__isnull=True)
+    in_water_only = request.GET.get("open") == "1"
+    if in_water_only:
+        # A unit held as lost is not in the water as far as anyone knows.
+        queryset = queryset.filter(recovered_at__isnull=True).exclude(unit__hold=UnitHold.LOST)
     table = DeploymentTable(queryset)
     if request.GET.get("export") == "csv":
         return csv_response(table, "holdfast-deployments.csv")
     RequestConfig(request, paginate={"per_page": 50}).configure(table)
-    return render(request, "fleet/deployment_list.html", {"table": table})
+    return render(
+        request, "fleet/deployment_list.html", {"table": table, "in_water_only": in_water_only}
+    )
 
 
 @require(roles.can_record)

@@ -196,7 +196,7 @@ def label_contact(request: AuthenticatedRequest) -> HttpResponse:
 def record_report_pdf(request: HttpRequest, pk: int) -> HttpResponse:
     record = get_record_for_user(request, pk)
     try:
-        doc = prepare_report(record)
+        doc = prepare_report(record, charts_on=timezone.localdate())
     except RecordOpenError as exc:
         return HttpResponse(str(exc), status=409, content_type="text/plain; charset=utf-8")
     return _pdf(render_report(doc), f"{doc.reference}.pdf")

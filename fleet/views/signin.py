@@ -1,12 +1,43 @@
-"""The sign-in page's answer when django-axes has locked a user name or an address."""
+"""The sign-in page's answer when django-axes has locked a user name or an address, and the
+admin's door (our sign-in page, or our 403 page, never the framework's own login)."""
 
 from typing import Any
 
 from axes.helpers import get_cool_off
+from django.conf import settings
+from django.contrib.auth.decorators import login_not_required
 from django.contrib.auth.forms import AuthenticationForm
+from django.contrib.auth.views import redirect_to_login
+from django.core.exceptions import PermissionDenied
 from django.http import HttpRequest, HttpResponse
-from django.shortcuts import render
+from django.shortcuts import redirect, render
+from django.urls import reverse
 from django.utils.http import url_has_allowed_host_and_scheme
+
+ADMIN_REFUSED = (
+    "Reference data (variants, units, places, sites) is kept by supervisors with staff "
+    "access. Your account does not have it."
+)
+
+
+@login_not_required
+def admin_login(request: HttpRequest) -> HttpResponse:
+    """Where the admin sends anyone it will not let in.
+
+    Signed out: our sign-in page, with the admin page to come back to. Signed in without staff
+    access (a technician or viewer): our 403 page saying why. Staff: on to the admin.
+    """
+    target = request.GET.get("next", "")
+    if not url_has_allowed_host_and_scheme(
+        target, allowed_hosts={request.get_host()}, require_https=request.is_secure()
+    ):
+        target = ""
+    target = target or reverse("admin:index")
+    if not request.user.is_authenticated:
+        return redirect_to_login(target, settings.LOGIN_URL)
+    if not (request.user.is_active and request.user.is_staff):
+        raise PermissionDenied(ADMIN_REFUSED)
+    return redirect(target)
 
 
 def lockout_message(minutes: int) -> str:

@@ -34,7 +34,8 @@ def prepare(history, **kwargs):
 
 def test_it_prepares_every_field_for_the_hand_built_history(history):
     doc = prepare(history)
-    assert doc.reference == f"HF-CL-TX-0001-2026-04-10-{history.site.pk}"
+    # The site by name, never its database id.
+    assert doc.reference == "HF-CL-TX-0001-2026-04-10-TEST-SITE-A"
     assert (doc.prepared_at, doc.serial, doc.variant) == (AT, "TX-0001", "Test variant 1500")
     assert (doc.acoustic_address, doc.turnaround_delay) == ("101", "12.5 ms")
     assert (doc.site_id, doc.site, doc.site_depth_m) == (history.site.pk, "Test site A", 1350.0)
@@ -131,8 +132,9 @@ def test_the_pdf_states_the_checks_items_cautions_and_sign_off(history):
         assert expected in text, expected
     assert "Lithium" not in text  # the fitted pack is alkaline
     assert "NOT FIT TO DEPLOY" not in text
+    assert f"(id {history.site.pk})" not in text  # no database id on paper
     for number, page in enumerate(pages, start=1):
-        assert f"HF-CL-TX-0001-2026-04-10-{history.site.pk}" in page
+        assert "HF-CL-TX-0001-2026-04-10-TEST-SITE-A" in page
         assert f"page {number} of {len(pages)}" in page
 
 
@@ -169,7 +171,7 @@ def test_every_role_downloads_the_checklist(request, persona, history):
     response = client.get(url(site=history.site.pk, start=tomorrow(), days=30, rate=100, step=1))
     assert response.status_code == 200
     assert response["Content-Type"] == "application/pdf"
-    assert f"HF-CL-TX-0001-{tomorrow()}-{history.site.pk}.pdf" in response["Content-Disposition"]
+    assert f"HF-CL-TX-0001-{tomorrow()}-TEST-SITE-A.pdf" in response["Content-Disposition"]
     assert "TX-0001" in pdf_text(response.content)
 
 

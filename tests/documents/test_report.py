@@ -63,20 +63,20 @@ def test_it_prepares_every_entry_amendment_and_photo(history):
             "Note",
         ),
         (
-            (str(a1), "Anode 1 (Al-Zn-In)", "382 g", "—", "0.03 Ω", "No", "—"),  # amended 380
-            (str(a2), "Anode 2 (Al-Zn-In)", "390 g", "—", "0.02 Ω", "No", HOSTILE),
+            ("1", "Anode 1 (Al-Zn-In)", "382 g", "—", "0.03 Ω", "No", "—"),  # amended 380
+            ("2", "Anode 2 (Al-Zn-In)", "390 g", "—", "0.02 Ω", "No", HOSTILE),
         ),
         singular="Anode reading",
     )
     assert doc.sections[1].rows == (
-        (str(s1), "Seal 1 (AS568-240)", "NBR (nitrile)", "2025-10-01", "L-1", "Interval reached"),
-        (str(s2), "Seal 2 (AS568-240)", "NBR (nitrile)", "2025-10-01", "L-1", "Interval reached"),
+        ("1", "Seal 1 (AS568-240)", "NBR (nitrile)", "2025-10-01", "L-1", "Interval reached"),
+        ("2", "Seal 2 (AS568-240)", "NBR (nitrile)", "2025-10-01", "L-1", "Interval reached"),
     )
     # A test carries its verdict, from the same rules readiness applies.
     assert doc.sections[3].headers[-1] == "Verdict"
     assert doc.sections[4].rows == (
         (
-            str(ids["release_tests"][0]),
+            "1",
             "2026-03-02",
             "Under load",
             "250 kg",
@@ -100,16 +100,14 @@ def test_it_prepares_every_entry_amendment_and_photo(history):
         AmendmentLine(
             amendment.created_at,
             "super",
-            f"Anode reading #{a1}",
+            "Anode reading 1",
             "Net mass (g)",
             "380 g",
             "382 g",
             f"Scale misread. {HOSTILE}",
         ),
     )
-    assert doc.photos == (
-        PhotoLine(f"Anode reading #{a2}: Anode 2", history.photo_reading.photo.path),
-    )
+    assert doc.photos == (PhotoLine("Anode reading 2: Anode 2", history.photo_reading.photo.path),)
 
 
 def test_the_pdf_shows_entries_amendments_people_and_hostile_text_literally(history):
@@ -130,7 +128,7 @@ def test_the_pdf_shows_entries_amendments_people_and_hostile_text_literally(hist
         "380 g 382 g",
         "Annual service. <b>bold</b> & <A href=x> S&P <unclosed",
         "Scale misread. <b>bold</b> & <A href=x> S&P <unclosed",
-        "Anode reading #",
+        "Anode reading 2: Anode 2",
         "never stand in line with an end cap",
         "Technician (tech): the entries above",
         "Supervisor (super): I have checked every entry",

@@ -4,6 +4,7 @@ from .audit import Amendment
 from .deployments import Deployment
 from .documents import CertificateCounter, ReleaseCertificate
 from .feeds import CalendarFeed
+from .imports import ImportBatch, ImportedRow
 from .places import Place, Site
 from .records import (
     AnodeReading,
@@ -44,6 +45,8 @@ __all__ = [
     "Elastomer",
     "HousingAlloy",
     "HousingOpening",
+    "ImportBatch",
+    "ImportedRow",
     "PackRemoval",
     "Place",
     "PressureTest",

@@ -39,9 +39,7 @@ def test_it_imports_an_exported_history_back_to_the_same_derived_state(
     assert named_state() == typed
     assert ServiceRecord.objects.count() == records
     assert not ServiceRecord.objects.filter(closed_at__isnull=True).exists()
-    differences, compared = rebuild_differences(
-        at=__import__("django.utils.timezone").utils.timezone.now()
-    )
+    differences, compared = rebuild_differences(at=timezone.now())
     assert differences == [] and compared > 0
     # A second export of the imported history is the same file.
     assert {kind: export_csv(kind) for kind in ORDER} == files

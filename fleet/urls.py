@@ -1,7 +1,17 @@
 from django.contrib import admin
 from django.urls import include, path
 
-from .views import dashboard, deployments, documents, feeds, media, planning, records, units
+from .views import (
+    dashboard,
+    deployments,
+    documents,
+    feeds,
+    imports,
+    media,
+    planning,
+    records,
+    units,
+)
 
 urlpatterns = [
     path("", dashboard.dashboard, name="dashboard"),
@@ -37,6 +47,10 @@ urlpatterns = [
     path("sites/new/", deployments.site_new, name="site-new"),
     path("sites/<int:pk>/", deployments.site_detail, name="site-detail"),
     path("sites/<int:pk>/edit/", deployments.site_edit, name="site-edit"),
+    path("import/", imports.import_page, name="import"),
+    path("import/confirm/", imports.import_confirm, name="import-confirm"),
+    path("import/templates/<str:kind>.csv", imports.import_template, name="import-template"),
+    path("import/examples/<str:name>", imports.import_example, name="import-example"),
     # Documents (PDFs), release certificates and the public verification page
     path("units/<str:serial>/checklist.pdf", documents.checklist_pdf, name="unit-checklist-pdf"),
     path("units/<str:serial>/checklist/", documents.checklist_form, name="unit-checklist"),

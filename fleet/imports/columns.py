@@ -78,6 +78,8 @@ def convert(field: models.Field[Any, Any], text: str, zone: ZoneInfo) -> object:
             return False
         if field.null or isinstance(field, models.ForeignKey):
             return None
+        if field.has_default():
+            return field.get_default()
         if field.choices or not isinstance(field, models.CharField | models.TextField):
             raise parsing.CellError("This column needs a value.")
         return ""

@@ -209,18 +209,21 @@ def _values(
     """The fields' values from the row's cells, keys looked up; False if a cell is bad."""
     values: dict[str, Any] = {}
     good = True
+    bad: list[str] = []
     for column in columns:
         text = cells.get(column.name, "")
         field = cast("models.Field[Any, Any]", model._meta.get_field(column.field))
         if column.required and not text:
             run.problem(row, column.name, "This column needs a value.")
             good = False
+            bad.append(column.field)
             continue
         try:
             value = cols.convert(field, text, run.zone)
         except parsing.CellError as exc:
             run.problem(row, column.name, str(exc))
             good = False
+            bad.append(column.field)
             continue
         if isinstance(field, models.ForeignKey) and value is not None:
             related = field.related_model
@@ -228,10 +231,31 @@ def _values(
             if found is None and not (related is BatteryInstall and unit is not None):
                 run.problem(row, column.name, _missing(related, str(value), unit))
                 good = False
+                bad.append(column.field)
                 continue
             value = found
         values[column.field] = value
+    if not good:
+        _field_checks(run, row, model(**values), columns, bad)
     return values, good
+
+
+def _field_checks(
+    run: _Run,
+    row: int,
+    instance: models.Model,
+    columns: Iterable[cols.Column],
+    bad: list[str],
+) -> None:
+    """A row with a bad cell: the other cells' own checks too (each field's validators, not
+    the model's ``clean()``, which compares fields and needs them all), so that every problem
+    of the row is named at once."""
+    names = {c.field: c.name for c in columns}
+    exclude = [*bad, *(f.name for f in instance._meta.fields if f.name not in names)]
+    try:
+        instance.clean_fields(exclude=exclude)
+    except ValidationError as exc:
+        run.refusal(row, exc, names, next(iter(names.values())))
 
 
 def _full_clean(

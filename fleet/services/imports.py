@@ -50,11 +50,7 @@ from fleet.models import (
 from fleet.models.records import Entry, PackRemoval
 from fleet.models.validators import DATE_VALIDATORS
 from fleet.services.deployments import backfill_refusal, deployment_backfill
-from fleet.services.records import (
-    check_can_open_record,
-    service_record_close,
-    service_record_save,
-)
+from fleet.services.records import PastVisit, check_can_open_record, service_records_import
 from fleet.services.reference import site_save, unit_save
 
 SAMPLE_ROWS = 10
@@ -129,8 +125,9 @@ class _Run:
         self.seen: dict[tuple[object, ...], int] = {}
         self.last_visit: dict[int, dt.datetime] = {}
         self.checked_units: set[int] = set()
-        self.packs_in_file: set[tuple[int, str]] = set()
+        self.packs_in_file: dict[tuple[int, str], BatteryInstall] = {}
         self.deployments_in_file: dict[int, list[tuple[dt.datetime, dt.datetime, int]]] = {}
+        self.pending: list[_Visit] = []
 
     @property
     def writing(self) -> bool:
@@ -383,12 +380,15 @@ def _entry(run: _Run, row: int, cells: Mapping[str, str], record: ServiceRecord)
     entry.record = record
     if isinstance(entry, BatteryInstall):
         entry.unit = record.unit
-        run.packs_in_file.add((record.unit_id, entry.pack_serial))
+        run.packs_in_file[(record.unit_id, entry.pack_serial)] = entry
     if isinstance(entry, PackRemoval) and values.get("install") is None:
+        # A pack fitted by an earlier row of the file: its install is written by then.
         serial = cells.get("pack_serial", "")
-        if (record.unit_id, serial) not in run.packs_in_file:
+        install = run.packs_in_file.get((record.unit_id, serial))
+        if install is None:
             run.problem(row, "pack_serial", _missing(BatteryInstall, serial, record.unit))
             return None
+        entry.install = install
     return entry
 
 
@@ -447,24 +447,45 @@ def _check_visit(run: _Run, visit: _Visit) -> bool:
     return len(run.outcome.problems) == before
 
 
-def _write_visit(run: _Run, visit: _Visit) -> None:
-    record = visit.record
-    entries = [entry for _, entry in visit.entries]
+def _forget_keys(instance: models.Model) -> None:
+    """Clear the keys of ``instance`` that point at objects no longer saved."""
+    for f in instance._meta.concrete_fields:
+        if isinstance(f, models.ForeignKey) and f.is_cached(instance):
+            related = getattr(instance, f.name)
+            if related is not None and related.pk is None:
+                setattr(instance, f.attname, None)
+
+
+def _flush(run: _Run) -> None:
+    """Write the visits waiting for one unit, in one call of the service."""
+    visits, run.pending = run.pending, []
+    if not visits:
+        return
+    past = [
+        PastVisit(record=v.record, entries=[e for _, e in v.entries], closed_at=v.closed_at)
+        for v in visits
+    ]
     try:
         with transaction.atomic():
-            service_record_save(record=record, entries=entries, by=run.by)
-            service_record_close(record=record, by=run.by, at=visit.closed_at)
+            service_records_import(unit_id=visits[0].record.unit_id, visits=past, by=run.by)
     except ValidationError as exc:
-        # Say which row: check the visit's rows one by one; else the service's own words.
-        record.pk = None
-        for _, entry in visit.entries:
-            entry.pk = None
-        if _check_visit(run, visit):
-            run.refusal(visit.row, exc, _VISIT_NAMES, "visit_opened_at")
+        # Say which row: check the visits' rows one by one; else the service's own words.
+        before = len(run.outcome.problems)
+        for visit in visits:  # as they were before the rolled-back write
+            visit.record.pk, visit.record.closed_at = None, None
+            for _, entry in visit.entries:
+                entry.pk = None
+        for visit in visits:
+            for _, entry in visit.entries:
+                _forget_keys(entry)
+            _check_visit(run, visit)
+        if len(run.outcome.problems) == before:
+            run.refusal(visits[0].row, exc, _VISIT_NAMES, "visit_opened_at")
         return
-    run.link(record, visit.row)
-    for row, entry in visit.entries:
-        run.link(entry, row)
+    for visit in visits:
+        run.link(visit.record, visit.row)
+        for row, entry in visit.entries:
+            run.link(entry, row)
 
 
 def _one_visit(run: _Run, group: list[tuple[int, dict[str, str]]]) -> None:
@@ -479,7 +500,9 @@ def _one_visit(run: _Run, group: list[tuple[int, dict[str, str]]]) -> None:
     if len(run.outcome.problems) > before:
         return
     if run.writing:
-        _write_visit(run, visit)
+        if run.pending and run.pending[0].record.unit_id != visit.record.unit_id:
+            _flush(run)
+        run.pending.append(visit)
     elif not _check_visit(run, visit):
         return
     run.counts["bench visits"] += 1
@@ -510,6 +533,8 @@ def _run_visits(run: _Run, table: parsing.Table) -> None:
         group.append((row, cells))
     if group:
         _one_visit(run, group)
+    if run.writing:
+        _flush(run)
 
 
 # --- The file ---------------------------------------------------------------------------------

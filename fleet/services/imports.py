@@ -54,6 +54,7 @@ from fleet.services.records import PastVisit, check_can_open_record, service_rec
 from fleet.services.reference import site_save, unit_save
 
 SAMPLE_ROWS = 10
+LINK_BATCH = 2000
 
 
 @dataclass(frozen=True, slots=True)
@@ -619,13 +620,12 @@ def _record_batch(outcome: Outcome, run: _Run) -> None:
             _already(previous) if previous else Problem(1, "", "This file is being imported.")
         )
         return
-    ImportedRow.objects.bulk_create(
-        (
+    # In slices: bulk_create holds every object it is given, and a large file has 100,000s.
+    for start in range(0, len(run.links), LINK_BATCH):
+        ImportedRow.objects.bulk_create(
             ImportedRow(batch=batch, row=row, target_type_id=type_id, target_id=pk)
-            for type_id, pk, row in run.links
-        ),
-        batch_size=2000,
-    )
+            for type_id, pk, row in run.links[start : start + LINK_BATCH]
+        )
     outcome.batch = batch
 
 

@@ -182,6 +182,8 @@ STORAGES = {
 }
 MEDIA_URL = "media/"
 MEDIA_ROOT = Path(os.environ.get("MEDIA_ROOT", str(BASE_DIR / "media")))
+# Uploaded import files wait here, named by checksum, between the preview and the confirm.
+IMPORT_STAGING_ROOT = Path(os.environ.get("IMPORT_STAGING_ROOT", str(BASE_DIR / "import-staging")))
 
 # Upload limits: workshop photos from a tablet camera, re-encoded on save.
 FILE_UPLOAD_MAX_MEMORY_SIZE = 10 * 1024 * 1024

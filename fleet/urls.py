@@ -8,6 +8,7 @@ from .views import (
     feeds,
     find,
     help,
+    imports,
     media,
     planning,
     records,
@@ -71,6 +72,11 @@ urlpatterns = [
     path("timeline/", timeline.timeline, name="timeline"),
     # The admin's sign-in: ours (a technician gets our 403 page, not the framework's login).
     path("admin/login/", signin.admin_login, name="admin-login"),
+    # Bringing history in from spreadsheets (supervisors)
+    path("import/", imports.import_page, name="import"),
+    path("import/confirm/", imports.import_confirm, name="import-confirm"),
+    path("import/templates/<str:kind>.csv", imports.import_template, name="import-template"),
+    path("import/examples/<str:name>", imports.import_example, name="import-example"),
     # Documents (PDFs), release certificates and the public verification page
     path("units/<str:serial>/checklist.pdf", documents.checklist_pdf, name="unit-checklist-pdf"),
     path("units/<str:serial>/checklist/", documents.checklist_form, name="unit-checklist"),

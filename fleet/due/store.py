@@ -13,6 +13,8 @@ from __future__ import annotations
 
 import datetime as dt
 from collections.abc import Iterator
+from contextlib import contextmanager
+from contextvars import ContextVar
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, TypedDict
 
@@ -63,10 +65,37 @@ def store_due_rows(unit: Transponder) -> None:
     DueRow.objects.bulk_create(derived_rows([unit.pk]))
 
 
+# Units whose refresh is put off to the end of ``refreshing_once`` (None: refresh at once).
+_deferred: ContextVar[set[int] | None] = ContextVar("holdfast_deferred_refresh", default=None)
+
+
+@contextmanager
+def refreshing_once(*, at: dt.datetime) -> Iterator[set[int]]:
+    """Inside, ``refresh_unit`` only notes the unit; on leaving without an error, each noted
+    unit is refreshed once (a bulk import writes many records per unit through the services,
+    and the state derived once from all of them equals the state derived after each). Use it
+    inside the transaction of the writes. Nested use joins the outer one."""
+    if _deferred.get() is not None:
+        yield set()
+        return
+    pending: set[int] = set()
+    token = _deferred.set(pending)
+    try:
+        yield pending
+    finally:
+        _deferred.reset(token)
+    refresh_units(Transponder.objects.filter(pk__in=pending), at=at)
+
+
 @transaction.atomic
 def refresh_unit(unit: Transponder, *, at: dt.datetime) -> None:
     """Rewrite the unit's derived state, then its stored due items. The unit row is locked
-    first, so two writers refreshing one unit take turns instead of colliding."""
+    first, so two writers refreshing one unit take turns instead of colliding. Inside
+    ``refreshing_once`` the unit is only noted, to be refreshed once at its end."""
+    pending = _deferred.get()
+    if pending is not None:
+        pending.add(unit.pk)
+        return
     list(Transponder.objects.select_for_update().filter(pk=unit.pk).values_list("pk"))
     refresh_unit_state(unit, at=at)
     store_due_rows(unit)
@@ -292,5 +321,6 @@ __all__ = [
     "due_queryset",
     "due_totals",
     "refresh_unit",
+    "refreshing_once",
     "store_due_rows",
 ]

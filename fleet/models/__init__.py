@@ -4,6 +4,7 @@ from .audit import Amendment
 from .deployments import Deployment
 from .documents import CertificateCounter, ReleaseCertificate
 from .feeds import CalendarFeed
+from .imports import ImportBatch, ImportedRow
 from .places import Place, Site
 from .preferences import LabelSetting
 from .records import (
@@ -48,6 +49,8 @@ __all__ = [
     "HoldChange",
     "HousingAlloy",
     "HousingOpening",
+    "ImportBatch",
+    "ImportedRow",
     "LabelSetting",
     "PackRemoval",
     "Place",

@@ -24,6 +24,7 @@ import datetime as dt
 from django.contrib.auth.models import User
 from django.core.exceptions import ValidationError
 from django.db import transaction
+from django.db.models import Q
 from django.utils import timezone
 
 from fleet import roles
@@ -31,7 +32,8 @@ from fleet.due.condition import Condition, condition_of
 from fleet.due.planned import PlannedDeployment
 from fleet.due.readiness import CheckResult, Verdict, readiness_for
 from fleet.due.store import refresh_unit
-from fleet.models import Deployment, Place, Transponder, UnitHold
+from fleet.models import Deployment, Place, ServiceRecord, Transponder, UnitHold
+from fleet.models.validators import within_date_bounds
 
 OVERRIDE_MIN_CHARS = 10
 
@@ -182,3 +184,80 @@ def deployment_recover(
     unit.save(update_fields=update_fields)
     refresh_unit(unit, at=timezone.now())
     return current
+
+
+def _overlap_refusal(deployment: Deployment) -> str:
+    """Why a past deployment cannot go in between the unit's other records ("" when it can):
+    it overlaps another deployment, or a bench visit opened while it was in the water."""
+    over, back = deployment.over_side_at, deployment.recovered_at
+    assert back is not None
+    other = (
+        Deployment.objects.filter(unit_id=deployment.unit_id, over_side_at__lt=back)
+        .filter(Q(recovered_at__isnull=True) | Q(recovered_at__gt=over))
+        .select_related("site")
+        .order_by("over_side_at")
+        .first()
+    )
+    if other is not None:
+        until = (
+            f"recovered {timezone.localtime(other.recovered_at):%Y-%m-%d %H:%M}"
+            if other.recovered_at
+            else "still in the water"
+        )
+        return (
+            f"{deployment.unit.serial} was already deployed at {other.site.name} from "
+            f"{timezone.localtime(other.over_side_at):%Y-%m-%d %H:%M} ({until}), which "
+            "overlaps these dates. A unit is in one place at a time: check both dates."
+        )
+    visit = (
+        ServiceRecord.objects.filter(
+            unit_id=deployment.unit_id, opened_at__gt=over, opened_at__lt=back
+        )
+        .order_by("opened_at")
+        .first()
+    )
+    if visit is not None:
+        return (
+            f"{deployment.unit.serial} was on the bench "
+            f"({timezone.localtime(visit.opened_at):%Y-%m-%d %H:%M}) between these dates, so "
+            "it cannot have been in the water then."
+        )
+    return ""
+
+
+def backfill_refusal(deployment: Deployment) -> str:
+    """Why a past deployment cannot be entered ("" when it can, or when its dates are for the
+    model's own validation to refuse): no recovery date, or an overlap (``_overlap_refusal``)."""
+    over, back = deployment.over_side_at, deployment.recovered_at
+    if back is None:
+        return "A past deployment needs its recovery date as well."
+    if over and within_date_bounds(over) and within_date_bounds(back) and back > over:
+        return _overlap_refusal(deployment)
+    return ""
+
+
+@transaction.atomic
+def deployment_backfill(*, deployment: Deployment, by: User) -> Deployment:
+    """Enter a past deployment, over the side and recovered, wherever it falls in the unit's
+    history: before, between or after the deployments already recorded, as long as it
+    overlaps none of them and no bench visit opened while it was out.
+
+    It is history, so neither today's condition (the unit may be deployed or on the bench
+    now) nor readiness (judged from today's records) applies; the deployment's own
+    validation (dates, power step) does. The unit's derived state is then rebuilt from all of
+    its records, so it equals a rebuild whatever order the history arrived in.
+    """
+    unit = (
+        Transponder.objects.select_for_update().select_related("variant").get(pk=deployment.unit_id)
+    )
+    deployment.unit = unit
+    deployment.created_by = by
+    # Before full_clean, whose own overlap check only says that there is one.
+    refusal = backfill_refusal(deployment)
+    if refusal:
+        field = "recovered_at" if deployment.recovered_at is None else "over_side_at"
+        raise ValidationError({field: refusal})
+    deployment.full_clean()
+    deployment.save()
+    refresh_unit(unit, at=timezone.now())
+    return deployment

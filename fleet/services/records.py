@@ -9,12 +9,13 @@ are refused, naming who changed the record and when, if it moved on.
 
 import datetime as dt
 from collections.abc import Iterable, Sequence
+from dataclasses import dataclass
 
 from django.contrib.auth.models import User
 from django.contrib.contenttypes.models import ContentType
 from django.core.exceptions import PermissionDenied, ValidationError
 from django.db import transaction
-from django.db.models import Model, Q, QuerySet
+from django.db.models import ForeignKey, Model, Q, QuerySet
 from django.utils import timezone
 
 from fleet import roles
@@ -25,6 +26,7 @@ from fleet.models import (
     Amendment,
     BatteryInstall,
     Deployment,
+    HousingOpening,
     PackRemoval,
     ReleaseCertificate,
     ReleaseTest,
@@ -334,6 +336,102 @@ def service_record_close(
     current.save(update_fields=["closed_at", "closed_by", "version"])
     for name in ("closed_at", "closed_by", "version"):
         setattr(record, name, getattr(current, name))
+
+
+def _loaded_keys(instance: Model) -> list[str]:
+    """The foreign keys of ``instance`` that hold a row read from the database (so the
+    existence query ``full_clean`` would send for each can be spared: the insert's own foreign
+    key constraint still refuses a row that went away)."""
+    names = []
+    for field in instance._meta.concrete_fields:
+        if isinstance(field, ForeignKey) and field.is_cached(instance):
+            related = getattr(instance, field.name)
+            if related is not None and related.pk is not None and not related._state.adding:
+                names.append(field.name)
+    return names
+
+
+def _take_saved_keys(instance: Model) -> None:
+    """Point the keys of ``instance`` at related objects saved since they were attached (a pack
+    removal's install, fitted by an earlier visit of the same import)."""
+    for field in instance._meta.concrete_fields:
+        if isinstance(field, ForeignKey) and field.is_cached(instance):
+            related = getattr(instance, field.name)
+            if related is not None and related.pk is not None:
+                setattr(instance, field.attname, related.pk)
+
+
+@dataclass(frozen=True, slots=True)
+class PastVisit:
+    """A bench visit of the past, to be written closed: the record (unsaved), its entries
+    (unsaved) and when it closed."""
+
+    record: ServiceRecord
+    entries: Sequence[Entry]
+    closed_at: dt.datetime
+
+
+def _close_refusal(record: ServiceRecord, entries: Sequence[Entry], at: dt.datetime) -> str:
+    """``service_record_close``'s checks, on a visit held in memory ("" when it may close)."""
+    if at < record.opened_at:
+        return "A record cannot close before it opened."
+    still_open = [e for e in entries if isinstance(e, HousingOpening) and e.closed_at is None]
+    if still_open:
+        when = ", ".join(f"{timezone.localtime(o.opened_at):%Y-%m-%d %H:%M}" for o in still_open)
+        return (
+            f"The housing opened at {when} has no close time. Enter when it was closed "
+            "before closing the record."
+        )
+    if not entries:
+        return (
+            "This record has no entries, so there is nothing to close; discard the visit instead."
+        )
+    return ""
+
+
+@transaction.atomic
+def service_records_import(*, unit_id: int, visits: Sequence[PastVisit], by: User) -> None:
+    """Write a unit's past bench visits, each closed, in date order: the history an import
+    brings. Each visit is checked as ``service_record_save`` and ``service_record_close``
+    check it (the unit may take a visit, each record and entry's ``full_clean``, a new pack
+    replacing the fitted one, one fitted pack, the close rules) and written closed by ``by``;
+    in fewer queries than a visit at a time: the unit is locked and checked once, keys read
+    from the database are not looked up again, and plain entries go in one insert per kind.
+    The unit's derived state is refreshed once, at the end (``refresh_unit``)."""
+    unit = _lock_unit(unit_id)
+    check_can_open_record(unit)
+    for visit in visits:
+        record, entries = visit.record, sorted(visit.entries, key=_entry_order)
+        refusal = _close_refusal(record, entries, visit.closed_at)
+        if refusal:
+            raise ValidationError(refusal)
+        record.unit = unit
+        record.created_by = record.closed_by = record.updated_by = by
+        record.closed_at = visit.closed_at
+        record.version = 2  # opened, then closed
+        # Its constraints hold by now: it closes after it opened (``_close_refusal``), and a
+        # closed record is outside "one open record per unit"; checking them again in Python
+        # would send two queries a visit (the database still enforces both).
+        record.full_clean(exclude=_loaded_keys(record), validate_constraints=False)
+        record.save()
+        plain: dict[type[Entry], list[Entry]] = {}
+        for entry in entries:
+            entry.record = record
+            _take_saved_keys(entry)
+            if isinstance(entry, BatteryInstall | PackRemoval):
+                _save_entry(record, entry)
+                continue
+            entry.full_clean(exclude=_loaded_keys(entry))
+            plain.setdefault(type(entry), []).append(entry)
+        for kind, rows in plain.items():
+            kind._default_manager.bulk_create(rows)
+    if fitted_packs(unit.pk).count() > 1:
+        serials = ", ".join(fitted_packs(unit.pk).values_list("pack_serial", flat=True))
+        raise ValidationError(
+            f"{unit.serial} would have more than one fitted pack ({serials}); record the "
+            "removal of the old one."
+        )
+    refresh_unit(unit, at=timezone.now())
 
 
 def can_discard(record: ServiceRecord, user: User) -> bool:

@@ -60,6 +60,11 @@ def _check(request: HttpRequest, write: bool, supervise: bool = False) -> None:
         raise PermissionDenied
 
 
+def check_import_for_user(request: HttpRequest) -> None:
+    """Importing history is for supervisors (every import view starts here)."""
+    _check(request, write=False, supervise=True)
+
+
 def get_unit_for_user(
     request: HttpRequest, serial: str, *, write: bool = False, supervise: bool = False
 ) -> Transponder:

@@ -294,3 +294,16 @@ def guard_entry_table_operation(table: str, amendable: Sequence[str]) -> Any:
     ``guard_record_table_operation`` (in an earlier migration or the same one)."""
     amendable = tuple(amendable)
     return _pair(lambda vendor, cols: entry_guard_sql(vendor, table, cols, amendable), table)
+
+
+def reguard_entry_table_operation(table: str, amendable: Sequence[str]) -> Any:
+    """Drop and create again the guard of one entry kind's table. On SQLite a migration that
+    rebuilds a table (``AddConstraint``, ``AlterField``) drops its triggers with it; a
+    migration that rebuilds a guarded table ends with this operation for that table."""
+    amendable = tuple(amendable)
+
+    def build(vendor: str, cols: list[str]) -> tuple[list[str], list[str]]:
+        create, drop = entry_guard_sql(vendor, table, cols, amendable)
+        return [*drop, *create], []
+
+    return _pair(build, table)

@@ -370,3 +370,27 @@ def test_a_unit_without_history_can_change_variant(unit):
     unit_save(unit=unit)
     unit.refresh_from_db()
     assert unit.variant == other
+
+
+def _triggers_on(table: str) -> set[str]:
+    with connection.cursor() as cursor:
+        if connection.vendor == "sqlite":
+            cursor.execute(
+                "SELECT name FROM sqlite_master WHERE type = 'trigger' AND tbl_name = %s", [table]
+            )
+        else:
+            cursor.execute(
+                "SELECT tgname FROM pg_trigger WHERE tgrelid = %s::regclass AND NOT tgisinternal",
+                [table],
+            )
+        return {name for (name,) in cursor.fetchall()}
+
+
+def test_every_entry_kind_and_the_record_table_keep_their_guard_after_every_migration():
+    # SQLite rebuilds a table to add a constraint and drops its triggers with it: a later
+    # migration that touched a guarded table must guard it again.
+    from fleet.models.records import entry_kinds
+
+    tables = [ServiceRecord._meta.db_table, *(k._meta.db_table for k in entry_kinds())]
+    unguarded = [t for t in tables if not _triggers_on(t)]
+    assert unguarded == []

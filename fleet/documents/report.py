@@ -436,12 +436,10 @@ def render_report(doc: ReportDocument) -> bytes:
     story += _amendments(doc, width)
     story += _photos(doc, width)
     story += _charts_section(doc, width)
-    # The sign-off signs for what is above it: the cautions move with the technician's block,
-    # never leaving a sign-off alone on a last page.
-    sign_off = _sign_off(doc, width)
+    # The sign-off signs for what is above it: the cautions and both sign-offs move to a new
+    # page together, never leaving a sign-off alone on a last page.
     story += [
         Spacer(0, 4 * mm),
-        KeepTogether([cautions_table(doc.cautions, width), sign_off[0]]),
-        *sign_off[1:],
+        KeepTogether([cautions_table(doc.cautions, width), *_sign_off(doc, width)]),
     ]
     return build_pdf(story, title=TITLE, reference=doc.reference, when=doc.closed_at)

@@ -130,11 +130,26 @@ def _pages(fleet, role):
         "/feed/",
         f"/records/{fleet['closed'].pk}/",
         f"/records/{fleet['record'].pk}/",
+        "/records/",
+        "/search/?q=LY1",
+        "/recall/?part=seal_lot&value=L-1",
     ]
     if role != "viewer":
         pages += ["/deployments/new/", "/units/LY1-0001/records/new/"]
     if role == "supervisor":
-        pages += ["/sites/new/"]
+        pages += [
+            "/sites/new/",
+            "/fleet/variants/",
+            f"/fleet/variants/{fleet['variant'].pk}/",
+            f"/fleet/variants/{fleet['variant'].pk}/edit/",
+            "/fleet/variants/new/",
+            "/fleet/units/new/",
+            "/fleet/units/new-several/",
+            "/units/LY1-0001/edit/",
+            "/units/LY1-0001/hold/",
+            "/import/",
+            "/labels/contact/",
+        ]
     return pages
 
 

@@ -76,7 +76,7 @@ def test_fitted_widths_shrink_in_proportion_when_words_cannot_fit():
 
 @pytest.mark.parametrize("rows", range(18, 40, 3))
 def test_the_sign_off_is_never_alone_on_its_page(history, rows):
-    # However long the entries run, the review block shares its page with the cautions.
+    # However long the entries run, both sign-offs share their page with the cautions.
     doc = dataclasses.replace(
         prepare_report(fresh(history.record)),
         sections=(
@@ -90,9 +90,10 @@ def test_the_sign_off_is_never_alone_on_its_page(history, rows):
         amendments=(),
     )
     pages = pdf_pages(render_report(doc))
-    signed = [page for page in pages if "Reviewed by (supervisor)" in page]
+    signed = [page for page in pages if "I have checked every entry" in page]
     assert len(signed) == 1
     assert "never stand in line with an end cap" in signed[0]
+    assert "the entries above are the work I did" in signed[0]
 
 
 def test_it_draws_the_unit_charts_when_asked(history):

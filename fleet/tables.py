@@ -58,13 +58,15 @@ class UnitTable(tables.Table):
         verbose_name="Last bench visit",
         format="Y-m-d",
         default="—",
-        attrs=NOWRAP,
+        attrs=NOWRAP_WIDE_ONLY,
     )
     # Needs the queryset through ``fleet.selectors.with_next_due`` (subqueries, no query more).
     next_due_on = tables.DateColumn(
         verbose_name="Next due", format="Y-m-d", default="—", attrs=NOWRAP
     )
-    next_due_item = tables.Column(verbose_name="Next due item", default="—", orderable=False)
+    next_due_item = tables.Column(
+        verbose_name="Next due item", default="—", orderable=False, attrs=WIDE_ONLY
+    )
 
     class Meta:
         model = Transponder

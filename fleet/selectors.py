@@ -10,6 +10,7 @@ from typing import Any, TypeVar
 from django.core.exceptions import ValidationError
 from django.db.models import (
     Count,
+    DateField,
     F,
     Field,
     Model,
@@ -18,6 +19,7 @@ from django.db.models import (
     Q,
     QuerySet,
     Subquery,
+    TimeField,
     Window,
 )
 from django.db.models.functions import RowNumber
@@ -297,6 +299,13 @@ class EntryCell:
     label: str
     text: str
     failed: bool = False
+    whole: bool = False  # a date, time or serial: never broken across lines
+
+
+def _kept_whole(model: type[Model], name: str) -> bool:
+    """Whether a value of this field is printed on one line (dates, times, serials)."""
+    field = model._meta.get_field(name)
+    return isinstance(field, DateField | TimeField) or name.endswith(("serial", "_at", "_on"))
 
 
 @dataclass(frozen=True, slots=True)
@@ -324,7 +333,12 @@ def entry_row(entry: Any, verdict: EntryVerdict | None, *, utc: bool = False) ->
     beyond the keys ``list_select_related`` names."""
     failed = set(verdict.failed_fields) if verdict is not None else set()
     cells = tuple(
-        EntryCell(field_label(entry, name), field_value(entry, name, utc=utc), name in failed)
+        EntryCell(
+            field_label(entry, name),
+            field_value(entry, name, utc=utc),
+            name in failed,
+            _kept_whole(type(entry), name),
+        )
         for name in type(entry).shown_fields()
     )
     return EntryRow(entry, cells, verdict)

@@ -273,7 +273,8 @@ def test_a_removal_of_a_pack_from_a_closed_record_is_its_own_entry(
     assert (removal.removed_on, removal.ocv_removal_v) == (dt.date(2026, 3, 2), 30.1)
     assert UnitState.objects.get(unit=unit).pack is None
     page = as_technician.get(removal.record.get_absolute_url()).content.decode()
-    assert '<td class="nowrap">2026-03-02</td><td>30.1 V</td>' in page.replace("\n", "").replace("      ", "")
+    flat = page.replace("\n", "").replace("      ", "")
+    assert '<td class="nowrap">2026-03-02</td><td>30.1 V</td>' in flat
 
 
 # --- amendments: supervisors only; a certificate behind one is not valid ---------------------

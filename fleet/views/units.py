@@ -8,6 +8,7 @@ from django.views.decorators.http import require_http_methods
 from django_tables2 import RequestConfig
 
 from fleet import roles
+from fleet.cautions import battery_cautions
 from fleet.due.condition import annotate_condition, condition_of
 from fleet.due.rules import rules_for
 from fleet.due.store import unit_due_items
@@ -82,6 +83,13 @@ def unit_detail(request: HttpRequest, serial: str) -> HttpResponse:
             "anodes": page.anodes,
             "seals": page.seals,
             "fitted_pack": page.fitted_pack,
+            # The fitted pack's chemistry, else every one the variant allows: never the
+            # lithium caution on an alkaline unit.
+            "battery_cautions": battery_cautions(
+                (page.fitted_pack.chemistry,)
+                if page.fitted_pack is not None
+                else tuple(unit.variant.allowed_chemistries or ())
+            ),
             "open_deployment": page.open_deployment,
             "open_record": page.open_record,
             "history": page.history,

@@ -162,3 +162,29 @@ def test_a_deployed_unit_reads_in_the_water_at_its_site_not_at_its_last_place(
     # No action the gates would refuse: no new bench visit, no second deployment.
     assert reverse("record-new", args=[unit.serial]) not in head
     assert "?unit=" not in head
+
+
+def test_the_unit_page_gives_the_caution_of_the_fitted_pack_and_no_other(
+    as_viewer, unit, technician
+):
+    from fleet.models import BatteryInstall
+    from tests.documents.conftest import bench_visit
+
+    bench_visit(
+        unit,
+        technician,
+        BatteryInstall(
+            pack_serial="P-ALK",
+            chemistry="alkaline",
+            nominal_voltage_v=31.5,
+            capacity_ah=17.0,
+            made_on=dt.date(2025, 12, 1),
+            installed_on=dt.date(2026, 1, 5),
+            ocv_install_v=32.0,
+        ),
+        close_at=T0 + dt.timedelta(hours=4),
+    )
+    page = as_viewer.get(unit.get_absolute_url()).content.decode()
+    # common practice, no published source: alkaline cells gas hydrogen, lithium cells vent
+    assert "Alkaline pack:" in page
+    assert "Lithium pack:" not in page

@@ -74,7 +74,8 @@ def refreshing_once(*, at: dt.datetime) -> Iterator[set[int]]:
     """Inside, ``refresh_unit`` only notes the unit; on leaving without an error, each noted
     unit is refreshed once (a bulk import writes many records per unit through the services,
     and the state derived once from all of them equals the state derived after each). Use it
-    inside the transaction of the writes. Nested use joins the outer one."""
+    inside the transaction of the writes. Nested use joins the outer one. The units are
+    refreshed by chunks, each unit's state and then the chunk's due rows together."""
     if _deferred.get() is not None:
         yield set()
         return
@@ -84,7 +85,11 @@ def refreshing_once(*, at: dt.datetime) -> Iterator[set[int]]:
         yield pending
     finally:
         _deferred.reset(token)
-    refresh_units(Transponder.objects.filter(pk__in=pending), at=at)
+    # As ``rebuild_all`` does, by chunks of units: each unit's state rows, then the chunk's
+    # due rows read through one set of prefetches; the same rows as ``refresh_unit`` on each.
+    unit_ids = sorted(pending)
+    for first in range(0, len(unit_ids), REBUILD_CHUNK):
+        _rebuild_chunk(unit_ids[first : first + REBUILD_CHUNK], at=at)
 
 
 @transaction.atomic

@@ -129,6 +129,22 @@ class _Run:
         self.packs_in_file: dict[tuple[int, str], BatteryInstall] = {}
         self.deployments_in_file: dict[int, list[tuple[dt.datetime, dt.datetime, int]]] = {}
         self.pending: list[_Visit] = []
+        # Read off the models once a run, not once a row (they do not change while it runs).
+        self.visit_columns = _visit_columns()
+        self.entry_columns: dict[type[Entry], list[cols.Column]] = {}
+        self.fields: dict[tuple[type[models.Model], str], models.Field[Any, Any]] = {}
+        self.type_ids: dict[type[models.Model], int] = {}
+
+    def columns_of(self, kind: type[Entry]) -> list[cols.Column]:
+        if kind not in self.entry_columns:
+            self.entry_columns[kind] = cols.entry_columns(kind)
+        return self.entry_columns[kind]
+
+    def field(self, model: type[models.Model], name: str) -> models.Field[Any, Any]:
+        key = (model, name)
+        if key not in self.fields:
+            self.fields[key] = cast("models.Field[Any, Any]", model._meta.get_field(name))
+        return self.fields[key]
 
     @property
     def writing(self) -> bool:
@@ -152,8 +168,10 @@ class _Run:
                 self.problem(row, default, message)
 
     def link(self, instance: models.Model, row: int) -> None:
-        content_type = ContentType.objects.get_for_model(instance)
-        self.links.append((content_type.pk, instance.pk, row))
+        model = type(instance)
+        if model not in self.type_ids:
+            self.type_ids[model] = ContentType.objects.get_for_model(model).pk
+        self.links.append((self.type_ids[model], instance.pk, row))
 
     def find(self, model: type[models.Model], **lookup: object) -> models.Model | None:
         key = (model, *sorted(lookup.items()))
@@ -210,7 +228,7 @@ def _values(
     bad: list[str] = []
     for column in columns:
         text = cells.get(column.name, "")
-        field = cast("models.Field[Any, Any]", model._meta.get_field(column.field))
+        field = run.field(model, column.field)
         if column.required and not text:
             run.problem(row, column.name, "This column needs a value.")
             good = False
@@ -369,7 +387,7 @@ def _entry(run: _Run, row: int, cells: Mapping[str, str], record: ServiceRecord)
     except parsing.CellError as exc:
         run.problem(row, cols.ENTRY_COLUMN, str(exc))
         return None
-    columns = cols.entry_columns(kind)
+    columns = run.columns_of(kind)
     own = {c.name for c in columns} | set(_VISIT_COLUMN) | {cols.ENTRY_COLUMN}
     stray = [name for name, text in cells.items() if text and name not in own]
     for name in stray:
@@ -400,7 +418,7 @@ def _visit_head(run: _Run, group: list[tuple[int, dict[str, str]]]) -> _Visit | 
         for name in _VISIT_COLUMN:
             if other.get(name) and other[name] != cells.get(name, ""):
                 run.problem(later, name, f"Differs from row {row}, where this visit begins.")
-    values, good = _values(run, row, ServiceRecord, _visit_columns(), cells)
+    values, good = _values(run, row, ServiceRecord, run.visit_columns, cells)
     if not good:
         return None
     opened_at: dt.datetime = values["opened_at"]
@@ -443,7 +461,7 @@ def _check_visit(run: _Run, visit: _Visit) -> bool:
             run.refusal(visit.row, exc, {}, "unit")
     _full_clean(run, visit.row, record, _VISIT_NAMES, "visit_opened_at")
     for row, entry in visit.entries:
-        names = {c.field: c.name for c in cols.entry_columns(type(entry))}
+        names = {c.field: c.name for c in run.columns_of(type(entry))}
         _full_clean(run, row, entry, names, cols.ENTRY_COLUMN)
     return len(run.outcome.problems) == before
 
@@ -474,6 +492,7 @@ def _flush(run: _Run) -> None:
         before = len(run.outcome.problems)
         for visit in visits:  # as they were before the rolled-back write
             visit.record.pk, visit.record.closed_at = None, None
+            visit.record._state.adding = True
             for _, entry in visit.entries:
                 entry.pk = None
         for visit in visits:
@@ -620,13 +639,32 @@ def _record_batch(outcome: Outcome, run: _Run) -> None:
             _already(previous) if previous else Problem(1, "", "This file is being imported.")
         )
         return
-    # In slices: bulk_create holds every object it is given, and a large file has 100,000s.
-    for start in range(0, len(run.links), LINK_BATCH):
-        ImportedRow.objects.bulk_create(
-            ImportedRow(batch=batch, row=row, target_type_id=type_id, target_id=pk)
-            for type_id, pk, row in run.links[start : start + LINK_BATCH]
-        )
+    _insert_links(batch, run.links)
     outcome.batch = batch
+
+
+def _insert_links(batch: ImportBatch, links: list[tuple[int, int, int]]) -> None:
+    """One ``ImportedRow`` per record written: a large file has 100,000s of these rows of four
+    whole numbers, so they go in as plain parameter rows (``executemany``, in slices) rather
+    than as model instances; none needs its primary key back, and every value is a key or a
+    row number the import itself produced."""
+    meta = ImportedRow._meta
+    connection = transaction.get_connection()
+    quote = connection.ops.quote_name
+    fields = ("batch", "row", "target_type", "target_id")
+    columns = ", ".join(
+        quote(cast("models.Field[Any, Any]", meta.get_field(name)).column) for name in fields
+    )
+    sql = f"INSERT INTO {quote(meta.db_table)} ({columns}) VALUES (%s, %s, %s, %s)"
+    with connection.cursor() as cursor:
+        for start in range(0, len(links), LINK_BATCH):
+            cursor.executemany(
+                sql,
+                [
+                    (batch.pk, row, type_id, pk)
+                    for type_id, pk, row in links[start : start + LINK_BATCH]
+                ],
+            )
 
 
 def import_preview(*, kind: str, data: bytes, file_name: str, by: User) -> Outcome:

@@ -389,42 +389,68 @@ def _close_refusal(record: ServiceRecord, entries: Sequence[Entry], at: dt.datet
     return ""
 
 
+# Rows per INSERT statement of a bulk write (well under SQLite's 32,766 bound parameters).
+IMPORT_BATCH = 500
+
+
+def _past_record(unit: Transponder, visit: PastVisit, by: User) -> ServiceRecord:
+    """The visit's record, checked as saving and closing it would check it, ready to insert
+    closed (unsaved)."""
+    record = visit.record
+    refusal = _close_refusal(record, visit.entries, visit.closed_at)
+    if refusal:
+        raise ValidationError(refusal)
+    record.unit = unit
+    record.created_by = record.closed_by = record.updated_by = by
+    record.closed_at = visit.closed_at
+    record.version = 2  # opened, then closed
+    # Its constraints hold by now: it closes after it opened (``_close_refusal``), and a
+    # closed record is outside "one open record per unit"; checking them again in Python
+    # would send two queries a visit (the database still enforces both).
+    record.full_clean(exclude=_loaded_keys(record), validate_constraints=False)
+    return record
+
+
+def _past_entries(visit: PastVisit, plain: dict[type[Entry], list[Entry]]) -> None:
+    """Check the visit's entries (its record is written by now): a pack fitted or taken out
+    is written at once, in visit order, as the bench page writes it (a new pack replaces the
+    fitted one, which later visits must see); the others are checked and kept in ``plain``
+    to be inserted together."""
+    record = visit.record
+    for entry in sorted(visit.entries, key=_entry_order):
+        entry.record = record
+        _take_saved_keys(entry)
+        if isinstance(entry, BatteryInstall | PackRemoval):
+            _save_entry(record, entry)
+            continue
+        entry.full_clean(exclude=_loaded_keys(entry))
+        plain.setdefault(type(entry), []).append(entry)
+
+
 @transaction.atomic
 def service_records_import(*, unit_id: int, visits: Sequence[PastVisit], by: User) -> None:
     """Write a unit's past bench visits, each closed, in date order: the history an import
     brings. Each visit is checked as ``service_record_save`` and ``service_record_close``
     check it (the unit may take a visit, each record and entry's ``full_clean``, a new pack
-    replacing the fitted one, one fitted pack, the close rules) and written closed by ``by``;
-    in fewer queries than a visit at a time: the unit is locked and checked once, keys read
-    from the database are not looked up again, and plain entries go in one insert per kind.
-    The unit's derived state is refreshed once, at the end (``refresh_unit``)."""
+    replacing the fitted one, one fitted pack, the close rules) and written closed by ``by``.
+
+    Written in bulk: the unit is locked and checked once; its records go in a few INSERTs,
+    closed (the integrity triggers guard UPDATE and DELETE only, and nothing here updates a
+    row it wrote), then their entries, one INSERT per kind and batch (a pack fitted or taken
+    out is written one at a time, in visit order). Keys read from the database are not
+    looked up again; the database's own foreign keys and CHECKs still hold every row. The
+    unit's derived state is refreshed once, at the end (``refresh_unit``)."""
     unit = _lock_unit(unit_id)
     check_can_open_record(unit)
+    records = [_past_record(unit, visit, by) for visit in visits]
+    # The records' primary keys come back from the INSERT (RETURNING, on SQLite >= 3.35 and
+    # PostgreSQL), which the entries need.
+    ServiceRecord.objects.bulk_create(records, batch_size=IMPORT_BATCH)
+    plain: dict[type[Entry], list[Entry]] = {}
     for visit in visits:
-        record, entries = visit.record, sorted(visit.entries, key=_entry_order)
-        refusal = _close_refusal(record, entries, visit.closed_at)
-        if refusal:
-            raise ValidationError(refusal)
-        record.unit = unit
-        record.created_by = record.closed_by = record.updated_by = by
-        record.closed_at = visit.closed_at
-        record.version = 2  # opened, then closed
-        # Its constraints hold by now: it closes after it opened (``_close_refusal``), and a
-        # closed record is outside "one open record per unit"; checking them again in Python
-        # would send two queries a visit (the database still enforces both).
-        record.full_clean(exclude=_loaded_keys(record), validate_constraints=False)
-        record.save()
-        plain: dict[type[Entry], list[Entry]] = {}
-        for entry in entries:
-            entry.record = record
-            _take_saved_keys(entry)
-            if isinstance(entry, BatteryInstall | PackRemoval):
-                _save_entry(record, entry)
-                continue
-            entry.full_clean(exclude=_loaded_keys(entry))
-            plain.setdefault(type(entry), []).append(entry)
-        for kind, rows in plain.items():
-            kind._default_manager.bulk_create(rows)
+        _past_entries(visit, plain)
+    for kind, rows in plain.items():
+        kind._default_manager.bulk_create(rows, batch_size=IMPORT_BATCH)
     if fitted_packs(unit.pk).count() > 1:
         serials = ", ".join(fitted_packs(unit.pk).values_list("pack_serial", flat=True))
         raise ValidationError(

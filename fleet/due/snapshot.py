@@ -36,6 +36,18 @@ _ANODE_FIELDS = (
     "last_read_at",
     "last_mass_kg",
     "last_bond_resistance_ohm",
+    "base_visit_pk",
+    "base_fitted_at",
+    "base_immersed_days_at_fit",
+    "base_n",
+    "base_sum_x",
+    "base_sum_y",
+    "base_sum_xx",
+    "base_sum_xy",
+    "base_sum_yy",
+    "base_last_read_at",
+    "base_last_mass_kg",
+    "base_last_bond_resistance_ohm",
 )
 _SEAL_FIELDS = ("fitted_at", "cure_date", "material", "openings_since_fit")
 _DUE_FIELDS = ("kind", "item", "due_on", "basis", "flags", "failed", "position")

@@ -36,7 +36,21 @@ _ANODE_FIELDS = (
     "last_read_at",
     "last_mass_kg",
     "last_bond_resistance_ohm",
+    "base_fitted_at",
+    "base_immersed_days_at_fit",
+    "base_n",
+    "base_sum_x",
+    "base_sum_y",
+    "base_sum_xx",
+    "base_sum_xy",
+    "base_sum_yy",
+    "base_last_read_at",
+    "base_last_mass_kg",
+    "base_last_bond_resistance_ohm",
 )
+# The visit the base sums leave out: a primary key, so compared here but not by pictures
+# that name rows across databases (the import's round trip).
+_ANODE_KEYS = ("base_visit_pk",)
 _SEAL_FIELDS = ("fitted_at", "cure_date", "material", "openings_since_fit")
 _DUE_FIELDS = ("kind", "item", "due_on", "basis", "flags", "failed", "position")
 
@@ -53,9 +67,10 @@ def state_snapshot() -> Snapshot:
     snapshot: Snapshot = {}
     for row in UnitState.objects.values("unit_id", *_UNIT_FIELDS):
         snapshot[("unit", row["unit_id"])] = tuple(_norm(row[f]) for f in _UNIT_FIELDS)
-    for row in AnodeState.objects.values("unit_id", "position_id", *_ANODE_FIELDS):
+    anode_fields = (*_ANODE_FIELDS, *_ANODE_KEYS)
+    for row in AnodeState.objects.values("unit_id", "position_id", *anode_fields):
         key = ("anode", row["unit_id"], row["position_id"])
-        snapshot[key] = tuple(_norm(row[f]) for f in _ANODE_FIELDS)
+        snapshot[key] = tuple(_norm(row[f]) for f in anode_fields)
     for row in SealState.objects.values("unit_id", "position_id", *_SEAL_FIELDS):
         key = ("seal", row["unit_id"], row["position_id"])
         snapshot[key] = tuple(_norm(row[f]) for f in _SEAL_FIELDS)

@@ -23,9 +23,12 @@ evaluation then reads one row per item.
 """
 
 import datetime as dt
+from collections.abc import Callable
+from dataclasses import dataclass, field, replace
+from typing import Any
 
 from django.db import transaction
-from django.db.models import F, Q, QuerySet
+from django.db.models import F, Max, Q, QuerySet
 from django.utils import timezone
 
 from fleet.calc.anodes import WearSums
@@ -81,6 +84,80 @@ def _mass_kg(new_kg: float, mass_g: float | None, remaining_percent: float | Non
     return None
 
 
+_READING_FIELDS = (
+    "position_id", "mass_g", "remaining_percent", "bond_resistance_ohm", "replaced", "record_id",
+)  # fmt: skip
+# The anode row's derived fields; the base copy carries the same names after "base_".
+_ANODE_FIELDS = (
+    "fitted_at", "immersed_days_at_fit", "n", "sum_x", "sum_y", "sum_xx", "sum_xy", "sum_yy",
+    "last_read_at", "last_mass_kg", "last_bond_resistance_ohm",
+)  # fmt: skip
+
+
+@dataclass(slots=True)
+class _Anode:
+    """One position's anode while its readings are walked oldest first: the sums so far and
+    the points not yet added (added in order, so the floats are those of one ``extend``)."""
+
+    new_kg: float
+    fitted_at: dt.datetime | None = None
+    at_fit: float = 0.0
+    sums: WearSums = field(default_factory=WearSums.empty)
+    points: list[tuple[float, float]] = field(default_factory=list)
+    last_read_at: dt.datetime | None = None
+    last_mass_kg: float | None = None
+    last_bond: float | None = None
+
+    def take(self, reading: tuple[Any, ...], opened_at: dt.datetime, x: float) -> None:
+        _, mass_g, percent, bond, replaced, _ = reading
+        mass_kg = _mass_kg(self.new_kg, mass_g, percent)
+        if mass_kg is None:
+            return
+        self.points.append((max(0.0, x - self.at_fit), mass_kg))
+        self.last_read_at, self.last_mass_kg, self.last_bond = opened_at, mass_kg, bond
+        if replaced:
+            self.fitted_at, self.at_fit, self.last_mass_kg = opened_at, x, self.new_kg
+            # The bond measured at this visit was the old anode's; the new one has none yet.
+            self.last_bond = None
+            self.sums, self.points = WearSums.empty(), [(0.0, self.new_kg)]
+
+    def settled(self) -> "_Anode":
+        """The points added to the sums; a copy that can be walked on independently."""
+        self.sums, self.points = self.sums.extend(self.points), []
+        return replace(self, points=[])
+
+    def values(self) -> tuple[object, ...]:
+        s = self.settled().sums
+        return (
+            self.fitted_at, self.at_fit, s.n, s.sum_x, s.sum_y, s.sum_xx, s.sum_xy, s.sum_yy,
+            self.last_read_at, self.last_mass_kg, self.last_bond,
+        )  # fmt: skip
+
+    def write(self, row: AnodeState, prefix: str = "") -> None:
+        for name, value in zip(_ANODE_FIELDS, self.values(), strict=True):
+            setattr(row, prefix + name, value)
+
+    @classmethod
+    def read(cls, row: AnodeState, new_kg: float, prefix: str = "") -> "_Anode":
+        v = [getattr(row, prefix + name) for name in _ANODE_FIELDS]
+        return cls(new_kg, v[0], v[1], WearSums(*v[2:8]), [], v[8], v[9], v[10])
+
+
+def _new_kg(unit: Transponder) -> dict[int, float]:
+    return {p.pk: p.new_net_mass_g / 1000.0 for p in unit.variant.anode_positions.all()}
+
+
+def _walk(
+    anodes: dict[int, _Anode],
+    readings: list[tuple[Any, ...]],
+    visits: dict[int, dt.datetime],
+    x_at: dict[int, float],
+) -> None:
+    for reading in readings:
+        record_id = reading[5]
+        anodes[reading[0]].take(reading, visits[record_id], x_at[record_id])
+
+
 def _refresh_anodes(
     unit: Transponder,
     intervals: list[tuple[dt.datetime, dt.datetime | None]],
@@ -88,55 +165,44 @@ def _refresh_anodes(
 ) -> None:
     """Step 2: rewrite the unit's anode rows from its readings, read as plain values (no
     model per reading, no date per reading: ``visits`` holds each visit's opening) with
-    every visit's immersed days found in one pass."""
-    positions = {p.pk: p for p in unit.variant.anode_positions.all()}
+    every visit's immersed days found in one pass. Each row also keeps its base: the same
+    over every visit but the latest, from which a save of that visit starts."""
+    new_kg = _new_kg(unit)
     readings = list(
-        unit_readings(unit, list(positions))
+        unit_readings(unit, list(new_kg))
         .order_by("record__opened_at", "pk")
-        .values_list(
-            "position_id", "mass_g", "remaining_percent", "bond_resistance_ohm", "replaced",
-            "record_id",
-        )
-    )  # fmt: skip
+        .values_list(*_READING_FIELDS)
+    )
     x_at = dict(zip(visits, immersed_days_at_each(intervals, visits.values()), strict=True))
-    anode_rows: dict[int, AnodeState] = {
-        pk: AnodeState(unit=unit, position_id=pk) for pk in positions
-    }
-    # Per position, the (x, kg) points of the anode now fitted, summed once at the end.
-    points: dict[int, list[tuple[float, float]]] = {pk: [] for pk in positions}
-    for position_id, mass_g, percent, bond, replaced, record_id in readings:
-        opened_at, x = visits[record_id], x_at[record_id]
-        row = anode_rows[position_id]
-        new_kg = positions[position_id].new_net_mass_g / 1000.0
-        mass_kg = _mass_kg(new_kg, mass_g, percent)
-        if mass_kg is None:
-            continue
-        points[position_id].append((max(0.0, x - row.immersed_days_at_fit), mass_kg))
-        row.last_read_at = opened_at
-        row.last_mass_kg = mass_kg
-        row.last_bond_resistance_ohm = bond
-        if replaced:
-            row.fitted_at = opened_at
-            row.immersed_days_at_fit = x
-            row.last_mass_kg = new_kg
-            # The bond measured at this visit was the old anode's; the new one has none yet.
-            row.last_bond_resistance_ohm = None
-            points[position_id] = [(0.0, new_kg)]
-    for pk, row in anode_rows.items():
-        s = WearSums.empty().extend(points[pk])
-        row.n, row.sum_x, row.sum_y = s.n, s.sum_x, s.sum_y
-        row.sum_xx, row.sum_xy, row.sum_yy = s.sum_xx, s.sum_xy, s.sum_yy
+    latest = max(visits, key=lambda pk: (visits[pk], pk), default=None)
+    anodes = {pk: _Anode(kg) for pk, kg in new_kg.items()}
+    _walk(anodes, [r for r in readings if r[5] != latest], visits, x_at)
+    bases = {pk: anode.settled() for pk, anode in anodes.items()}
+    latest_at = visits.get(latest) if latest is not None else None
+    if any(at == latest_at for pk, at in visits.items() if pk != latest):
+        # Another visit opened at the same moment: its readings and the latest's interleave,
+        # so the rows are walked again from the start, in the one order.
+        anodes = {pk: _Anode(kg) for pk, kg in new_kg.items()}
+        _walk(anodes, readings, visits, x_at)
+    else:
+        _walk(anodes, [r for r in readings if r[5] == latest], visits, x_at)
+    rows = []
+    for pk, anode in anodes.items():
+        row = AnodeState(unit=unit, position_id=pk, base_visit_pk=latest)
+        anode.write(row)
+        bases[pk].write(row, "base_")
+        rows.append(row)
     AnodeState.objects.filter(unit=unit).delete()
-    AnodeState.objects.bulk_create(anode_rows.values())
+    AnodeState.objects.bulk_create(rows)
 
 
 # A housing opening as (opened at, its visit opened at).
 Opening = tuple[dt.datetime, dt.datetime]
 
 
-def _refresh_seals(unit: Transponder, openings: list[Opening]) -> None:
+def _refresh_seals(unit: Transponder, openings_after: Callable[[dt.datetime], int]) -> None:
     """Step 3: rewrite the unit's seal rows: the last change per position and the openings
-    since it."""
+    in visits after the one that fitted it (``openings_after``)."""
     seal_positions = list(unit.variant.seal_positions.all())
     latest_change: dict[int, tuple[dt.datetime, dt.date | None, str]] = {}
     for position_id, fitted, cure_date, material in (
@@ -153,7 +219,7 @@ def _refresh_seals(unit: Transponder, openings: list[Opening]) -> None:
             fitted, row.cure_date, row.material = fitted_change
             row.fitted_at = fitted
             # Openings during the fitting visit came before the new ring went in.
-            row.openings_since_fit = sum(1 for _, visit in openings if visit > fitted)
+            row.openings_since_fit = openings_after(fitted)
         seal_rows.append(row)
     SealState.objects.filter(unit=unit).delete()
     SealState.objects.bulk_create(seal_rows)
@@ -237,9 +303,10 @@ def _latest_checks(unit: Transponder) -> dict[str, int]:
 
 
 def _last_pressure_test(
-    unit: Transponder, openings: list[Opening]
+    unit: Transponder, voided_by: Callable[[dt.datetime, dt.datetime], bool]
 ) -> tuple[PressureTest | None, bool]:
-    """Step 5: the last pressure test, and whether an opening after it voids it."""
+    """Step 5: the last pressure test, and whether an opening after it voids it
+    (``voided_by(end of the hold, its visit's opening)``)."""
     last_test = (
         PressureTest.objects.filter(record__unit=unit)
         .select_related("record")
@@ -250,14 +317,148 @@ def _last_pressure_test(
     if last_test is not None:
         tested_at = test_moment(last_test)
         visit_at = last_test.record.opened_at
-        voided = any(opened > tested_at or visit > visit_at for opened, visit in openings)
+        voided = voided_by(tested_at, visit_at)
     return last_test, voided
 
 
+def _appendable(unit: Transponder, visit: ServiceRecord) -> UnitState | None:
+    """The unit's stored state, if ``visit`` comes after everything else the unit has: no
+    other visit opened at or after it, no deployment open, going over or back after it."""
+    state = UnitState.objects.filter(unit=unit).first()
+    if state is None or state.open_deployment_id is not None:
+        return None
+    moment = visit.opened_at
+    later_visit = (
+        ServiceRecord.objects.filter(unit=unit, opened_at__gte=moment).exclude(pk=visit.pk).exists()
+    )
+    later_deployment = (
+        Deployment.objects.filter(unit=unit)
+        .filter(
+            Q(recovered_at__isnull=True) | Q(recovered_at__gt=moment) | Q(over_side_at__gte=moment)
+        )
+        .exists()
+    )
+    return None if later_visit or later_deployment else state
+
+
+def _anodes_after_visit(
+    unit: Transponder, visit: ServiceRecord, *, new_visit: bool, x: float
+) -> bool:
+    """Step 2 for a save of the unit's latest visit: each row's base (every other visit: the
+    row as stored when the visit is new, else its stored base) plus the visit's readings.
+    False, with nothing written, if the stored rows cannot serve as the base."""
+    new_kg = _new_kg(unit)
+    rows = list(AnodeState.objects.filter(unit=unit))
+    if sorted(r.position_id for r in rows) != sorted(new_kg):
+        return False
+    if not new_visit and any(r.base_visit_pk != visit.pk for r in rows):
+        return False
+    readings = list(
+        AnodeReading.objects.filter(record=visit, position_id__in=list(new_kg))
+        .order_by("pk")
+        .values_list(*_READING_FIELDS)
+    )
+    for row in rows:
+        base = _Anode.read(row, new_kg[row.position_id], "" if new_visit else "base_")
+        anode = replace(base, points=[])
+        _walk({row.position_id: anode}, [r for r in readings if r[0] == row.position_id],
+              {visit.pk: visit.opened_at}, {visit.pk: x})  # fmt: skip
+        anode.write(row)
+        base.write(row, "base_")
+        row.base_visit_pk = visit.pk
+    fields = [*_ANODE_FIELDS, *("base_" + f for f in _ANODE_FIELDS), "base_visit_pk"]
+    AnodeState.objects.bulk_update(rows, fields)
+    return True
+
+
+def _tests_and_checks(
+    unit: Transponder, voided_by: Callable[[dt.datetime, dt.datetime], bool]
+) -> dict[str, object]:
+    """Step 5's fields of the unit's state row."""
+    last_test, voided = _last_pressure_test(unit, voided_by)
+    latest_check = _latest_checks(unit)
+    return {
+        "last_pressure_test": last_test,
+        "test_voided_by_opening": voided,
+        "last_release_test": (
+            ReleaseTest.objects.filter(record__unit=unit).order_by("-tested_on", "-pk").first()
+        ),
+        "last_temperature_check_id": latest_check.get(SensorCheck.Sensor.TEMPERATURE),
+        "last_pressure_check_id": latest_check.get(SensorCheck.Sensor.PRESSURE),
+        "last_tilt_check_id": latest_check.get(SensorCheck.Sensor.TILT),
+    }
+
+
+def _refresh_after_visit(
+    unit: Transponder, visit: ServiceRecord, *, new_visit: bool, at: dt.datetime
+) -> UnitState | None:
+    """The state after a save of the unit's latest visit, from the stored rows and that
+    visit's entries, in a number of queries and rows that does not grow with the history;
+    None (nothing written) when the save is not at the end of the history.
+
+    The deployments are unchanged and all ended by the visit, so the deployment fields stay
+    and the visit's immersed days are the closed total (the same float ``immersed_days_at_each``
+    gives: the same spans, added in the same order). Seal openings and the pressure test's
+    voiding are counted in SQL; the pack's tally reads only deployments since its day."""
+    state = _appendable(unit, visit)
+    if state is None or not _anodes_after_visit(
+        unit, visit, new_visit=new_visit, x=state.immersed_days_closed
+    ):
+        return None
+    openings = HousingOpening.objects.filter(record__unit=unit)
+    counted: dict[dt.datetime, int] = {}
+
+    def openings_after(fitted: dt.datetime) -> int:
+        if fitted not in counted:
+            counted[fitted] = openings.filter(record__opened_at__gt=fitted).count()
+        return counted[fitted]
+
+    _refresh_seals(unit, openings_after)
+    pack = BatteryInstall.objects.filter(unit=unit, removal__isnull=True).first()
+    since_pack = (
+        Deployment.objects.filter(unit=unit, recovered_at__gt=start_of(pack.installed_on))
+        if pack is not None
+        else Deployment.objects.none()
+    )
+    recovered = [(d, d.recovered_at) for d in since_pack.order_by("over_side_at") if d.recovered_at]
+    values: dict[str, object] = {"refreshed_at": at, "as_of": visit.opened_at, "pack": pack}
+    values["pack_charge_used_ah"], values["pack_releases"] = _pack_tally(unit, pack, recovered)
+    values["last_opening_at"] = openings.aggregate(last=Max("opened_at"))["last"]
+    values |= _tests_and_checks(
+        unit,
+        lambda tested, visit_at: openings.filter(
+            Q(opened_at__gt=tested) | Q(record__opened_at__gt=visit_at)
+        ).exists(),
+    )
+    for name, value in values.items():
+        setattr(state, name, value)
+    state.save(update_fields=[name.removesuffix("_id") for name in values])
+    return state
+
+
 @transaction.atomic
-def refresh_unit_state(unit: Transponder, *, at: dt.datetime) -> UnitState:
-    """Rewrite the unit's state rows in a constant number of queries: the readings are read
-    as plain values, the other records only as far as the state needs them."""
+def refresh_unit_state(
+    unit: Transponder,
+    *,
+    at: dt.datetime,
+    visit: ServiceRecord | None = None,
+    new_visit: bool = False,
+) -> UnitState:
+    """Rewrite the unit's state rows. ``visit``: the write only changed that visit's entries
+    (``new_visit``: it was created by the write); if the visit comes after everything else
+    the unit has, the rows are brought forward from the stored ones (``_refresh_after_visit``),
+    else, and for every other write, derived again from the whole history."""
+    if visit is not None:
+        state = _refresh_after_visit(unit, visit, new_visit=new_visit, at=at)
+        if state is not None:
+            return state
+    return _refresh_whole(unit, at=at)
+
+
+def _refresh_whole(unit: Transponder, *, at: dt.datetime) -> UnitState:
+    """Rewrite the unit's state rows from its whole history, in a constant number of
+    queries: the readings are read as plain values, the other records only as far as the
+    state needs them."""
     pack = BatteryInstall.objects.filter(unit=unit, removal__isnull=True).first()
     intervals, deployments = _deployments(unit, pack)
     closed_intervals = [(over, back) for over, back in intervals if back is not None]
@@ -271,13 +472,14 @@ def refresh_unit_state(unit: Transponder, *, at: dt.datetime) -> UnitState:
         .order_by("opened_at")
         .values_list("opened_at", "record__opened_at")
     )
-    _refresh_seals(unit, openings)
+    _refresh_seals(unit, lambda fitted: sum(1 for _, visit in openings if visit > fitted))
     pack_charge, pack_releases = _pack_tally(unit, pack, recovered)
-    last_test, voided = _last_pressure_test(unit, openings)
-    last_release = (
-        ReleaseTest.objects.filter(record__unit=unit).order_by("-tested_on", "-pk").first()
+    tests = _tests_and_checks(
+        unit,
+        lambda tested, visit_at: any(
+            opened > tested or visit > visit_at for opened, visit in openings
+        ),
     )
-    latest_check = _latest_checks(unit)
 
     events = [over for over, _ in intervals] + [back for _, back in closed_intervals]
     events += visits.values()
@@ -296,13 +498,8 @@ def refresh_unit_state(unit: Transponder, *, at: dt.datetime) -> UnitState:
             "pack": pack,
             "pack_charge_used_ah": pack_charge,
             "pack_releases": pack_releases,
-            "last_pressure_test": last_test,
             "last_opening_at": openings[-1][0] if openings else None,
-            "test_voided_by_opening": voided,
-            "last_release_test": last_release,
-            "last_temperature_check_id": latest_check.get(SensorCheck.Sensor.TEMPERATURE),
-            "last_pressure_check_id": latest_check.get(SensorCheck.Sensor.PRESSURE),
-            "last_tilt_check_id": latest_check.get(SensorCheck.Sensor.TILT),
+            **tests,
         },
     )
     return state

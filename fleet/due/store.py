@@ -22,7 +22,7 @@ from django.db import transaction
 from django.db.models import Case, Count, IntegerField, Q, QuerySet, Value, When
 from django.utils import timezone
 
-from fleet.models import DueRow, Transponder
+from fleet.models import DueRow, ServiceRecord, Transponder
 
 from .engine import INACTIVE, evaluate_unit, fleet_queryset
 from .items import DueItem, DueState, ItemKind, classify
@@ -93,16 +93,25 @@ def refreshing_once(*, at: dt.datetime) -> Iterator[set[int]]:
 
 
 @transaction.atomic
-def refresh_unit(unit: Transponder, *, at: dt.datetime) -> None:
+def refresh_unit(
+    unit: Transponder,
+    *,
+    at: dt.datetime,
+    visit: ServiceRecord | None = None,
+    new_visit: bool = False,
+) -> None:
     """Rewrite the unit's derived state, then its stored due items. The unit row is locked
     first, so two writers refreshing one unit take turns instead of colliding. Inside
-    ``refreshing_once`` the unit is only noted, to be refreshed once at its end."""
+    ``refreshing_once`` the unit is only noted, to be refreshed once at its end. ``visit``
+    (and ``new_visit``): the write changed only that visit and its entries (it created the
+    visit), so a save at the end of the history brings the stored state forward instead
+    of deriving it again (``refresh_unit_state``)."""
     pending = _deferred.get()
     if pending is not None:
         pending.add(unit.pk)
         return
     list(Transponder.objects.select_for_update().filter(pk=unit.pk).values_list("pk"))
-    refresh_unit_state(unit, at=at)
+    refresh_unit_state(unit, at=at, visit=visit, new_visit=new_visit)
     store_due_rows(unit)
 
 

@@ -90,6 +90,22 @@ class AnodeState(models.Model):
     last_mass_kg = models.FloatField(null=True, blank=True)
     last_bond_resistance_ohm = models.FloatField(null=True, blank=True)
 
+    # The same, over every visit but the unit's latest one (``base_visit_pk``): a save of that
+    # visit starts from here and adds only its own readings (``fleet/due/state.py``). A plain
+    # number, not a key: a deleted visit simply stops matching, and the next write rebuilds.
+    base_visit_pk = models.PositiveBigIntegerField(null=True, blank=True)
+    base_fitted_at = models.DateTimeField(null=True, blank=True)
+    base_immersed_days_at_fit = models.FloatField(default=0.0)
+    base_n = models.PositiveIntegerField(default=0)
+    base_sum_x = models.FloatField(default=0.0)
+    base_sum_y = models.FloatField(default=0.0)
+    base_sum_xx = models.FloatField(default=0.0)
+    base_sum_xy = models.FloatField(default=0.0)
+    base_sum_yy = models.FloatField(default=0.0)
+    base_last_read_at = models.DateTimeField(null=True, blank=True)
+    base_last_mass_kg = models.FloatField(null=True, blank=True)
+    base_last_bond_resistance_ohm = models.FloatField(null=True, blank=True)
+
     class Meta:
         constraints = [
             models.UniqueConstraint(fields=["unit", "position"], name="uniq_anode_state")

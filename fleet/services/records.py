@@ -268,6 +268,7 @@ def service_record_save(
             _stamp(current, updated_at=at)
         record.version, record.updated_at = current.version, current.updated_at
         record.updated_by = by
+        new_visit = False
     else:
         unit = _lock_unit(record.unit_id)
         check_can_open_record(unit)
@@ -278,6 +279,7 @@ def service_record_save(
         if at is not None:
             _stamp(record, created_at=at, updated_at=at)
         current = record
+        new_visit = True
     current.unit = unit
     record.unit = unit
 
@@ -297,7 +299,8 @@ def service_record_save(
             f"{unit.serial} would have more than one fitted pack ({serials}); record the "
             "removal of the old one."
         )
-    refresh_unit(unit, at=timezone.now())
+    # Only this visit and its entries changed (a removal entry of its own included).
+    refresh_unit(unit, at=timezone.now(), visit=current, new_visit=new_visit)
     return record
 
 

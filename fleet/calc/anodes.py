@@ -509,8 +509,10 @@ def fit_wear(
 class WearSums:
     """Running sums for the wear fit, to be kept per anode and updated per reading.
 
-    x is cumulative immersed days, y the mass in kg.  ``add`` a new reading, ``remove``
-    one that was corrected or deleted (its old values), ``merge`` two partial sums.
+    x is cumulative immersed days, y the mass in kg.  ``add`` a new reading, ``extend``
+    with several. There is no removal: subtracting a reading back out leaves rounding residue
+    that can turn a degenerate spread (every reading on one day) into a false fit, so a
+    corrected or deleted reading means summing again from the history (``fleet/due/state.py``).
     """
 
     n: int = 0
@@ -566,33 +568,6 @@ class WearSums:
             sxy += x * y
             syy += y * y
         return WearSums(n, sx, sy, sxx, sxy, syy)
-
-    def remove(self, x: float, y: float) -> WearSums:
-        """Sums without a reading that was added before (pass its original values)."""
-        x, y = _check_point(x, y)
-        if self.n == 0:
-            raise ValueError("n must be at least 1 to remove a reading, got 0")
-        if self.n == 1:
-            return WearSums.empty()
-        return WearSums(
-            self.n - 1,
-            self.sum_x - x,
-            self.sum_y - y,
-            self.sum_xx - x * x,
-            self.sum_xy - x * y,
-            self.sum_yy - y * y,
-        )
-
-    def merge(self, other: WearSums) -> WearSums:
-        """Sums of both sets of readings."""
-        return WearSums(
-            self.n + other.n,
-            self.sum_x + other.sum_x,
-            self.sum_y + other.sum_y,
-            self.sum_xx + other.sum_xx,
-            self.sum_xy + other.sum_xy,
-            self.sum_yy + other.sum_yy,
-        )
 
 
 def fit_wear_from_sums(

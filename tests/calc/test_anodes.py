@@ -372,21 +372,6 @@ def test_running_sums_give_the_same_fit(
 
 
 @SETTINGS
-@given(kept=readings, dropped=readings, split=st.integers(0, 30))
-def test_sums_survive_merge_and_remove(
-    kept: list[tuple[float, float]], dropped: list[tuple[float, float]], split: int
-) -> None:
-    # a database adds readings in any order, removes corrected ones, merges partial sums
-    left = anodes.WearSums.of(kept[:split] + dropped)
-    right = anodes.WearSums.of(kept[split:])
-    sums = left.merge(right)
-    for x, y in dropped:
-        sums = sums.remove(x, y)
-    assert sums.n == len(kept)
-    _assert_same_fit(anodes.fit_wear_from_sums(sums), anodes.fit_wear(kept))
-
-
-@SETTINGS
 @given(start=readings, more=readings)
 def test_extending_the_sums_gives_the_same_floats_as_adding_one_by_one(
     start: list[tuple[float, float]], more: list[tuple[float, float]]
@@ -399,11 +384,6 @@ def test_extending_the_sums_gives_the_same_floats_as_adding_one_by_one(
 def test_extending_the_sums_refuses_a_negative_mass() -> None:
     with pytest.raises(ValueError, match="mass_kg"):
         anodes.WearSums.empty().extend([(1.0, 0.3), (2.0, -0.1)])
-
-
-def test_removing_the_last_reading_empties_the_sums() -> None:
-    sums = anodes.WearSums.empty().add(0.1, 0.3).remove(0.1, 0.3)
-    assert sums == anodes.WearSums.empty()
 
 
 # --- guards -----------------------------------------------------------------------------------
@@ -466,7 +446,6 @@ def test_removing_the_last_reading_empties_the_sums() -> None:
         ),
         (lambda: anodes.fit_wear([(1.0, 1.0)], flag_factor=0.9), "flag_factor"),
         (lambda: anodes.fit_wear_from_sums(anodes.WearSums.empty()), "sums.n"),
-        (lambda: anodes.WearSums.empty().remove(1.0, 1.0), "n"),
         (lambda: anodes.WearSums.empty().add(math.inf, 1.0), "immersed_days"),
         (lambda: anodes.WearSums(n=-1), "n"),
         (lambda: anodes.WearSums(n=1, sum_x=math.nan), "sum_x"),

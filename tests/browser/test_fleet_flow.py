@@ -35,6 +35,7 @@ def test_a_supervisor_brings_a_variant_and_ten_units_into_service(live_server, b
     page.wait_for_url(f"{base}/fleet/variants/")
     assert _fits(page), "variant list"
     page.click("text=New variant")
+    page.wait_for_url("**/fleet/variants/new/")
     assert _fits(page), "new variant form"
     page.fill("#id_name", "Shelf variant 4000")
     page.fill("#id_depth_rating_m", "4000")
@@ -69,6 +70,7 @@ def test_a_supervisor_brings_a_variant_and_ten_units_into_service(live_server, b
     assert "20.1 %" in glands and "1.18 %" in glands and "73.1 %" in glands
 
     page.click("main >> text=Bring units into service")
+    page.wait_for_url("**/fleet/units/new-several/**")
     assert _fits(page), "batch form"
     page.fill("#id_serials", "SV-0001..SV-0010")
     page.select_option("#id_place", label="East store")
@@ -84,6 +86,7 @@ def test_a_supervisor_brings_a_variant_and_ten_units_into_service(live_server, b
     page.get_by_role("link", name="SV-0003").click()
     page.wait_for_url(f"{base}/units/SV-0003/")
     page.click("text=Set hold")
+    page.wait_for_url("**/units/SV-0003/hold/")
     assert _fits(page), "hold form"
     page.check("input[name=hold][value=quarantined]")
     page.fill("#id_reason", "Dropped during unpacking")
@@ -93,4 +96,5 @@ def test_a_supervisor_brings_a_variant_and_ten_units_into_service(live_server, b
     assert "Dropped during unpacking" in page.locator("main").inner_text()
     assert _fits(page), "unit page with its move form and hold history"
     page.click("text=Edit unit")
+    page.wait_for_url("**/units/SV-0003/edit/")
     assert _fits(page), "unit form"

@@ -25,15 +25,10 @@ def _aware(name: str, value: dt.datetime) -> dt.datetime:
     return value
 
 
-def immersed_days(
-    intervals: Iterable[tuple[dt.datetime, dt.datetime | None]], at: dt.datetime
-) -> float:
-    """Days spent in the water before ``at``, summed over deployment intervals.
-
-    ``intervals`` are (over the side, recovered or None while deployed). Overlapping
-    intervals are refused: a unit is in one place at a time.
-    """
-    at = _aware("at", at)
+def _sorted_spans(
+    intervals: Iterable[tuple[dt.datetime, dt.datetime | None]],
+) -> list[tuple[dt.datetime, dt.datetime | None]]:
+    """The intervals checked (aware, recovered not before over the side) and sorted by start."""
     spans = []
     for start, end in intervals:
         start = _aware("over_side_at", start)
@@ -46,6 +41,19 @@ def immersed_days(
                 )
         spans.append((start, end))
     spans.sort(key=lambda span: span[0])
+    return spans
+
+
+def immersed_days(
+    intervals: Iterable[tuple[dt.datetime, dt.datetime | None]], at: dt.datetime
+) -> float:
+    """Days spent in the water before ``at``, summed over deployment intervals.
+
+    ``intervals`` are (over the side, recovered or None while deployed). Overlapping
+    intervals are refused: a unit is in one place at a time.
+    """
+    at = _aware("at", at)
+    spans = _sorted_spans(intervals)
     total = 0.0
     previous_end: dt.datetime | None = None
     for start, end in spans:
@@ -87,18 +95,7 @@ def immersed_days_at_each(
     Example: deployed 2025-01-01 to 2025-04-11 and again from 2025-06-01; at 2025-03-02
     and 2025-06-11 the unit has 60 and 110 immersed days.
     """
-    spans = []
-    for start, end in intervals:
-        start = _aware("over_side_at", start)
-        if end is not None:
-            end = _aware("recovered_at", end)
-            if end < start:
-                raise ValueError(
-                    f"recovered_at must be on or after over_side_at {start.isoformat()}, "
-                    f"got {end.isoformat()}"
-                )
-        spans.append((start, end))
-    spans.sort(key=lambda span: span[0])
+    spans = _sorted_spans(intervals)
     starts = [start for start, _ in spans]
     # prefix[i]: whole days of spans[:i], summed left to right like ``immersed_days``.
     prefix = [0.0]

@@ -7,7 +7,6 @@ from typing import Any, TypeVar
 from django.contrib import admin
 from django.db.models import Model
 from django.http import HttpRequest
-from django.utils import timezone
 
 from . import models
 from .services.reference import site_save, unit_save, variant_changed
@@ -52,15 +51,11 @@ class TransponderAdmin(admin.ModelAdmin[models.Transponder]):
     list_display = ("serial", "variant", "hold", "place", "acoustic_address")
     list_filter = ("hold", "variant", "place")
     search_fields = ("serial", "acoustic_address")
-    readonly_fields = ("hold_set_by", "hold_set_at")
+    # A hold is set, changed or cleared from the unit's page (``unit_hold_set``), which refuses
+    # impossible moves and keeps the hold history; here it is shown, never edited.
+    readonly_fields = ("hold", "hold_reason", "hold_set_by", "hold_set_at")
 
     def save_model(self, request: HttpRequest, obj: Any, form: Any, change: bool) -> None:
-        # The condition is derived from the records; only the hold is set here, and who set
-        # it and when is kept with it.
-        if not change or {"hold", "hold_reason"} & set(form.changed_data):
-            if obj.hold != models.UnitHold.NONE or change:
-                obj.hold_set_by = request.user
-                obj.hold_set_at = timezone.now()
         unit_save(unit=obj)
 
 

@@ -376,6 +376,12 @@ def entry_formsets(
     forms_by_model = entry_forms()
     formsets: list[tuple[str, BaseInlineFormSet[Entry, ServiceRecord, EntryForm]]] = []
     for kind in entry_kinds():
+        # A kind the variant cannot carry (a release test on a unit with no release) is not
+        # offered, unless an earlier save of this visit holds such entries to edit.
+        if not kind.fits(variant) and not (
+            record.pk is not None and getattr(record, kind.related_name()).exists()
+        ):
+            continue
         form = forms_by_model[kind]
         initial = form.initial_rows(variant)
         extra = kind.bench_extra

@@ -33,7 +33,7 @@ from .validators import (
     finite,
     range_checks,
 )
-from .variants import AnodePosition, Chemistry, Elastomer, SealPosition
+from .variants import AnodePosition, Chemistry, Elastomer, SealPosition, Variant
 
 
 def _today() -> dt.date:
@@ -195,6 +195,12 @@ class Entry(models.Model):
         if cls.list_select_related:
             queryset = queryset.select_related(*cls.list_select_related)
         return queryset
+
+    @classmethod
+    def fits(cls, variant: Variant) -> bool:
+        """Whether a unit of ``variant`` can carry an entry of this kind (every kind but one
+        fits every variant: a release test needs a release)."""
+        return True
 
     def owning_record(self) -> "ServiceRecord | None":
         """The record, saved or not yet saved (forms attach an unsaved one to validate against)."""
@@ -633,10 +639,20 @@ class ReleaseTest(Entry):
             f"{yes_no(self.acoustic_command_ok).lower()}"
         )
 
+    @classmethod
+    def fits(cls, variant: Variant) -> bool:
+        return variant.release_fitted
+
     def clean(self) -> None:
         super().clean()
         errors: dict[str, str] = {}
         _not_future_date(self.tested_on, "tested_on", errors)
+        record = self.owning_record()
+        if record is not None and record.unit_id and not self.fits(record.unit.variant):
+            errors["kind"] = (
+                f"{record.unit.serial} is a {record.unit.variant.name}, which has no release "
+                "fitted: there is no release to test."
+            )
         if self.kind == self.Kind.LOAD and not self.load_kg:
             errors["load_kg"] = "A test under load needs the load in kg."
         if errors:

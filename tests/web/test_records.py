@@ -424,3 +424,36 @@ def test_a_removal_before_the_install_is_refused(as_technician, unit, workshop, 
     assert "Removal must be on or after the install date." in response.content.decode()
     assert BatteryInstall.objects.get().removed_on is None
     assert ServiceRecord.objects.count() == 1
+
+
+def test_a_variant_without_a_release_is_not_offered_a_release_test(as_technician, workshop):
+    from tests.builders import make_unit, make_variant
+
+    plain = make_unit(variant=make_variant(name="No-release build", release_fitted=False))
+    page = as_technician.get(reverse("record-new", args=[plain.serial]))
+    assert page.status_code == 200
+    headings = [heading for heading, _ in page.context["formsets"]]
+    assert "Release test" not in headings
+    assert 'name="release-TOTAL_FORMS"' not in page.content.decode()
+
+
+def test_a_release_test_on_a_unit_without_a_release_is_refused(technician, workshop):
+    from django.core.exceptions import ValidationError
+
+    from fleet.models import ReleaseTest
+    from tests.builders import make_unit, make_variant
+
+    plain = make_unit(variant=make_variant(name="No-release build", release_fitted=False))
+    record = make_record(unit=plain, by=technician)
+    test = ReleaseTest(
+        record=record,
+        tested_on=dt.date(2026, 3, 2),
+        kind=ReleaseTest.Kind.BENCH,
+        seconds_to_release=4.0,
+        motor_current_a=0.4,
+        limit_switch_ok=True,
+        acoustic_command_ok=True,
+    )
+    with pytest.raises(ValidationError) as refused:
+        test.full_clean()
+    assert "has no release fitted" in refused.value.message_dict["kind"][0]

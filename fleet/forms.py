@@ -21,6 +21,7 @@ from .due import planned as planned_limits
 from .models import (
     AnodeReading,
     BatteryInstall,
+    Chemistry,
     Deployment,
     HousingOpening,
     LabelSetting,
@@ -262,6 +263,19 @@ class BatteryInstallForm(EntryForm):
             "ocv_install_v",
         ]
         widgets = {"made_on": DateInput(), "installed_on": DateInput()}
+
+    def __init__(self, *args: Any, record: ServiceRecord | None = None, **kwargs: Any) -> None:
+        super().__init__(*args, record=record, **kwargs)
+        if record is not None:
+            # Offer only what the variant's battery bay accepts (the model refuses the rest).
+            allowed = list(record.unit.variant.allowed_chemistries or ())
+            field = _choice(self, "chemistry")
+            field.choices = [("", "---------")] + [
+                (value, label) for value, label in Chemistry.choices if value in allowed
+            ]
+            field.error_messages["invalid_choice"] = (
+                f"This variant's battery bay accepts {', '.join(allowed) or 'no chemistry'}."
+            )
 
 
 class PressureTestForm(EntryForm):

@@ -457,3 +457,9 @@ def test_a_release_test_on_a_unit_without_a_release_is_refused(technician, works
     with pytest.raises(ValidationError) as refused:
         test.full_clean()
     assert "has no release fitted" in refused.value.message_dict["kind"][0]
+
+
+def test_the_battery_row_offers_only_the_chemistries_the_bay_accepts(as_technician, unit):
+    page = as_technician.get(reverse("record-new", args=[unit.serial])).content.decode()
+    assert 'value="alkaline"' in page and 'value="li_socl2"' in page
+    assert 'value="li_mno2"' not in page

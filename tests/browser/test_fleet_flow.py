@@ -31,6 +31,7 @@ def test_a_supervisor_brings_a_variant_and_ten_units_into_service(live_server, b
     page.click("main button[type=submit]")
     page.wait_for_url(f"{base}/")
 
+    page.click("header details.more summary")
     page.click("header >> text=Fleet")
     page.wait_for_url(f"{base}/fleet/variants/")
     assert _fits(page), "variant list"

@@ -3,7 +3,7 @@ queries it makes; tests/test_selectors.py holds it to that."""
 
 import datetime as dt
 from collections import defaultdict
-from collections.abc import Mapping, Sequence
+from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any, TypeVar
 
@@ -388,11 +388,39 @@ def stored_words(model: type[Model], field_name: str, stored: str, *, utc: bool 
     return field_value(probe, field_name, utc=utc)
 
 
-def target_label(model: type[Model] | None, target_id: int) -> str:
-    """What an amendment corrected, for people: "Pressure test #12", or "Visit"."""
+EntryNames = dict[tuple[type[Model], int], str]
+
+
+def entry_names(entries: Iterable[Model]) -> EntryNames:
+    """How pages and paper name a record's entries: the kind and the entry's number among
+    its kind, in the order given ("Anode reading 2"), never a database key (which means
+    nothing on the bench and changes when a vessel kit is merged). Give the entries in page
+    order: each kind by primary key, as ``record_sections`` and ``amendable_targets`` list
+    them. No query."""
+    counts: dict[type[Model], int] = {}
+    names: EntryNames = {}
+    for entry in entries:
+        kind = type(entry)
+        if kind is ServiceRecord or entry.pk is None:
+            continue
+        counts[kind] = counts.get(kind, 0) + 1
+        names[(kind, entry.pk)] = f"{capfirst(kind._meta.verbose_name)} {counts[kind]}"
+    return names
+
+
+def section_entry_names(sections: Iterable[EntrySection]) -> EntryNames:
+    return entry_names(row.entry for section in sections for row in section.rows)
+
+
+def target_label(model: type[Model] | None, target_id: int, names: EntryNames | None = None) -> str:
+    """What an amendment corrected, for people: "Pressure test 2", or "Visit"."""
     if model is None or model is ServiceRecord:
         return "Visit (the record itself)"
-    return f"{capfirst(model._meta.verbose_name)} #{target_id}"
+    named = (names or {}).get((model, target_id))
+    if named:
+        return named
+    # Not on the record's page any more: say which kind, and the key as the last resort.
+    return f"{capfirst(model._meta.verbose_name)} (entry {target_id})"
 
 
 @dataclass(frozen=True, slots=True)
@@ -407,7 +435,9 @@ class AmendmentLine:
     target_key: tuple[Any, int] | None = None  # (model, pk) of what was corrected
 
 
-def amendment_line(amendment: Amendment, *, utc: bool = False) -> AmendmentLine:
+def amendment_line(
+    amendment: Amendment, *, utc: bool = False, names: EntryNames | None = None
+) -> AmendmentLine:
     model = amendment.target_type.model_class()
     if model is None:  # a kind no longer installed: show what was stored
         label, original, corrected = (
@@ -422,7 +452,7 @@ def amendment_line(amendment: Amendment, *, utc: bool = False) -> AmendmentLine:
     return AmendmentLine(
         amendment.created_at,
         amendment.created_by,
-        target_label(model, amendment.target_id),
+        target_label(model, amendment.target_id, names),
         label,
         original,
         corrected,
@@ -431,11 +461,13 @@ def amendment_line(amendment: Amendment, *, utc: bool = False) -> AmendmentLine:
     )
 
 
-def record_amendments(*, record: ServiceRecord, utc: bool = False) -> list[AmendmentLine]:
+def record_amendments(
+    *, record: ServiceRecord, utc: bool = False, names: EntryNames | None = None
+) -> list[AmendmentLine]:
     """The record's amendments with their authors, in words (labels, not field names). One
     query (plus one per amended related key, which no kind amends today)."""
     return [
-        amendment_line(a, utc=utc)
+        amendment_line(a, utc=utc, names=names)
         for a in record.amendments.select_related("created_by", "target_type").order_by(
             "created_at", "pk"
         )

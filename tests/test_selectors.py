@@ -18,6 +18,7 @@ from fleet.models import (
     Transponder,
 )
 from fleet.selectors import (
+    entry_names,
     fleet_counts,
     last_anode_readings,
     last_seal_changes,
@@ -252,8 +253,13 @@ def test_the_record_amendments_come_with_their_authors(
     with django_assert_num_queries(1):
         amendments = record_amendments(record=first)
         assert [(a.created_by, a.target_label, a.field_label) for a in amendments] == [
-            (supervisor, f"Anode reading #{reading.pk}", "Net mass (g)")
+            (supervisor, f"Anode reading (entry {reading.pk})", "Net mass (g)")
         ]
+    # Named as the page numbers the entries, never by a database key, given the page's names.
+    names = entry_names(first.anode_readings.order_by("pk"))
+    with django_assert_num_queries(1):
+        amendments = record_amendments(record=first, names=names)
+    assert [a.target_label for a in amendments] == ["Anode reading 1"]
     assert (amendments[0].original_words, amendments[0].corrected_words) == (
         f"{reading.mass_g:g} g",
         "391 g",

@@ -147,12 +147,8 @@ def prepare_report(record: ServiceRecord, *, charts_on: dt.date | None = None) -
         record=record, rules=rules_for(record.unit.variant), utc=True
     )
     sections = tuple(section_of(s) for s in page_sections if s.rows)
-    # (model, pk) -> how the paper names an entry: "Anode reading 2", its number in its section.
-    names: dict[tuple[Any, int], str] = {
-        (type(row.entry), row.entry.pk): f"{s.singular} {n}"
-        for s in page_sections
-        for n, row in enumerate(s.rows, start=1)
-    }
+    # (model, pk) -> how the paper names an entry: "Anode reading 2", as the record page does.
+    names = selectors.section_entry_names(page_sections)
     photos = [
         PhotoLine(
             f"{names[(AnodeReading, row.entry.pk)]}: {row.entry.position.name}", _photo_path(e)
@@ -168,13 +164,13 @@ def prepare_report(record: ServiceRecord, *, charts_on: dt.date | None = None) -
         AmendmentLine(
             a.created_at,
             display_name(a.created_by),
-            names.get(a.target_key, a.target_label) if a.target_key else a.target_label,
+            a.target_label,
             a.field_label,
             a.original_words,
             a.corrected_words,
             a.reason,
         )
-        for a in selectors.record_amendments(record=record, utc=True)
+        for a in selectors.record_amendments(record=record, utc=True, names=names)
     )
     charts = _unit_charts(record, charts_on) if charts_on is not None else ()
     unit = record.unit
@@ -267,7 +263,7 @@ def _blocks(section: EntrySection, width: float) -> list[Flowable]:
         grid[-1] += [""] * (3 - len(grid[-1]))
         verdict_failed = (r, len(row) - 1) in section.failed
         verdict = para_bold(row[-1]) if verdict_failed else para(row[-1], "cell")
-        head = para_bold(f"{section.singular or section.title} #{row[0]}")
+        head = para_bold(f"{section.singular or section.title} {row[0]}")
         table = Table(
             [[head, "", ""], *grid, [verdict, "", ""]],
             colWidths=[pair_w] * 3,

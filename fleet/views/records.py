@@ -6,7 +6,6 @@ from django.db.models import Model
 from django.http import HttpResponse
 from django.shortcuts import redirect, render
 from django.utils import timezone
-from django.utils.text import capfirst
 from django.views.decorators.http import require_http_methods
 
 from fleet import roles
@@ -25,7 +24,13 @@ from fleet.forms import (
 )
 from fleet.models import ServiceRecord
 from fleet.models.records import Entry
-from fleet.selectors import record_amendments, record_sections
+from fleet.selectors import (
+    EntryNames,
+    entry_names,
+    record_amendments,
+    record_sections,
+    section_entry_names,
+)
 from fleet.services.records import (
     amendable_fields,
     amendable_targets,
@@ -133,9 +138,9 @@ def record_edit(request: AuthenticatedRequest, pk: int) -> HttpResponse:
     return _edit(request, record, f"Bench visit for {record.unit.serial}")
 
 
-def _target_label(target: Model) -> str:
+def _target_label(target: Model, names: EntryNames) -> str:
     if isinstance(target, Entry):
-        return f"{capfirst(target._meta.verbose_name)} #{target.pk}: {target.history_line()}"
+        return f"{names[(type(target), target.pk)]}: {target.history_line()}"
     return "The visit itself (its summary)"
 
 
@@ -163,7 +168,7 @@ def record_detail(request: AuthenticatedRequest, pk: int) -> HttpResponse:
             "sections": sections,
             "failed_count": failed,
             "cautions": record_cautions(record) if not record.is_closed else (),
-            "amendments": record_amendments(record=record),
+            "amendments": record_amendments(record=record, names=section_entry_names(sections)),
             "close_form": CloseRecordForm(initial={"version": record.version}),
             "can_discard": empty
             and not record.is_closed
@@ -218,7 +223,8 @@ def _amend_steps(
     request: AuthenticatedRequest, record: ServiceRecord, targets: dict[str, Model]
 ) -> dict[str, Any]:
     """Steps one and two (GET): the entry, then the value by its label; then the form."""
-    entries = [(key, _target_label(t)) for key, t in targets.items()]
+    names = entry_names(targets.values())
+    entries = [(key, _target_label(t, names)) for key, t in targets.items()]
     entry_form = AmendmentEntryForm(
         request.GET if "target" in request.GET else None, choices=entries
     )
@@ -235,7 +241,7 @@ def _amend_steps(
     if not field_form.is_valid() or field_form.cleaned_data["target"] != key:
         return {
             "step": "field",
-            "target_label": _target_label(target),
+            "target_label": _target_label(target, names),
             "field_form": AmendmentFieldForm(choices=choices, initial={"target": key}),
         }
     return {"step": "value", "target_key": f"{key}:{field_form.cleaned_data['field']}"}
@@ -320,7 +326,7 @@ def record_amend(request: AuthenticatedRequest, pk: int) -> HttpResponse:
         context.update(step="value", form=form)
         if target is not None:
             context.update(
-                target_label=_target_label(target),
+                target_label=_target_label(target, entry_names(targets.values())),
                 field_label=field_label(target, field_name),
                 now=field_value(target, field_name),
             )
@@ -331,7 +337,7 @@ def record_amend(request: AuthenticatedRequest, pk: int) -> HttpResponse:
         assert target is not None  # the steps only offer amendable fields of this record
         context.update(
             form=_value_form(record, target, field_name),
-            target_label=_target_label(target),
+            target_label=_target_label(target, entry_names(targets.values())),
             field_label=field_label(target, field_name),
             now=field_value(target, field_name),
         )

@@ -32,3 +32,7 @@ class ImportConfirmForm(forms.Form):
     kind = forms.ChoiceField(choices=KIND_CHOICES, widget=forms.HiddenInput)
     checksum = forms.RegexField(regex=r"^[0-9a-f]{64}$", widget=forms.HiddenInput)
     file_name = forms.CharField(max_length=255, widget=forms.HiddenInput)
+    accept_flagged = forms.BooleanField(
+        required=False,
+        label="I checked the flagged rows: import them as they are",
+    )

@@ -36,6 +36,7 @@ from fleet.imports import columns as cols
 from fleet.imports import parsing
 from fleet.models import (
     AnodePosition,
+    AnodeReading,
     BatteryInstall,
     Deployment,
     ImportBatch,
@@ -49,6 +50,7 @@ from fleet.models import (
 )
 from fleet.models.records import Entry, PackRemoval
 from fleet.models.validators import DATE_VALIDATORS
+from fleet.selectors import previous_anode_mass
 from fleet.services.deployments import backfill_refusal, deployment_backfill
 from fleet.services.records import PastVisit, check_can_open_record, service_records_import
 from fleet.services.reference import site_save, unit_save
@@ -79,6 +81,9 @@ class Outcome:
     header: tuple[str, ...] = ()
     sample: list[tuple[int, list[str]]] = field(default_factory=list)
     problems: list[Problem] = field(default_factory=list)
+    # Rows that are possible but unlikely (an anode heavier than its last reading): imported
+    # only when whoever imports says they checked them (``accept_flagged``).
+    flagged: list[Problem] = field(default_factory=list)
     batch: ImportBatch | None = None
 
     @property
@@ -129,6 +134,9 @@ class _Run:
         self.packs_in_file: dict[tuple[int, str], BatteryInstall] = {}
         self.deployments_in_file: dict[int, list[tuple[dt.datetime, dt.datetime, int]]] = {}
         self.pending: list[_Visit] = []
+        # (unit, anode position) -> the last weighed mass of the anode fitted there, as the
+        # file's rows so far leave it (None: not weighed since it was fitted).
+        self.anode_mass: dict[tuple[int, int], tuple[float, dt.date] | None] = {}
         # Read off the models once a run, not once a row (they do not change while it runs).
         self.visit_columns = _visit_columns()
         self.entry_columns: dict[type[Entry], list[cols.Column]] = {}
@@ -466,6 +474,38 @@ def _check_visit(run: _Run, visit: _Visit) -> bool:
     return len(run.outcome.problems) == before
 
 
+def _flag_heavier(run: _Run, visit: _Visit) -> None:
+    """Flag each anode reading heavier than the last reading of the same anode (from the
+    database, or an earlier row of the file): an anode only loses mass, so it is likely a
+    misread or another anode, as the bench-visit form asks. One query per unit and position
+    the file names, the first time."""
+    record = visit.record
+    for row, entry in visit.entries:
+        if not isinstance(entry, AnodeReading):
+            continue
+        key = (record.unit_id, entry.position_id)
+        if key not in run.anode_mass:
+            found = previous_anode_mass(
+                unit_id=record.unit_id, position_id=entry.position_id, before=record.opened_at
+            )
+            run.anode_mass[key] = (found.mass_g, found.on) if found is not None else None
+        last = run.anode_mass[key]
+        if entry.mass_g is not None and last is not None and entry.mass_g > last[0]:
+            run.outcome.flagged.append(
+                Problem(
+                    row,
+                    "mass_g",
+                    f"{entry.mass_g:g} g is heavier than this anode's last reading "
+                    f"({last[0]:g} g on {last[1]}); an anode only loses mass. Check it is "
+                    "the same anode and the reading is right.",
+                )
+            )
+        if entry.replaced:
+            run.anode_mass[key] = None
+        elif entry.mass_g is not None:
+            run.anode_mass[key] = (entry.mass_g, timezone.localdate(record.opened_at))
+
+
 def _forget_keys(instance: models.Model) -> None:
     """Clear the keys of ``instance`` that point at objects no longer saved."""
     for f in instance._meta.concrete_fields:
@@ -519,6 +559,7 @@ def _one_visit(run: _Run, group: list[tuple[int, dict[str, str]]]) -> None:
             visit.entries.append((row, entry))
     if len(run.outcome.problems) > before:
         return
+    _flag_heavier(run, visit)
     if run.writing:
         if run.pending and run.pending[0].record.unit_id != visit.record.unit_id:
             _flush(run)
@@ -589,7 +630,9 @@ def _already(batch: ImportBatch) -> Problem:
     )
 
 
-def _run_file(*, kind: str, data: bytes, file_name: str, by: User, write: bool) -> Outcome:
+def _run_file(
+    *, kind: str, data: bytes, file_name: str, by: User, write: bool, accept_flagged: bool = False
+) -> Outcome:
     if kind not in KINDS:
         raise ValueError(f"Unknown import kind {kind!r}; use one of {', '.join(KINDS)}.")
     spec = KINDS[kind]
@@ -617,6 +660,20 @@ def _run_file(*, kind: str, data: bytes, file_name: str, by: User, write: bool) 
     else:
         _run_simple(run, table, spec)
     outcome.counts = dict(run.counts)
+    # A row with a problem is fixed first; its flag would only repeat it.
+    bad_rows = {problem.row for problem in outcome.problems}
+    outcome.flagged = [flag for flag in outcome.flagged if flag.row not in bad_rows]
+    if write and outcome.ok and outcome.flagged and not accept_flagged:
+        flagged = len(outcome.flagged)
+        outcome.problems.append(
+            Problem(
+                1,
+                "",
+                f"{flagged} row{'' if flagged == 1 else 's'} flagged to check "
+                "(listed below); nothing was imported. Correct them, or say you checked them "
+                "and import the file as it is.",
+            )
+        )
     if write and outcome.ok:
         _record_batch(outcome, run)
     return outcome
@@ -673,11 +730,21 @@ def import_preview(*, kind: str, data: bytes, file_name: str, by: User) -> Outco
 
 
 @transaction.atomic
-def import_commit(*, kind: str, data: bytes, file_name: str, by: User) -> Outcome:
+def import_commit(
+    *, kind: str, data: bytes, file_name: str, by: User, accept_flagged: bool = False
+) -> Outcome:
     """Write the file through the services, all or nothing: raises ``ImportRefusedError`` (and
-    writes nothing) if any row is bad or the file was imported before."""
+    writes nothing) if any row is bad, the file was imported before, or rows are flagged
+    (``Outcome.flagged``) and ``accept_flagged`` is not given."""
     with refreshing_once(at=timezone.now()):
-        outcome = _run_file(kind=kind, data=data, file_name=file_name, by=by, write=True)
+        outcome = _run_file(
+            kind=kind,
+            data=data,
+            file_name=file_name,
+            by=by,
+            write=True,
+            accept_flagged=accept_flagged,
+        )
         if not outcome.ok:
             raise ImportRefusedError(outcome)
     return outcome

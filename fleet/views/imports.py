@@ -70,9 +70,19 @@ def import_confirm(request: AuthenticatedRequest) -> HttpResponse:
         return redirect(reverse("import"))
     kind, name = form.cleaned_data["kind"], form.cleaned_data["file_name"]
     try:
-        outcome = import_commit(kind=kind, data=data, file_name=name, by=request.user)
+        outcome = import_commit(
+            kind=kind,
+            data=data,
+            file_name=name,
+            by=request.user,
+            accept_flagged=form.cleaned_data["accept_flagged"],
+        )
     except ImportRefusedError as refused:
-        return _page(request, ImportUploadForm(initial={"kind": kind}), refused.outcome)
+        again = None
+        if refused.outcome.flagged and all(p.row == 1 for p in refused.outcome.problems):
+            # Refused only for the flagged rows: offer the confirmation again, with its box.
+            again = ImportConfirmForm(initial=form.cleaned_data)
+        return _page(request, ImportUploadForm(initial={"kind": kind}), refused.outcome, again)
     staging.discard(outcome.checksum)
     created = ", ".join(f"{count} {label}" for label, count in outcome.counts.items())
     messages.success(request, f"Imported {name}: {created or 'nothing new'}.")

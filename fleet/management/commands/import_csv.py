@@ -42,6 +42,11 @@ class Command(BaseCommand):
         parser.add_argument("file", type=Path)
         parser.add_argument("--user", help="who imports (default: the only superuser)")
         parser.add_argument("--commit", action="store_true", help="write the file")
+        parser.add_argument(
+            "--accept-flagged",
+            action="store_true",
+            help="import the rows flagged to check (an anode heavier than its last reading)",
+        )
 
     def _report(self, outcome: Outcome) -> None:
         for label, count in outcome.counts.items():
@@ -49,9 +54,18 @@ class Command(BaseCommand):
         for problem in outcome.problems:
             where = f"row {problem.row}" + (f", {problem.column}" if problem.column else "")
             self.stdout.write(f"{where}: {problem.message}")
+        for flag in outcome.flagged:
+            self.stdout.write(f"row {flag.row}, {flag.column}: to check: {flag.message}")
 
     def handle(
-        self, *args: Any, kind: str, file: Path, user: str | None, commit: bool, **options: Any
+        self,
+        *args: Any,
+        kind: str,
+        file: Path,
+        user: str | None,
+        commit: bool,
+        accept_flagged: bool,
+        **options: Any,
     ) -> None:
         by = _user(user)
         try:
@@ -64,10 +78,17 @@ class Command(BaseCommand):
             self._report(outcome)
             if outcome.problems:
                 raise CommandError(f"{len(outcome.problems)} problem(s); fix them first.")
+            if outcome.flagged:
+                self.stdout.write(
+                    f"{len(outcome.flagged)} row(s) to check; --commit --accept-flagged imports "
+                    "them as they are."
+                )
             self.stdout.write("Nothing written; add --commit to import.")
             return
         try:
-            outcome = import_commit(kind=kind, data=data, file_name=file.name, by=by)
+            outcome = import_commit(
+                kind=kind, data=data, file_name=file.name, by=by, accept_flagged=accept_flagged
+            )
         except ImportRefusedError as refused:
             self._report(refused.outcome)
             raise CommandError(

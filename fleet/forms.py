@@ -40,7 +40,7 @@ from .models import (
 from .models.records import Entry, entry_kinds
 from .models.validators import DATE_VALIDATORS, REASON_MAX_CHARS, SUMMARY_MAX_CHARS
 from .photos import clean_photo
-from .recall import RECALL_VALUE_MAX_CHARS, RecallPart
+from .recall import RECALL_VALUE_MAX_CHARS, MadeWithin, RecallPart
 from .selectors import previous_anode_mass
 from .services.deployments import deploy_refusal
 
@@ -729,9 +729,29 @@ class UnitPhotoForm(forms.ModelForm[UnitPhoto]):
 class RecallForm(forms.Form):
     part = forms.ChoiceField(choices=RecallPart.choices, label="Part", initial=RecallPart.SEAL_LOT)
     value = forms.CharField(
+        required=False,
         max_length=RECALL_VALUE_MAX_CHARS,
         label="Lot or pack serial",
         help_text="As written on the seal packet or the pack; capitals or not.",
+    )
+    made_from = forms.DateField(
+        required=False,
+        widget=DateInput(),
+        validators=[*DATE_VALIDATORS],
+        label="Packs made from",
+        help_text="Packs made in a period: the first day of manufacture recalled.",
+    )
+    made_to = forms.DateField(
+        required=False,
+        widget=DateInput(),
+        validators=[*DATE_VALIDATORS],
+        label="Packs made up to",
+        help_text="The last day of manufacture recalled, included.",
+    )
+    chemistry = forms.ChoiceField(
+        required=False,
+        choices=[("", "Any chemistry"), *Chemistry.choices],
+        label="Chemistry",
     )
     since = forms.DateField(
         required=False,
@@ -746,6 +766,28 @@ class RecallForm(forms.Form):
         if since is not None and since > timezone.localdate():
             raise ValidationError("This date is in the future.")
         return since
+
+    def clean(self) -> dict[str, Any]:
+        super().clean()
+        data = self.cleaned_data
+        if data.get("part") == RecallPart.PACKS_MADE:
+            first, last = data.get("made_from"), data.get("made_to")
+            if first is None and "made_from" not in self.errors:
+                self.add_error("made_from", "Give the first day of manufacture recalled.")
+            if last is None and "made_to" not in self.errors:
+                self.add_error("made_to", "Give the last day of manufacture recalled.")
+            if first is not None and last is not None and last < first:
+                self.add_error("made_to", "The period ends before it begins.")
+        elif data.get("part") and not (data.get("value") or "").strip():
+            self.add_error("value", "Give the lot or the pack serial.")
+        return data
+
+    def made(self) -> MadeWithin | None:
+        """The period of a recall of packs made in one (the form must be valid)."""
+        data = self.cleaned_data
+        if data["part"] != RecallPart.PACKS_MADE:
+            return None
+        return MadeWithin(data["made_from"], data["made_to"], data.get("chemistry") or "")
 
 
 class LabelContactForm(forms.ModelForm[LabelSetting]):

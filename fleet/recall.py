@@ -10,7 +10,8 @@ Without a date, the recall lists the parts fitted now. With a date, it lists eve
 at any time on or after that day: still fitted, or taken out on or after it.
 
 Battery installs record a pack's serial and no separate lot, so a pack recall matches the pack
-serial exactly (ignoring case); seal changes record the packet's lot.
+serial exactly (ignoring case), or, as cell makers recall by date of manufacture, every pack
+made within a period (of one chemistry, if given); seal changes record the packet's lot.
 """
 
 from __future__ import annotations
@@ -22,7 +23,7 @@ from django.db import models
 from django.db.models import OuterRef, Q, Subquery
 from django.utils import timezone
 
-from fleet.models import BatteryInstall, SealChange
+from fleet.models import BatteryInstall, Chemistry, SealChange
 
 RECALL_VALUE_MAX_CHARS = 40  # SealChange.lot and BatteryInstall.pack_serial
 
@@ -30,6 +31,7 @@ RECALL_VALUE_MAX_CHARS = 40  # SealChange.lot and BatteryInstall.pack_serial
 class RecallPart(models.TextChoices):
     SEAL_LOT = "seal_lot", "Seal lot (O-ring packet)"
     PACK_SERIAL = "pack_serial", "Battery pack serial"
+    PACKS_MADE = "packs_made", "Battery packs made in a period"
 
 
 @dataclass(frozen=True, slots=True)
@@ -102,8 +104,8 @@ def _seal_rows(lot: str) -> list[RecallRow]:
     ]
 
 
-def _pack_rows(pack_serial: str) -> list[RecallRow]:
-    installs = BatteryInstall.objects.filter(pack_serial__iexact=pack_serial).values_list(
+def _pack_rows(which: Q) -> list[RecallRow]:
+    installs = BatteryInstall.objects.filter(which).values_list(
         "unit__serial",
         "pack_serial",
         "installed_on",
@@ -126,13 +128,50 @@ def _pack_rows(pack_serial: str) -> list[RecallRow]:
     ]
 
 
-def recall(*, part: RecallPart, value: str, since: dt.date | None = None) -> Recall:
-    """Every unit with a part from ``value`` fitted now, or, with ``since``, fitted at any time
-    on or after that day; by unit serial, then fitting date. One query."""
-    value = value.strip()
-    if not value or len(value) > RECALL_VALUE_MAX_CHARS:
-        raise ValueError(f"value must be 1 to {RECALL_VALUE_MAX_CHARS} characters")
-    rows = _seal_rows(value) if part == RecallPart.SEAL_LOT else _pack_rows(value)
+@dataclass(frozen=True, slots=True)
+class MadeWithin:
+    """Packs made from ``first`` to ``last`` (both days included), of ``chemistry`` if given."""
+
+    first: dt.date
+    last: dt.date
+    chemistry: str = ""
+
+    def __post_init__(self) -> None:
+        if self.last < self.first:
+            raise ValueError("last must be on or after first")
+
+    def words(self) -> str:
+        kind = Chemistry(self.chemistry).label if self.chemistry else "any chemistry"
+        return f"{kind}, made {self.first} to {self.last}"
+
+    def q(self) -> Q:
+        made = Q(made_on__gte=self.first, made_on__lte=self.last)
+        return made & Q(chemistry=self.chemistry) if self.chemistry else made
+
+
+def recall(
+    *,
+    part: RecallPart,
+    value: str = "",
+    since: dt.date | None = None,
+    made: MadeWithin | None = None,
+) -> Recall:
+    """Every unit with a part from ``value`` (a seal lot, a pack serial; or, for packs made
+    in a period, ``made``) fitted now, or, with ``since``, fitted at any time on or after that
+    day; by unit serial, then fitting date. One query."""
+    if part == RecallPart.PACKS_MADE:
+        if made is None:
+            raise ValueError("a recall of packs made in a period needs the period")
+        value = made.words()
+        rows = _pack_rows(made.q())
+    else:
+        value = value.strip()
+        if not value or len(value) > RECALL_VALUE_MAX_CHARS:
+            raise ValueError(f"value must be 1 to {RECALL_VALUE_MAX_CHARS} characters")
+        if part == RecallPart.SEAL_LOT:
+            rows = _seal_rows(value)
+        else:
+            rows = _pack_rows(Q(pack_serial__iexact=value))
     kept = [
         row
         for row in rows

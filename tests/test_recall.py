@@ -6,7 +6,14 @@ import datetime as dt
 import pytest
 
 from fleet.models import BatteryInstall, PackRemoval, SealChange
-from fleet.recall import RECALL_CSV_HEADER, RecallPart, RecallRow, recall, recall_csv_rows
+from fleet.recall import (
+    RECALL_CSV_HEADER,
+    MadeWithin,
+    RecallPart,
+    RecallRow,
+    recall,
+    recall_csv_rows,
+)
 from tests.builders import make_unit
 from tests.due.test_engine import t, visit
 
@@ -165,3 +172,33 @@ def test_the_csv_has_iso_dates_and_one_type_per_column(unit, seals):
 def test_it_refuses_an_empty_or_overlong_value(value):
     with pytest.raises(ValueError, match="1 to 40 characters"):
         recall(part=RecallPart.SEAL_LOT, value=value)
+
+
+def test_packs_made_in_a_period_are_recalled_by_date_of_manufacture_and_chemistry(
+    unit, variant, workshop, technician
+):
+    # A cell maker recalls by date of manufacture (common practice, no published source).
+    other = make_unit(serial="TX-0002", acoustic_address="902", variant=variant, place=workshop)
+    early = pack("PK-E", dt.date(2026, 1, 5))
+    early.made_on = dt.date(2025, 6, 30)
+    visit(unit, technician, t(2026, 1, 5, 9), early)
+    lithium = pack("PK-L", dt.date(2026, 1, 6))
+    lithium.chemistry, lithium.nominal_voltage_v, lithium.ocv_install_v = "li_socl2", 36.0, 36.6
+    visit(other, technician, t(2026, 1, 6, 9), lithium)  # made 2025-12-01, as PK-E's fit
+
+    def recalled(first, last, chemistry=""):
+        made = MadeWithin(first, last, chemistry)
+        return [r.part for r in recall(part=RecallPart.PACKS_MADE, made=made).rows]
+
+    assert recalled(dt.date(2025, 7, 1), dt.date(2025, 12, 1)) == ["PK-L"]
+    assert recalled(dt.date(2025, 6, 30), dt.date(2025, 12, 1)) == ["PK-E", "PK-L"]
+    assert recalled(dt.date(2025, 1, 1), dt.date(2025, 12, 31), "alkaline") == ["PK-E"]
+    assert recalled(dt.date(2025, 12, 2), dt.date(2026, 1, 31)) == []
+    result = recall(
+        part=RecallPart.PACKS_MADE, made=MadeWithin(dt.date(2025, 7, 1), dt.date(2025, 12, 1))
+    )
+    assert result.value == "any chemistry, made 2025-07-01 to 2025-12-01"
+    with pytest.raises(ValueError):
+        MadeWithin(dt.date(2025, 12, 1), dt.date(2025, 7, 1))
+    with pytest.raises(ValueError):
+        recall(part=RecallPart.PACKS_MADE)

@@ -33,7 +33,8 @@ def search(request: HttpRequest) -> HttpResponse:
 @require_GET
 @require(roles.can_read)
 def recall_view(request: HttpRequest) -> HttpResponse:
-    """``?part=seal_lot|pack_serial&value=...[&since=YYYY-MM-DD][&export=csv]``."""
+    """``?part=seal_lot|pack_serial&value=...`` or ``?part=packs_made&made_from=…&made_to=…
+    [&chemistry=…]``, then ``[&since=YYYY-MM-DD][&export=csv]``."""
     form = RecallForm(request.GET or None)
     result = None
     if form.is_valid():
@@ -41,6 +42,7 @@ def recall_view(request: HttpRequest) -> HttpResponse:
             part=RecallPart(form.cleaned_data["part"]),
             value=form.cleaned_data["value"],
             since=form.cleaned_data["since"],
+            made=form.made(),
         )
         if request.GET.get("export") == "csv":
             return csv_rows_response(recall_csv_rows(result), "holdfast-recall.csv")

@@ -180,7 +180,7 @@ def test_the_recall_downloads_as_csv(as_viewer, recalled, unit):
 @pytest.mark.parametrize(
     ("params", "message"),
     [
-        ({"part": "seal_lot", "value": ""}, "This field is required."),
+        ({"part": "seal_lot", "value": ""}, "Give the lot or the pack serial."),
         ({"part": "seal_lot", "value": "x" * 41}, "at most 40 characters"),
         ({"part": "anode", "value": "L-7"}, "Select a valid choice."),
         ({"part": "seal_lot", "value": "L-7", "since": "2026-02-30"}, "Enter a valid date."),
@@ -347,3 +347,48 @@ def test_the_fleet_list_sorts_by_next_due_with_undated_units_last(
     ]:
         body = as_viewer.get("/units/", {"sort": sort}).content.decode()
         assert sorted(order, key=lambda s: body.index(f">{s}<")) == order
+
+
+@pytest.mark.parametrize(
+    ("params", "message"),
+    [
+        ({"part": "packs_made", "made_to": "2025-12-01"}, "Give the first day of manufacture"),
+        ({"part": "packs_made", "made_from": "2025-12-01"}, "Give the last day of manufacture"),
+        (
+            {"part": "packs_made", "made_from": "2025-12-01", "made_to": "2025-01-01"},
+            "The period ends before it begins.",
+        ),
+        (
+            {
+                "part": "packs_made",
+                "made_from": "2025-01-01",
+                "made_to": "2025-12-01",
+                "chemistry": "lead",
+            },
+            "Select a valid choice.",
+        ),
+    ],
+)
+def test_a_bad_period_recall_gets_a_message(as_viewer, params, message):
+    body = as_viewer.get("/recall/", params).content.decode()
+    assert message in body and "Still fitted" not in body
+
+
+def test_the_page_recalls_packs_made_in_a_period(as_viewer, unit, technician):
+    from fleet.models import BatteryInstall
+
+    fitted = BatteryInstall(
+        pack_serial="PK-9",
+        chemistry="alkaline",
+        nominal_voltage_v=31.5,
+        capacity_ah=17.0,
+        made_on=dt.date(2025, 11, 20),
+        installed_on=dt.date(2026, 1, 5),
+        ocv_install_v=33.1,
+    )
+    visit(unit, technician, t(2026, 1, 5, 9), fitted)
+    params = {"part": "packs_made", "made_from": "2025-11-01", "made_to": "2025-11-30"}
+    body = as_viewer.get("/recall/", params).content.decode()
+    assert "Alkaline" in body and "PK-9" in body and "1 fitted now" in body
+    csv = as_viewer.get("/recall/", {**params, "export": "csv"}).content.decode()
+    assert "PK-9" in csv

@@ -1,6 +1,6 @@
 """Vessel kits ashore and on board: export a copy of part of the fleet, pack it to come back.
 
-``kit_export`` (ashore, one transaction):
+``kit_export`` (ashore; the empty kit database is made first, the rest is one transaction):
 
 1. locks the chosen units, issues the next kit code (``K0001``, ``K0002``…) and reserves the
    kit's certificate numbers in the shore's counter (``reserve_certificates``);
@@ -9,10 +9,11 @@
    keeping every primary key and uid: the units, their whole history (records, every entry
    kind, amendments, deployments, certificates, hold changes, photos' rows without their
    files), their stored derived state (UnitState, AnodeState, SealState, DueRow), and every
-   row those point at (variants with their positions and reply charge steps, places, sites,
-   users), plus the chosen sites, the sailing users with their password hashes and roles (other
-   users the copied rows name come inactive, so they cannot sign in on board), the label
-   settings, and the kit's own row with ``here=True``;
+   row those point at (variants with their positions and reply charge steps, sites, users),
+   plus every place (a unit recovered on board goes to one), the chosen sites, the sailing
+   users with their password hashes and roles (other users the copied rows name come
+   inactive, so they cannot sign in on board), the label settings, and the kit's own row with
+   ``here=True``;
 3. sets the kit's certificate counters to its reserved ranges and its SQLite AUTOINCREMENT
    counters far above the shore's highest keys (``KEY_HEADROOM``), so a row made on board never
    takes a primary key the shore hands out meanwhile (the merge still matches by uid);
@@ -65,6 +66,7 @@ from fleet.models import (
     HoldChange,
     Kit,
     LabelSetting,
+    Place,
     ReleaseCertificate,
     ReleaseTest,
     ReplyChargeStep,
@@ -194,6 +196,9 @@ def _history(unit_ids: set[int]) -> dict[type[models.Model], set[Any]]:
         ReleaseCertificate.objects.filter(release_test__in=chosen[ReleaseTest])
     )
     chosen[LabelSetting] = _ids(LabelSetting.objects.all())
+    # Every place (a short list): a unit recovered on board goes to one, the vessel say, that
+    # its history may not name yet.
+    chosen[Place] = _ids(Place.objects.all())
     return chosen
 
 

@@ -120,6 +120,7 @@ TEMPLATES = [
                 "django.contrib.auth.context_processors.auth",
                 "django.contrib.messages.context_processors.messages",
                 "fleet.context_processors.role_flags",
+                "fleet.context_processors.vessel_kit",
             ],
         },
     },
@@ -133,6 +134,9 @@ _SQLITE_OPTIONS = {
     "init_command": "PRAGMA journal_mode=WAL; PRAGMA synchronous=NORMAL;",
     "timeout": 20,
 }
+
+# Also for the SQLite files a vessel kit opens beside the main database (fleet/kits/db.py).
+HOLDFAST_SQLITE_OPTIONS = dict(_SQLITE_OPTIONS)
 
 _database_url = os.environ.get("DATABASE_URL", "").strip()
 DATABASES: dict[str, Any]
@@ -184,6 +188,8 @@ MEDIA_URL = "media/"
 MEDIA_ROOT = Path(os.environ.get("MEDIA_ROOT", str(BASE_DIR / "media")))
 # Uploaded import files wait here, named by checksum, between the preview and the confirm.
 IMPORT_STAGING_ROOT = Path(os.environ.get("IMPORT_STAGING_ROOT", str(BASE_DIR / "import-staging")))
+# Vessel kit files made on the kits page, kept for download (named by kit code).
+KIT_FILES_ROOT = Path(os.environ.get("KIT_FILES_ROOT", str(BASE_DIR / "kit-files")))
 
 # Upload limits: workshop photos from a tablet camera, re-encoded on save.
 FILE_UPLOAD_MAX_MEMORY_SIZE = 10 * 1024 * 1024

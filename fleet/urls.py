@@ -9,6 +9,7 @@ from .views import (
     find,
     help,
     imports,
+    kits,
     media,
     planning,
     records,
@@ -73,6 +74,10 @@ urlpatterns = [
     # The admin's sign-in: ours (a technician gets our 403 page, not the framework's login).
     path("admin/login/", signin.admin_login, name="admin-login"),
     # Bringing history in from spreadsheets (supervisors)
+    path("kits/", kits.kit_list, name="kit-list"),
+    path("kits/new/", kits.kit_new, name="kit-new"),
+    path("kits/pack/", kits.kit_pack_view, name="kit-pack"),
+    path("kits/<str:code>/file/", kits.kit_file, name="kit-file"),
     path("import/", imports.import_page, name="import"),
     path("import/confirm/", imports.import_confirm, name="import-confirm"),
     path("import/templates/<str:kind>.csv", imports.import_template, name="import-template"),

@@ -149,6 +149,8 @@ def _pages(fleet, role):
             "/units/LY1-0001/hold/",
             "/import/",
             "/labels/contact/",
+            "/kits/",
+            "/kits/new/",
         ]
     return pages
 

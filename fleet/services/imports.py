@@ -399,7 +399,8 @@ def _entry(run: _Run, row: int, cells: Mapping[str, str], record: ServiceRecord)
     own = {c.name for c in columns} | set(_VISIT_COLUMN) | {cols.ENTRY_COLUMN}
     stray = [name for name, text in cells.items() if text and name not in own]
     for name in stray:
-        run.problem(row, name, f"Not used by a {kind.kind_label}; leave it blank.")
+        article = "an" if kind.kind_label[:1] in "aeiou" else "a"
+        run.problem(row, name, f"Not used by {article} {kind.kind_label}; leave it blank.")
     values, good = _values(run, row, kind, columns, cells, unit=record.unit)
     if not good or stray:
         return None

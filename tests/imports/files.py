@@ -16,7 +16,7 @@ def csv_bytes(rows, *, delimiter=",", bom=False) -> bytes:
 def anode_history(serials, *, rows: int, place: str, first=dt.date(2023, 1, 2)) -> list[list[str]]:
     """``rows`` anode readings (two per visit, positions "Anode 1" and "Anode 2"), a unit's
     visits a day apart and in date order, header first."""
-    table = [VISIT_HEADER]
+    table = [list(VISIT_HEADER)]  # a copy: tests add columns to it
     visits = rows // 2
     per_unit = -(-visits // len(serials))
     for n in range(visits):

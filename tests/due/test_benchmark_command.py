@@ -14,7 +14,17 @@ pytestmark = pytest.mark.django_db
 def test_it_builds_a_tiny_fleet_and_reports_every_scenario_against_the_goals(settings):
     settings.ALLOWED_HOSTS = ["localhost"]
     out = io.StringIO()
-    call_command("benchmark", quick=True, units=3, years=1, sizes="10,60", repeat=1, stdout=out)
+    call_command(
+        "benchmark",
+        quick=True,
+        units=3,
+        years=1,
+        sizes="10,60",
+        repeat=1,
+        import_rows=40,
+        photo_megapixels=0.3,
+        stdout=out,
+    )
     report = out.getvalue()
     assert Transponder.objects.count() == 5  # three of the fleet, one per size
     # The sized units: 10 readings -> 4 visits x 3 anodes; 60 -> 20 visits x 3 anodes.
@@ -30,10 +40,22 @@ def test_it_builds_a_tiny_fleet_and_reports_every_scenario_against_the_goals(set
         "checklist PDF",
         "rebuild_state --check",
         "planner peak MiB",
+        "overview SQL read",
+        "planner SQL read",
+        "fleet build s",
+        "import s",
+        "photo PNG peak MiB",
         "goals:",
         "planner under 1 s",
+        "rebuild_state s under 30 s",
+        "fleet evaluation peak MiB under 100 MiB",
+        "import peak MiB under 200 MiB",
+        "photo JPEG peak MiB under 100 MiB",
+        "anode chart @60 under 30 ms",
     ):
         assert line in report
+    # Everything the import wrote was rolled back.
+    assert not Transponder.objects.filter(serial__startswith="BENCH-").exists()
 
 
 def test_it_refuses_a_database_that_already_holds_units(unit):

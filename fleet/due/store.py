@@ -12,6 +12,7 @@ every later day with no write; ``rebuild_state --check`` proves stored == rebuil
 from __future__ import annotations
 
 import datetime as dt
+import gc
 from collections.abc import Iterator
 from contextlib import contextmanager
 from contextvars import ContextVar
@@ -178,7 +179,22 @@ def rebuild_all(*, at: dt.datetime) -> int:
     return len(unit_ids)
 
 
+@contextmanager
+def _collector_paused() -> Iterator[None]:
+    """Python's cycle collector off for one chunk: a chunk allocates some hundred thousand
+    short-lived rows and records, and each pass of the collector would scan them all (about
+    a third of the rebuild's time). What a chunk leaves in cycles is collected after it."""
+    enabled = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if enabled:
+            gc.enable()
+
+
 @transaction.atomic
+@_collector_paused()
 def _rebuild_chunk(unit_ids: list[int], *, at: dt.datetime) -> None:
     variants = Variant.objects.prefetch_related(*VARIANT_PREFETCH)
     units = list(

@@ -61,3 +61,20 @@ def test_it_builds_a_tiny_fleet_and_reports_every_scenario_against_the_goals(set
 def test_it_refuses_a_database_that_already_holds_units(unit):
     with pytest.raises(CommandError, match="empty scratch database"):
         call_command("benchmark", units=1, sizes="10", repeat=1)
+
+
+def test_the_fleet_builders_plain_rows_take_a_fresh_default_per_row_where_it_is_a_function():
+    # A unique token (here a calendar feed's; on records, a row's uid) must differ per row.
+    from django.contrib.auth import get_user_model
+
+    from fleet.management.commands.benchmark import _RawRows
+    from fleet.models.feeds import CalendarFeed
+
+    users = [get_user_model().objects.create_user(f"raw-{n}") for n in range(3)]
+    raw = _RawRows(CalendarFeed(user=users[0]), ("user_id",))
+    for user in users:
+        raw.add(user.pk)
+    raw.flush()
+    tokens = set(CalendarFeed.objects.values_list("token", flat=True))
+    assert len(tokens) == 3
+    assert CalendarFeed.objects.filter(created_at__isnull=False).count() == 3

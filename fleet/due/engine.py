@@ -469,6 +469,27 @@ class UnitEvaluation:
         return {s.step: s.charge_per_reply_as for s in self.unit.variant.reply_steps.all()}
 
 
+# What the engine reads of a unit's variant, and of its state beside the unit row.
+VARIANT_PREFETCH = ("anode_positions", "seal_positions", "reply_steps")
+_STATE_RELATED = (
+    "open_deployment",
+    "duty_deployment",
+    "duty_site",
+    "pack",
+    "last_pressure_test",
+    "last_release_test",
+    "last_temperature_check",
+    "last_pressure_check",
+    "last_tilt_check",
+)
+# The same read for a unit already loaded with its variant and place (three queries).
+UNIT_STATE_PREFETCH = (
+    Prefetch("state", queryset=UnitState.objects.select_related(*_STATE_RELATED)),
+    "anode_states",
+    "seal_states",
+)
+
+
 def fleet_queryset(
     queryset: QuerySet[Transponder] | None = None, *, share_variants: bool = False
 ) -> QuerySet[Transponder]:
@@ -480,26 +501,14 @@ def fleet_queryset(
     (one more) and each is one object shared by all its units, so its positions are loaded
     and attached once per variant instead of once per unit."""
     base = queryset if queryset is not None else Transponder.objects.all()
-    related = (
-        "place",
-        "state__open_deployment",
-        "state__duty_deployment",
-        "state__duty_site",
-        "state__pack",
-        "state__last_pressure_test",
-        "state__last_release_test",
-        "state__last_temperature_check",
-        "state__last_pressure_check",
-        "state__last_tilt_check",
-    )
-    positions = ("anode_positions", "seal_positions", "reply_steps")
+    related = ("place", *(f"state__{name}" for name in _STATE_RELATED))
     if share_variants:
-        variants = Variant.objects.prefetch_related(*positions)
+        variants = Variant.objects.prefetch_related(*VARIANT_PREFETCH)
         return base.select_related(*related).prefetch_related(
             "anode_states", "seal_states", Prefetch("variant", queryset=variants)
         )
     return base.select_related("variant", *related).prefetch_related(
-        "anode_states", "seal_states", *(f"variant__{name}" for name in positions)
+        "anode_states", "seal_states", *(f"variant__{name}" for name in VARIANT_PREFETCH)
     )
 
 

@@ -681,6 +681,11 @@ class Plan(_OfAPlan):
         ]
 
 
+# Units the planner reads at once: the same queries for any fleet up to this size, and
+# that many more for each further chunk; the memory of one chunk's rows at a time.
+PLAN_CHUNK = 2000
+
+
 def plan_campaign(planned: PlannedDeployment, *, wanted: int, on: dt.date) -> Plan:
     """Every active unit checked for the job; those that pass, most margin first.
 
@@ -695,10 +700,14 @@ def plan_campaign(planned: PlannedDeployment, *, wanted: int, on: dt.date) -> Pl
     units = fleet_queryset(annotate_condition(active, on), share_variants=True)
     rows = stored_rows(active)
     cache: dict[int, Rules] = {}
-    for unit in units:
-        ev = evaluate_stored(unit, rows.get(unit.pk, []), on=on, rules_cache=cache)
+    # Streamed by chunks (``PLAN_CHUNK``); each unit keeps only what the page shows of it
+    # (serial, variant) once checked, so the plan holds its results, not the fleet's rows.
+    for unit in units.iterator(chunk_size=PLAN_CHUNK):
+        ev = evaluate_stored(unit, rows.pop(unit.pk, []), on=on, rules_cache=cache)
         others = [s for s in clashes.get(ev.unit.acoustic_address, []) if s != ev.unit.serial]
         results.append(check_unit(ev, planned, address_clashes=others, memo=memo))
+        unit._prefetched_objects_cache = {}  # type: ignore[attr-defined]
+        unit._state.fields_cache.pop("state", None)
     candidates = sorted(
         (r for r in results if r.verdict != Verdict.FAIL),
         key=lambda r: (-r.verdict.rank, -r.margin, r.unit.serial),

@@ -14,12 +14,15 @@ Algorithm for one unit, run inside the transaction of every write that touches t
    transmit power step + release operations (``calc.battery.charge_used_ah``). Replies are
    the count made on recovery where there is one, else the planned rate.
 5. Last pressure test, and whether any housing opening after the end of its hold voids it
-   (``test_moment``); last release test and sensor checks.
+   (``hold_end``); last release test and sensor checks.
 6. The unit's last event (``as_of``): the latest moment a deployment went over the side or
    came back, or a bench visit opened. Every projection runs from there (``duty.py``).
 
-Recomputing one unit reads only that unit's records (a handful of queries). A whole-fleet
-evaluation then reads one row per item.
+The records are read as plain values by ``read_inputs``, for one unit or for a chunk of
+units in the same constant number of queries, and each unit's rows are derived alone by
+``derive`` (no query), so a write and ``rebuild_state`` run one derivation. A save at the end
+of the history brings the stored rows forward instead (``_refresh_after_visit``). A
+whole-fleet evaluation then reads one row per item.
 """
 
 import datetime as dt
@@ -54,13 +57,12 @@ from .days import OPEN_END, start_of
 from .duty import charge_per_reply_as, replies_in, replies_per_day
 
 
-def test_moment(test: PressureTest) -> dt.datetime:
+def hold_end(tested_on: dt.date, hold_ended_at: dt.time | None) -> dt.datetime:
     """When a pressure test's hold ended: its date and time of day, or the start of its day
     when no time was given (so any opening that day voids it: the safe side)."""
-    day = start_of(test.tested_on)
-    if test.hold_ended_at is None:
-        return day
-    return timezone.make_aware(dt.datetime.combine(test.tested_on, test.hold_ended_at))
+    if hold_ended_at is None:
+        return start_of(tested_on)
+    return timezone.make_aware(dt.datetime.combine(tested_on, hold_ended_at))
 
 
 def unit_readings(unit: Transponder, position_ids: list[int]) -> QuerySet[AnodeReading]:
@@ -158,21 +160,189 @@ def _walk(
         anodes[reading[0]].take(reading, visits[record_id], x_at[record_id])
 
 
-def _refresh_anodes(
+# --- the inputs ---------------------------------------------------------------------------
+# The derivation reads each unit's records as plain values, for one unit (a write) or for a
+# chunk of units at once (``rebuild_state``) through the same readers: a constant number of
+# queries per call, whatever the number of units or the length of their histories.
+
+# The orderings that pick "the latest": written once, for the SQL of every reader.
+_FITTED_PACK_ORDER = ("-installed_on", "-pk")
+_PRESSURE_ORDER = ("-tested_on", "-record__opened_at", "-pk")
+_RELEASE_ORDER = ("-tested_on", "-pk")
+# (pk, tested on, hold ended at, its visit opened at)
+PressureRow = tuple[int, dt.date, dt.time | None, dt.datetime]
+# (position, its visit opened at, cure date, material)
+SealChangeRow = tuple[int, dt.datetime, dt.date | None, str]
+# A housing opening as (opened at, its visit opened at).
+Opening = tuple[dt.datetime, dt.datetime]
+# A deployment as (pk, over the side, recovered or None).
+Span = tuple[int, dt.datetime, dt.datetime | None]
+# Ids in one ``IN (...)`` at most (SQLite's old bound on parameters, with room to spare).
+_IN_BATCH = 900
+
+
+@dataclass(slots=True)
+class UnitInputs:
+    """Everything the state of one unit is derived from (``derive``)."""
+
+    pack: BatteryInstall | None = None
+    spans: list[Span] = field(default_factory=list)  # every deployment, in time order
+    # As records, only those the state names or charges to the pack (``_needed``).
+    deployments: list[Deployment] = field(default_factory=list)
+    visits: dict[int, dt.datetime] = field(default_factory=dict)  # pk -> opened at
+    readings: list[tuple[Any, ...]] = field(default_factory=list)  # _READING_FIELDS, in order
+    seal_changes: list[SealChangeRow] = field(default_factory=list)  # oldest first
+    openings: list[Opening] = field(default_factory=list)  # oldest first
+    release_tests: list[tuple[int, dt.date]] = field(default_factory=list)  # latest first
+    last_pressure_test: PressureRow | None = None
+    checks: list[tuple[str, int]] = field(default_factory=list)  # (sensor, pk), oldest first
+
+
+def fitted_pack(unit: Transponder) -> BatteryInstall | None:
+    """The pack no removal has taken out (the latest fitted, should there be more)."""
+    return (
+        BatteryInstall.objects.filter(unit=unit, removal__isnull=True)
+        .order_by(*_FITTED_PACK_ORDER)
+        .first()
+    )
+
+
+def _seal_changes(unit_ids: list[int]) -> dict[int, list[SealChangeRow]]:
+    by_unit: dict[int, list[SealChangeRow]] = {}
+    for unit_id, *row in (
+        SealChange.objects.filter(record__unit_id__in=unit_ids)
+        .order_by("record__unit_id", "record__opened_at", "pk")
+        .values_list("record__unit_id", "position_id", "record__opened_at", "cure_date", "material")
+    ):
+        by_unit.setdefault(unit_id, []).append(tuple(row))  # type: ignore[arg-type]
+    return by_unit
+
+
+def _checks(unit_ids: list[int]) -> dict[int, list[tuple[str, int]]]:
+    by_unit: dict[int, list[tuple[str, int]]] = {}
+    for unit_id, sensor, pk in (
+        SensorCheck.objects.filter(record__unit_id__in=unit_ids)
+        .order_by("record__unit_id", "checked_on", "pk")
+        .values_list("record__unit_id", "sensor", "pk")
+    ):
+        by_unit.setdefault(unit_id, []).append((sensor, pk))
+    return by_unit
+
+
+def _needed(spans: list[Span], pack: BatteryInstall | None) -> list[int]:
+    """The deployments read as records: the open one, the last recovered one, and those
+    recovered after the pack's day."""
+    closed = [pk for pk, _, back in spans if back is not None]
+    since = start_of(pack.installed_on) if pack is not None else None
+    return [
+        pk
+        for pk, _, back in spans
+        if back is None or (closed and pk == closed[-1]) or (since is not None and back > since)
+    ]
+
+
+def _in_batches(ids: list[int]) -> list[list[int]]:
+    return [ids[i : i + _IN_BATCH] for i in range(0, len(ids), _IN_BATCH)]
+
+
+def read_inputs(units: list[Transponder]) -> dict[int, UnitInputs]:
+    """The inputs of ``units`` (their variants' positions loaded or shared), by unit id, in
+    a constant number of queries (one per kind of record, more only past 900 deployments
+    to read as records): every record read as plain values except the few the state names."""
+    inputs = {unit.pk: UnitInputs() for unit in units}
+    _read_deployments(inputs)
+    positions = {p.pk for unit in units for p in unit.variant.anode_positions.all()}
+    _read_visits(inputs, sorted(positions))
+    _read_tests(inputs)
+    return inputs
+
+
+def _read_deployments(inputs: dict[int, UnitInputs]) -> None:
+    """The fitted pack, every deployment's span, and the deployments the state needs."""
+    unit_ids = list(inputs)
+    for install in BatteryInstall.objects.filter(
+        unit_id__in=unit_ids, removal__isnull=True
+    ).order_by("unit_id", *_FITTED_PACK_ORDER):
+        if inputs[install.unit_id].pack is None:
+            inputs[install.unit_id].pack = install
+    for unit_id, *span in (
+        Deployment.objects.filter(unit_id__in=unit_ids)
+        .order_by("unit_id", "over_side_at", "pk")
+        .values_list("unit_id", "pk", "over_side_at", "recovered_at")
+    ):
+        inputs[unit_id].spans.append(tuple(span))  # type: ignore[arg-type]
+    wanted = [pk for i in inputs.values() for pk in _needed(i.spans, i.pack)]
+    for batch in _in_batches(wanted):
+        for deployment in (
+            Deployment.objects.filter(pk__in=batch)
+            .select_related("site")
+            .order_by("unit_id", "over_side_at", "pk")
+        ):
+            inputs[deployment.unit_id].deployments.append(deployment)
+
+
+def _read_visits(inputs: dict[int, UnitInputs], positions: list[int]) -> None:
+    """The visits, the anode readings at ``positions``, seal changes and housing openings."""
+    unit_ids = list(inputs)
+    for unit_id, pk, opened in (
+        ServiceRecord.objects.filter(unit_id__in=unit_ids)
+        .order_by("unit_id", "pk")
+        .values_list("unit_id", "pk", "opened_at")
+    ):
+        inputs[unit_id].visits[pk] = opened
+    for unit_id, *reading in (
+        AnodeReading.objects.filter(record__unit_id__in=unit_ids)
+        .alias(position_no=F("position_id") + 0)  # as ``unit_readings``: through the visits
+        .filter(position_no__in=positions)
+        .order_by("record__unit_id", "record__opened_at", "pk")
+        .values_list("record__unit_id", *_READING_FIELDS)
+    ):
+        inputs[unit_id].readings.append(tuple(reading))
+    for unit_id, changes in _seal_changes(unit_ids).items():
+        inputs[unit_id].seal_changes = changes
+    for unit_id, *opening in (
+        HousingOpening.objects.filter(record__unit_id__in=unit_ids)
+        .order_by("record__unit_id", "opened_at", "pk")
+        .values_list("record__unit_id", "opened_at", "record__opened_at")
+    ):
+        inputs[unit_id].openings.append(tuple(opening))  # type: ignore[arg-type]
+
+
+def _read_tests(inputs: dict[int, UnitInputs]) -> None:
+    """Release tests (latest first), the last pressure test, and sensor checks."""
+    unit_ids = list(inputs)
+    for unit_id, pk, tested_on in (
+        ReleaseTest.objects.filter(record__unit_id__in=unit_ids)
+        .order_by("record__unit_id", *_RELEASE_ORDER)
+        .values_list("record__unit_id", "pk", "tested_on")
+    ):
+        inputs[unit_id].release_tests.append((pk, tested_on))
+    for unit_id, *test in (
+        PressureTest.objects.filter(record__unit_id__in=unit_ids)
+        .order_by("record__unit_id", *_PRESSURE_ORDER)
+        .values_list("record__unit_id", "pk", "tested_on", "hold_ended_at", "record__opened_at")
+    ):
+        if inputs[unit_id].last_pressure_test is None:
+            inputs[unit_id].last_pressure_test = tuple(test)  # type: ignore[assignment]
+    for unit_id, checks in _checks(unit_ids).items():
+        inputs[unit_id].checks = checks
+
+
+# --- the derivation -----------------------------------------------------------------------
+
+
+def _anode_rows(
     unit: Transponder,
     intervals: list[tuple[dt.datetime, dt.datetime | None]],
     visits: dict[int, dt.datetime],
-) -> None:
-    """Step 2: rewrite the unit's anode rows from its readings, read as plain values (no
-    model per reading, no date per reading: ``visits`` holds each visit's opening) with
-    every visit's immersed days found in one pass. Each row also keeps its base: the same
-    over every visit but the latest, from which a save of that visit starts."""
+    all_readings: list[tuple[Any, ...]],
+) -> list[AnodeState]:
+    """Step 2: the unit's anode rows from its readings, read as plain values (no model per
+    reading, no date per reading: ``visits`` holds each visit's opening) with every visit's
+    immersed days found in one pass. Each row also keeps its base: the same over every
+    visit but the latest, from which a save of that visit starts."""
     new_kg = _new_kg(unit)
-    readings = list(
-        unit_readings(unit, list(new_kg))
-        .order_by("record__opened_at", "pk")
-        .values_list(*_READING_FIELDS)
-    )
+    readings = [r for r in all_readings if r[0] in new_kg]
     x_at = dict(zip(visits, immersed_days_at_each(intervals, visits.values()), strict=True))
     latest = max(visits, key=lambda pk: (visits[pk], pk), default=None)
     anodes = {pk: _Anode(kg) for pk, kg in new_kg.items()}
@@ -192,27 +362,19 @@ def _refresh_anodes(
         anode.write(row)
         bases[pk].write(row, "base_")
         rows.append(row)
-    AnodeState.objects.filter(unit=unit).delete()
-    AnodeState.objects.bulk_create(rows)
+    return rows
 
 
-# A housing opening as (opened at, its visit opened at).
-Opening = tuple[dt.datetime, dt.datetime]
-
-
-def _refresh_seals(unit: Transponder, openings_after: Callable[[dt.datetime], int]) -> None:
-    """Step 3: rewrite the unit's seal rows: the last change per position and the openings
-    in visits after the one that fitted it (``openings_after``)."""
-    seal_positions = list(unit.variant.seal_positions.all())
+def _seal_rows(
+    unit: Transponder, changes: list[SealChangeRow], openings_after: Callable[[dt.datetime], int]
+) -> list[SealState]:
+    """Step 3: the unit's seal rows: the last change per position and the openings in
+    visits after the one that fitted it (``openings_after``)."""
     latest_change: dict[int, tuple[dt.datetime, dt.date | None, str]] = {}
-    for position_id, fitted, cure_date, material in (
-        SealChange.objects.filter(record__unit=unit)
-        .order_by("record__opened_at", "pk")
-        .values_list("position_id", "record__opened_at", "cure_date", "material")
-    ):
+    for position_id, fitted, cure_date, material in changes:
         latest_change[position_id] = (fitted, cure_date, material)
     seal_rows = []
-    for position in seal_positions:
+    for position in unit.variant.seal_positions.all():
         fitted_change = latest_change.get(position.pk)
         row = SealState(unit=unit, position=position)
         if fitted_change is not None:
@@ -221,16 +383,24 @@ def _refresh_seals(unit: Transponder, openings_after: Callable[[dt.datetime], in
             # Openings during the fitting visit came before the new ring went in.
             row.openings_since_fit = openings_after(fitted)
         seal_rows.append(row)
+    return seal_rows
+
+
+def _write_seals(unit: Transponder, rows: list[SealState]) -> None:
     SealState.objects.filter(unit=unit).delete()
-    SealState.objects.bulk_create(seal_rows)
+    SealState.objects.bulk_create(rows)
 
 
 def _pack_tally(
-    unit: Transponder, pack: BatteryInstall | None, recovered: list[tuple[Deployment, dt.datetime]]
+    unit: Transponder,
+    pack: BatteryInstall | None,
+    recovered: list[tuple[Deployment, dt.datetime]],
+    release_tests: int,
 ) -> tuple[float, int]:
     """Step 4: the fitted pack's charge used (A h) and its release operations, over the
     recovered deployments since it went in (``recovered`` holds at least every deployment
-    recovered after the pack's day, in time order)."""
+    recovered after the pack's day, in time order); ``release_tests``: those tested since
+    the pack's day."""
     variant = unit.variant
     steps = {s.step: s.charge_per_reply_as for s in variant.reply_steps.all()}
     if pack is None:
@@ -250,9 +420,7 @@ def _pack_tally(
         )
         if variant.release_fitted and recovered_at >= fitted_from:
             pack_releases += 1  # the release fired to bring the unit up
-    pack_releases += ReleaseTest.objects.filter(
-        record__unit=unit, tested_on__gte=pack.installed_on
-    ).count()
+    pack_releases += release_tests
     pack_charge = (
         charge_used_ah(
             hours, variant.listen_current_a, 0, 0.0, pack_releases, variant.release_charge_as
@@ -262,63 +430,109 @@ def _pack_tally(
     return pack_charge, pack_releases
 
 
-def _deployments(
-    unit: Transponder, pack: BatteryInstall | None
-) -> tuple[list[tuple[dt.datetime, dt.datetime | None]], list[Deployment]]:
-    """Step 1: every deployment's interval, as plain values, and as records only those the
-    state names or charges to the pack: the open one, the last recovered one, and those
-    recovered after the pack's day (two queries, whatever the unit's history)."""
-    spans = list(
-        Deployment.objects.filter(unit=unit)
-        .order_by("over_side_at")
-        .values_list("pk", "over_side_at", "recovered_at")
-    )
-    last_closed = [pk for pk, _, back in spans if back is not None][-1:]
-    wanted = Q(recovered_at__isnull=True) | Q(pk__in=last_closed)
-    if pack is not None:
-        wanted |= Q(recovered_at__gt=start_of(pack.installed_on))
-    needed = (
-        list(
-            Deployment.objects.filter(unit=unit)
-            .filter(wanted)
-            .select_related("site")
-            .order_by("over_side_at")
-        )
-        if spans
-        else []
-    )
-    return [(over, back) for _, over, back in spans], needed
-
-
-def _latest_checks(unit: Transponder) -> dict[str, int]:
-    """Step 5: the latest sensor check of each sensor, by primary key."""
-    latest: dict[str, int] = {}
-    for sensor, pk in (
-        SensorCheck.objects.filter(record__unit=unit)
-        .order_by("checked_on", "pk")
-        .values_list("sensor", "pk")
-    ):
-        latest[sensor] = pk
-    return latest
-
-
-def _last_pressure_test(
-    unit: Transponder, voided_by: Callable[[dt.datetime, dt.datetime], bool]
-) -> tuple[PressureTest | None, bool]:
-    """Step 5: the last pressure test, and whether an opening after it voids it
-    (``voided_by(end of the hold, its visit's opening)``)."""
-    last_test = (
-        PressureTest.objects.filter(record__unit=unit)
-        .select_related("record")
-        .order_by("-tested_on", "-record__opened_at", "-pk")
-        .first()
-    )
+def _tests_and_checks(
+    last_test: PressureRow | None,
+    last_release: int | None,
+    checks: list[tuple[str, int]],
+    voided_by: Callable[[dt.datetime, dt.datetime], bool],
+) -> dict[str, object]:
+    """Step 5's fields of the unit's state row: the last pressure test, and whether an
+    opening after it voids it (``voided_by(end of the hold, its visit's opening)``); the
+    last release test; the latest check of each sensor."""
     voided = False
     if last_test is not None:
-        tested_at = test_moment(last_test)
-        visit_at = last_test.record.opened_at
-        voided = voided_by(tested_at, visit_at)
-    return last_test, voided
+        pk, tested_on, hold_ended_at, visit_at = last_test
+        voided = voided_by(hold_end(tested_on, hold_ended_at), visit_at)
+    latest: dict[str, int] = {}
+    for sensor, pk in checks:
+        latest[sensor] = pk
+    return {
+        "last_pressure_test_id": last_test[0] if last_test is not None else None,
+        "test_voided_by_opening": voided,
+        "last_release_test_id": last_release,
+        "last_temperature_check_id": latest.get(SensorCheck.Sensor.TEMPERATURE),
+        "last_pressure_check_id": latest.get(SensorCheck.Sensor.PRESSURE),
+        "last_tilt_check_id": latest.get(SensorCheck.Sensor.TILT),
+    }
+
+
+@dataclass(slots=True)
+class Derived:
+    """One unit's state rows, unsaved."""
+
+    state: UnitState
+    anodes: list[AnodeState]
+    seals: list[SealState]
+
+
+def derive(unit: Transponder, inputs: UnitInputs, *, at: dt.datetime) -> Derived:
+    """The unit's state rows from its whole history (``read_inputs``); no query when the
+    unit's variant comes with its positions and reply steps loaded."""
+    pack = inputs.pack
+    intervals = [(over, back) for _, over, back in inputs.spans]
+    closed_intervals = [(over, back) for over, back in intervals if back is not None]
+    deployments = inputs.deployments
+    recovered = [(d, d.recovered_at) for d in deployments if d.recovered_at is not None]
+    open_deployment = next((d for d in deployments if d.recovered_at is None), None)
+    visits = inputs.visits
+    openings = inputs.openings
+    anodes = _anode_rows(unit, intervals, visits, inputs.readings)
+    seals = _seal_rows(
+        unit,
+        inputs.seal_changes,
+        lambda fitted: sum(1 for _, visit in openings if visit > fitted),
+    )
+    since_pack = sum(1 for _, on in inputs.release_tests if on >= pack.installed_on) if pack else 0
+    pack_charge, pack_releases = _pack_tally(unit, pack, recovered, since_pack)
+    tests = _tests_and_checks(
+        inputs.last_pressure_test,
+        inputs.release_tests[0][0] if inputs.release_tests else None,
+        inputs.checks,
+        lambda tested, visit_at: any(
+            opened > tested or visit > visit_at for opened, visit in openings
+        ),
+    )
+    events = [over for over, _ in intervals] + [back for _, back in closed_intervals]
+    events += visits.values()
+    duty = open_deployment or (recovered[-1][0] if recovered else None)
+    state = UnitState(
+        unit=unit,
+        refreshed_at=at,
+        as_of=max(events, default=None),
+        immersed_days_closed=immersed_days(closed_intervals, OPEN_END),
+        first_over_side_at=intervals[0][0] if intervals else None,
+        open_deployment=open_deployment,
+        duty_deployment=duty,
+        duty_replies_per_day=replies_per_day(duty) if duty else None,
+        duty_site=duty.site if duty else None,
+        pack=pack,
+        pack_charge_used_ah=pack_charge,
+        pack_releases=pack_releases,
+        last_opening_at=openings[-1][0] if openings else None,
+        **tests,
+    )
+    return Derived(state, anodes, seals)
+
+
+def write_derived(unit_ids: list[int], derived: list[Derived]) -> None:
+    """Replace the state rows of ``unit_ids`` with ``derived``, in bulk."""
+    for model in (UnitState, AnodeState, SealState):
+        model.objects.filter(unit_id__in=unit_ids).delete()
+    UnitState.objects.bulk_create([d.state for d in derived], batch_size=500)
+    AnodeState.objects.bulk_create([r for d in derived for r in d.anodes], batch_size=500)
+    SealState.objects.bulk_create([r for d in derived for r in d.seals], batch_size=500)
+
+
+def refresh_states(units: list[Transponder], *, at: dt.datetime) -> None:
+    """Derive every unit's state rows again from its whole history and write them: the
+    inputs read for all of ``units`` at once, each unit derived alone (``derive``, as for
+    one unit), the rows written in bulk. Run inside a transaction that locks the units."""
+    inputs = read_inputs(units)
+    derived = [derive(unit, inputs[unit.pk], at=at) for unit in units]
+    write_derived([unit.pk for unit in units], derived)
+
+
+# --- a save at the end of the history -----------------------------------------------------
 
 
 def _appendable(unit: Transponder, visit: ServiceRecord) -> UnitState | None:
@@ -371,24 +585,6 @@ def _anodes_after_visit(
     return True
 
 
-def _tests_and_checks(
-    unit: Transponder, voided_by: Callable[[dt.datetime, dt.datetime], bool]
-) -> dict[str, object]:
-    """Step 5's fields of the unit's state row."""
-    last_test, voided = _last_pressure_test(unit, voided_by)
-    latest_check = _latest_checks(unit)
-    return {
-        "last_pressure_test": last_test,
-        "test_voided_by_opening": voided,
-        "last_release_test": (
-            ReleaseTest.objects.filter(record__unit=unit).order_by("-tested_on", "-pk").first()
-        ),
-        "last_temperature_check_id": latest_check.get(SensorCheck.Sensor.TEMPERATURE),
-        "last_pressure_check_id": latest_check.get(SensorCheck.Sensor.PRESSURE),
-        "last_tilt_check_id": latest_check.get(SensorCheck.Sensor.TILT),
-    }
-
-
 def _refresh_after_visit(
     unit: Transponder, visit: ServiceRecord, *, new_visit: bool, at: dt.datetime
 ) -> UnitState | None:
@@ -399,7 +595,8 @@ def _refresh_after_visit(
     The deployments are unchanged and all ended by the visit, so the deployment fields stay
     and the visit's immersed days are the closed total (the same float ``immersed_days_at_each``
     gives: the same spans, added in the same order). Seal openings and the pressure test's
-    voiding are counted in SQL; the pack's tally reads only deployments since its day."""
+    voiding are counted in SQL; the pack's tally reads only deployments since its day. The
+    rest goes through the same functions as ``derive``."""
     state = _appendable(unit, visit)
     if state is None or not _anodes_after_visit(
         unit, visit, new_visit=new_visit, x=state.immersed_days_closed
@@ -413,19 +610,33 @@ def _refresh_after_visit(
             counted[fitted] = openings.filter(record__opened_at__gt=fitted).count()
         return counted[fitted]
 
-    _refresh_seals(unit, openings_after)
-    pack = BatteryInstall.objects.filter(unit=unit, removal__isnull=True).first()
+    _write_seals(unit, _seal_rows(unit, _seal_changes([unit.pk]).get(unit.pk, []), openings_after))
+    pack = fitted_pack(unit)
     since_pack = (
         Deployment.objects.filter(unit=unit, recovered_at__gt=start_of(pack.installed_on))
         if pack is not None
         else Deployment.objects.none()
     )
     recovered = [(d, d.recovered_at) for d in since_pack.order_by("over_side_at") if d.recovered_at]
+    release_tests = ReleaseTest.objects.filter(record__unit=unit)
     values: dict[str, object] = {"refreshed_at": at, "as_of": visit.opened_at, "pack": pack}
-    values["pack_charge_used_ah"], values["pack_releases"] = _pack_tally(unit, pack, recovered)
-    values["last_opening_at"] = openings.aggregate(last=Max("opened_at"))["last"]
-    values |= _tests_and_checks(
+    values["pack_charge_used_ah"], values["pack_releases"] = _pack_tally(
         unit,
+        pack,
+        recovered,
+        release_tests.filter(tested_on__gte=pack.installed_on).count() if pack else 0,
+    )
+    values["last_opening_at"] = openings.aggregate(last=Max("opened_at"))["last"]
+    last_test: PressureRow | None = (
+        PressureTest.objects.filter(record__unit=unit)
+        .order_by(*_PRESSURE_ORDER)
+        .values_list("pk", "tested_on", "hold_ended_at", "record__opened_at")
+        .first()
+    )
+    values |= _tests_and_checks(
+        last_test,
+        release_tests.order_by(*_RELEASE_ORDER).values_list("pk", flat=True).first(),
+        _checks([unit.pk]).get(unit.pk, []),
         lambda tested, visit_at: openings.filter(
             Q(opened_at__gt=tested) | Q(record__opened_at__gt=visit_at)
         ).exists(),
@@ -436,7 +647,7 @@ def _refresh_after_visit(
     return state
 
 
-@transaction.atomic
+@transaction.atomic(savepoint=False)
 def refresh_unit_state(
     unit: Transponder,
     *,
@@ -457,49 +668,7 @@ def refresh_unit_state(
 
 def _refresh_whole(unit: Transponder, *, at: dt.datetime) -> UnitState:
     """Rewrite the unit's state rows from its whole history, in a constant number of
-    queries: the readings are read as plain values, the other records only as far as the
-    state needs them."""
-    pack = BatteryInstall.objects.filter(unit=unit, removal__isnull=True).first()
-    intervals, deployments = _deployments(unit, pack)
-    closed_intervals = [(over, back) for over, back in intervals if back is not None]
-    recovered = [(d, d.recovered_at) for d in deployments if d.recovered_at is not None]
-    open_deployment = next((d for d in deployments if d.recovered_at is None), None)
-
-    visits = dict(ServiceRecord.objects.filter(unit=unit).values_list("pk", "opened_at"))
-    _refresh_anodes(unit, intervals, visits)
-    openings: list[Opening] = list(
-        HousingOpening.objects.filter(record__unit=unit)
-        .order_by("opened_at")
-        .values_list("opened_at", "record__opened_at")
-    )
-    _refresh_seals(unit, lambda fitted: sum(1 for _, visit in openings if visit > fitted))
-    pack_charge, pack_releases = _pack_tally(unit, pack, recovered)
-    tests = _tests_and_checks(
-        unit,
-        lambda tested, visit_at: any(
-            opened > tested or visit > visit_at for opened, visit in openings
-        ),
-    )
-
-    events = [over for over, _ in intervals] + [back for _, back in closed_intervals]
-    events += visits.values()
-    duty = open_deployment or (recovered[-1][0] if recovered else None)
-    state, _ = UnitState.objects.update_or_create(
-        unit=unit,
-        defaults={
-            "refreshed_at": at,
-            "as_of": max(events, default=None),
-            "immersed_days_closed": immersed_days(closed_intervals, OPEN_END),
-            "first_over_side_at": intervals[0][0] if intervals else None,
-            "open_deployment": open_deployment,
-            "duty_deployment": duty,
-            "duty_replies_per_day": replies_per_day(duty) if duty else None,
-            "duty_site": duty.site if duty else None,
-            "pack": pack,
-            "pack_charge_used_ah": pack_charge,
-            "pack_releases": pack_releases,
-            "last_opening_at": openings[-1][0] if openings else None,
-            **tests,
-        },
-    )
-    return state
+    queries: ``refresh_states`` for one unit."""
+    derived = derive(unit, read_inputs([unit])[unit.pk], at=at)
+    write_derived([unit.pk], [derived])
+    return derived.state

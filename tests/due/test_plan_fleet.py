@@ -151,7 +151,8 @@ def test_the_planner_costs_the_same_queries_for_20_and_2000_units(
     assert Transponder.objects.count() == 2000
     # Units in the water at the site (1); the units with their state and condition (1);
     # anode states, seal states, the variants, their anode positions, seal positions and
-    # reply steps, the due rows (1 each). None of them grows with the fleet.
+    # reply steps, the due rows (1 each). None of them grows with the fleet (read by chunks of
+    # ``PLAN_CHUNK`` = 2,000 units: one chunk here).
     assert count() == small
     assert small <= 10
 

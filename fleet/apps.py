@@ -1,5 +1,5 @@
 from django.apps import AppConfig
-from django.db.models.signals import post_migrate
+from django.db.models.signals import post_delete, post_migrate, post_save
 
 
 def _ensure_groups(sender: AppConfig, **kwargs: object) -> None:
@@ -16,3 +16,10 @@ class FleetConfig(AppConfig):
     def ready(self) -> None:
         # Groups (not logins) are part of the schema's contract: create them after every migrate.
         post_migrate.connect(_ensure_groups, sender=self)
+        # Which kit this database is, is cached per process: read it again after a change.
+        from .kits.identity import forget_current_kit
+
+        kit = self.get_model("Kit")
+        post_save.connect(forget_current_kit, sender=kit, dispatch_uid="kit-here-saved")
+        post_delete.connect(forget_current_kit, sender=kit, dispatch_uid="kit-here-deleted")
+        post_migrate.connect(forget_current_kit, sender=self, dispatch_uid="kit-here-migrated")

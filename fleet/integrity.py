@@ -307,3 +307,48 @@ def reguard_entry_table_operation(table: str, amendable: Sequence[str]) -> Any:
         return [*drop, *create], []
 
     return _pair(build, table)
+
+
+def reguard_record_table_operation() -> Any:
+    """Drop and create again the guard of the service record table (its triggers; the functions
+    and the marker table are kept), for a migration that rebuilds that table on SQLite."""
+
+    def build(vendor: str, cols: list[str]) -> tuple[list[str], list[str]]:
+        create, _ = record_guard_sql(vendor, cols)
+        table = RECORD_TABLE
+        if vendor == "postgresql":
+            drop = [f"DROP TRIGGER IF EXISTS {_trigger_name(table)} ON {table};"]
+        elif vendor == "sqlite":
+            drop = [
+                f"DROP TRIGGER IF EXISTS {_trigger_name(table, '_update')};",
+                f"DROP TRIGGER IF EXISTS {_trigger_name(table, '_delete')};",
+            ]
+        else:
+            drop = []
+        return [*drop, *create], []
+
+    return _pair(build, RECORD_TABLE)
+
+
+def unguard_tables_operation(tables: Sequence[str]) -> Any:
+    """Drop the guard triggers of ``tables`` (the service record table and entry tables), to be
+    created again at the end of the same migration. On SQLite, rebuilding the service record
+    table fails while the entry tables' triggers name it, so a migration that rebuilds it drops
+    them all first."""
+    tables = tuple(tables)
+
+    def forward(apps: Any, schema_editor: BaseDatabaseSchemaEditor) -> None:
+        vendor = schema_editor.connection.vendor
+        for table in tables:
+            if vendor == "postgresql":
+                _run(schema_editor, [f"DROP TRIGGER IF EXISTS {_trigger_name(table)} ON {table};"])
+            elif vendor == "sqlite":
+                _run(
+                    schema_editor,
+                    [
+                        f"DROP TRIGGER IF EXISTS {_trigger_name(table, '_update')};",
+                        f"DROP TRIGGER IF EXISTS {_trigger_name(table, '_delete')};",
+                    ],
+                )
+
+    return migrations.RunPython(forward, migrations.RunPython.noop, elidable=False)

@@ -128,3 +128,14 @@ def _flush_through_the_purge_door() -> None:
 def pytest_configure(config):
     if config.pluginmanager.hasplugin("django"):
         _flush_through_the_purge_door()
+
+
+@pytest.fixture(autouse=True)
+def _kit_read_afresh():
+    # Which kit the database is, is cached per process; a test's rollback removes a Kit row
+    # without a signal, so every test starts and ends reading it afresh.
+    from fleet.kits.identity import forget_current_kit
+
+    forget_current_kit()
+    yield
+    forget_current_kit()

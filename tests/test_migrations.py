@@ -63,3 +63,60 @@ def test_old_statuses_map_to_holds_with_the_reason_carried_over():
         "M-5": ("retired", "carried over", True),
         "M-6": ("lost", "carried over", True),
     }
+
+
+@pytest.mark.django_db(transaction=True)
+def test_rows_older_than_kits_keep_no_uid_and_new_rows_each_get_their_own():
+    # A callable default on AddField would give every existing row the same uuid: the
+    # migration adds the column empty, then the default for new rows.
+    before, after = [("fleet", "0021_anode_state_base_sums")], [("fleet", "0022_kit_identity")]
+    executor = MigrationExecutor(connection)
+    executor.migrate(before)
+    old = executor.loader.project_state(before).apps
+    variant = old.get_model("fleet", "Variant").objects.create(
+        name="Old variant",
+        depth_rating_m=1500.0,
+        housing_alloy="al6061",
+        cells_in_series=21,
+        parallel_strings=1,
+        listen_current_a=0.0002,
+    )
+    unit = old.get_model("fleet", "Transponder").objects.create(
+        serial="M-1", variant=variant, acoustic_address="1", turnaround_delay_ms=12.5
+    )
+    user = old.get_model("auth", "User").objects.create(username="old-hand")
+    HoldChange = old.get_model("fleet", "HoldChange")
+    for reason in ("first", "second"):
+        HoldChange.objects.create(
+            unit=unit,
+            from_hold="none",
+            to_hold="quarantined",
+            reason=reason,
+            set_by=user,
+            set_at="2026-01-05T10:00:00Z",
+        )
+
+    executor = MigrationExecutor(connection)
+    executor.loader.build_graph()
+    executor.migrate(after)
+    new = executor.loader.project_state(after).apps
+    NewChange = new.get_model("fleet", "HoldChange")
+    kept = list(NewChange.objects.values_list("uid", "origin"))
+    for reason in ("third", "fourth"):
+        NewChange.objects.create(
+            unit_id=unit.pk,
+            from_hold="none",
+            to_hold="quarantined",
+            reason=reason,
+            set_by_id=user.pk,
+            set_at="2026-01-06T10:00:00Z",
+        )
+    made = list(
+        NewChange.objects.filter(reason__in=["third", "fourth"]).values_list("uid", flat=True)
+    )
+    executor = MigrationExecutor(connection)
+    executor.loader.build_graph()
+    executor.migrate(executor.loader.graph.leaf_nodes())
+    assert kept == [(None, ""), (None, "")]
+    assert None not in made
+    assert len(set(made)) == 2

@@ -5,6 +5,7 @@ from .deployments import Deployment
 from .documents import CertificateCounter, ReleaseCertificate
 from .feeds import CalendarFeed
 from .imports import ImportBatch, ImportedRow
+from .kits import Kit
 from .places import Place, Site
 from .preferences import LabelSetting
 from .records import (
@@ -51,6 +52,7 @@ __all__ = [
     "HousingOpening",
     "ImportBatch",
     "ImportedRow",
+    "Kit",
     "LabelSetting",
     "PackRemoval",
     "Place",

@@ -6,11 +6,12 @@ from django.contrib.contenttypes.models import ContentType
 from django.core.validators import MaxLengthValidator
 from django.db import models
 
+from .kits import Stamped, origin_field, uid_field
 from .records import ServiceRecord
 from .validators import REASON_MAX_CHARS
 
 
-class Amendment(models.Model):
+class Amendment(Stamped):
     record = models.ForeignKey(ServiceRecord, on_delete=models.PROTECT, related_name="amendments")
     target_type = models.ForeignKey(ContentType, on_delete=models.PROTECT)
     target_id = models.PositiveBigIntegerField()
@@ -25,6 +26,8 @@ class Amendment(models.Model):
         settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+"
     )
     created_at = models.DateTimeField(auto_now_add=True)
+    uid = uid_field()
+    origin = origin_field()
 
     class Meta:
         ordering = ["created_at", "pk"]

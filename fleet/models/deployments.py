@@ -7,12 +7,13 @@ from django.db import models
 from django.db.models import Q
 from django.utils import timezone
 
+from .kits import Stamped, origin_field, uid_field
 from .places import Site
 from .units import Transponder, check_power_step
 from .validators import DATE_VALIDATORS, SUMMARY_MAX_CHARS, within_date_bounds
 
 
-class Deployment(models.Model):
+class Deployment(Stamped):
     unit = models.ForeignKey(Transponder, on_delete=models.PROTECT, related_name="deployments")
     site = models.ForeignKey(Site, on_delete=models.PROTECT, related_name="deployments")
     over_side_at = models.DateTimeField("over the side", validators=[*DATE_VALIDATORS])
@@ -60,6 +61,8 @@ class Deployment(models.Model):
     )
     override_at = models.DateTimeField(null=True, blank=True, editable=False)
     override_checks = models.TextField(blank=True, editable=False)
+    uid = uid_field()
+    origin = origin_field()
 
     class Meta:
         ordering = ["-over_side_at"]

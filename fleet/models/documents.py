@@ -15,6 +15,7 @@ from django.db import models
 from django.db.models import Q
 
 from .audit import Amendment
+from .kits import Stamped, origin_field, uid_field
 from .records import ReleaseTest
 from .validators import REASON_MAX_CHARS
 
@@ -34,7 +35,7 @@ class CertificateCounter(models.Model):
         return f"{self.year}: {self.last_number}"
 
 
-class ReleaseCertificate(models.Model):
+class ReleaseCertificate(Stamped):
     class Status(models.TextChoices):
         ISSUED = "issued", "Issued"
         SUPERSEDED = "superseded", "Superseded"
@@ -93,6 +94,8 @@ class ReleaseCertificate(models.Model):
         related_name="invalidated_certificates",
         help_text="The amendment that made this certificate not valid.",
     )
+    uid = uid_field()
+    origin = origin_field()
 
     class Meta:
         ordering = ["-year", "-sequence"]

@@ -25,6 +25,7 @@ from django.utils.text import capfirst
 from fleet.calc.seawater import pressure_dbar
 from fleet.formatting import quantity, signed, yes_no
 
+from .kits import Stamped, origin_field, uid_field
 from .places import Place
 from .units import Transponder
 from .validators import (
@@ -45,7 +46,7 @@ def _not_future_date(value: dt.date | None, field: str, errors: dict[str, str]) 
         errors[field] = "This date is in the future."
 
 
-class ServiceRecord(models.Model):
+class ServiceRecord(Stamped):
     unit = models.ForeignKey(Transponder, on_delete=models.PROTECT, related_name="service_records")
     opened_at = models.DateTimeField("opened", validators=[*DATE_VALIDATORS])
     closed_at = models.DateTimeField("closed", null=True, blank=True)
@@ -71,6 +72,8 @@ class ServiceRecord(models.Model):
         settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+", null=True, blank=True
     )
     version = models.PositiveIntegerField(default=1)
+    uid = uid_field()
+    origin = origin_field()
 
     class Meta:
         ordering = ["-opened_at", "-pk"]
@@ -111,7 +114,7 @@ class ServiceRecord(models.Model):
             raise ValidationError({"opened_at": "The visit cannot start in the future."})
 
 
-class Entry(models.Model):
+class Entry(Stamped):
     """Common part of every entry: the record it belongs to.
 
     Each concrete subclass is an entry kind and declares, once, what the pages, the amendment
@@ -121,6 +124,8 @@ class Entry(models.Model):
     """
 
     record = models.ForeignKey(ServiceRecord, on_delete=models.CASCADE, related_name="+")
+    uid = uid_field()
+    origin = origin_field()
 
     kind_label = "entry"
     # Formset prefix on the bench-visit page (it names the posted fields: keep it stable).
@@ -176,7 +181,7 @@ class Entry(models.Model):
             f.name
             for f in cls._meta.concrete_fields
             if not f.primary_key
-            and f.name not in ("record", "unit")
+            and f.name not in ("record", "unit", "uid", "origin")
             and not isinstance(f, models.FileField)
         )
 

@@ -12,6 +12,7 @@ from django.db import models
 from django.db.models import Q
 from django.urls import reverse
 
+from .kits import Stamped, origin_field, uid_field
 from .places import Place
 from .validators import REASON_MAX_CHARS, SUMMARY_MAX_CHARS, finite
 from .variants import Variant
@@ -130,7 +131,7 @@ def check_power_step(variant: Variant, step: int, field: str) -> None:
         )
 
 
-class HoldChange(models.Model):
+class HoldChange(Stamped):
     """One change of a unit's hold, with who made it, when and why (the unit keeps the latest)."""
 
     unit = models.ForeignKey(Transponder, on_delete=models.CASCADE, related_name="hold_changes")
@@ -141,6 +142,8 @@ class HoldChange(models.Model):
     )
     set_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+")
     set_at = models.DateTimeField()
+    uid = uid_field()
+    origin = origin_field()
 
     class Meta:
         ordering = ["-set_at", "-pk"]

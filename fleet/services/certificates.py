@@ -9,6 +9,11 @@ Numbering: the year's counter row is locked with ``select_for_update`` (a row lo
 PostgreSQL; on SQLite the IMMEDIATE transaction already holds the database write lock), so
 two supervisors issuing at once get consecutive numbers, never the same one. The unique
 constraints on (year, sequence) and on the number are the backstop.
+
+On a vessel kit, numbers come from the range the shore reserved for the kit when it exported
+it (``Kit.certificate_range``; docs/kits.md): issuing past its end, or in a year the kit holds
+no range for, is refused with the reason, and the certificate is issued ashore after the
+merge. So a number issued at sea is never issued ashore too.
 """
 
 import datetime as dt
@@ -22,6 +27,7 @@ from django.utils import timezone
 
 from fleet.due.acceptance import release_test_failures, release_valid_to
 from fleet.due.rules import rules_for
+from fleet.kits.identity import current_kit
 from fleet.models import CertificateCounter, ReleaseCertificate, ReleaseTest, Transponder
 
 
@@ -31,8 +37,35 @@ def _lock_unit_of(rows: QuerySet[Any], unit_path: str) -> None:
     list(Transponder.objects.select_for_update().filter(pk=unit_id).values_list("pk"))
 
 
+def _kit_refusal(year: int, last_number: int) -> tuple[str, int]:
+    """On a vessel kit: why the next number of ``year`` cannot be issued here ("" when it can),
+    and the last number before the kit's range (the counter starts there)."""
+    kit = current_kit()
+    if kit is None:
+        return "", last_number
+    span = kit.certificate_range(year)
+    if span is None:
+        return (
+            f"This vessel copy ({kit.code}) holds no certificate numbers for {year}: issue the "
+            "certificate ashore after the merge.",
+            last_number,
+        )
+    first, last = span
+    if max(last_number, first - 1) >= last:
+        return (
+            f"This vessel copy ({kit.code}) has issued all {last - first + 1} certificate "
+            f"numbers reserved for it in {year} ({first} to {last}): issue this certificate "
+            "ashore after the merge.",
+            last_number,
+        )
+    return "", max(last_number, first - 1)
+
+
 def _next_number(year: int) -> tuple[int, str]:
     counter, _ = CertificateCounter.objects.select_for_update().get_or_create(year=year)
+    refusal, counter.last_number = _kit_refusal(year, counter.last_number)
+    if refusal:
+        raise ValidationError(refusal, code="kit_range_used")
     counter.last_number += 1
     counter.save(update_fields=["last_number"])
     return counter.last_number, f"RC-{year}-{counter.last_number:04d}"

@@ -395,3 +395,25 @@ def test_every_entry_kind_and_the_record_table_keep_their_guard_after_every_migr
     tables = [ServiceRecord._meta.db_table, *(k._meta.db_table for k in entry_kinds())]
     unguarded = [t for t in tables if not _triggers_on(t)]
     assert unguarded == []
+
+
+def test_the_database_refuses_changing_the_identity_of_a_closed_record_or_its_entry(closed):
+    # uid and origin are how a kit's rows are recognised on the merge: frozen once closed,
+    # even through the amending door.
+    import uuid
+
+    from fleet.integrity import amending
+
+    record, reading = closed
+    for model, pk in ((ServiceRecord, record.pk), (AnodeReading, reading.pk)):
+        _refused(lambda model=model, pk=pk: model.objects.filter(pk=pk).update(uid=uuid.uuid4()))
+        _refused(lambda model=model, pk=pk: model.objects.filter(pk=pk).update(origin="K0009"))
+
+        def through_the_door(model=model, pk=pk) -> None:
+            with amending():
+                model.objects.filter(pk=pk).update(uid=uuid.uuid4())
+
+        _refused(through_the_door)
+    record.refresh_from_db()
+    assert record.origin == ""
+    assert record.uid is not None

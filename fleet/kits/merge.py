@@ -556,16 +556,13 @@ class _Planner:
             for x in r.kit_rows_of(model, kit_unit)
             if x.uid is not None
         }
-        kit_pks = {
-            (model, x.pk)
-            for model in (ServiceRecord, Deployment)
-            for x in r.kit_rows_of(model, kit_unit)
-        }
         for model in (ServiceRecord, Deployment):
+            # Made ashore since the export (every such row has a uid; a kit row's primary key
+            # says nothing ashore).
             for row in model._base_manager.filter(unit=unit, created_at__gt=self.t):
-                if str(row.uid) in kit_uids or (model, row.pk) in kit_pks:
+                if str(row.uid) in kit_uids:
                     continue
-                if row.origin and row.origin != "":
+                if row.origin:
                     continue  # merged from a kit (this one's earlier return, or another)
                 shore_spans.append(_span(row, row))
         self._compare_spans(unit, shore_spans, vessel_spans)

@@ -10,15 +10,23 @@ from django.utils import timezone
 from fleet.due.snapshot import rebuild_differences
 from fleet.kits.merge import plan_merge
 from fleet.models import (
+    Amendment,
     AnodeReading,
     Deployment,
+    HoldChange,
     KitConflict,
     KitMerge,
+    ReleaseCertificate,
     ReleaseTest,
     ServiceRecord,
+    Transponder,
+    UnitHold,
 )
+from fleet.services.certificates import certificate_issue
+from fleet.services.fleet import unit_hold_set
 from fleet.services.deployments import deployment_recover, deployment_start
-from fleet.services.kit_merge import conflict_resolve, merge_apply_from
+from fleet.services.kit_merge import CertificateClashError, conflict_resolve, merge_apply_from
+from fleet.services.records import amendment_create, service_record_close, service_record_save
 from tests.builders import make_unit, serviced_unit
 from tests.documents.conftest import bench_visit, release_test
 from tests.kits.merge_helpers import kit_copy, make_kit, on_board
@@ -159,3 +167,261 @@ def test_a_deployment_on_board_while_the_shore_had_the_unit_on_the_bench_is_a_co
         merge_apply_from(alias, code="K0002", file_sha256=SHA2, by=supervisor)
         assert KitConflict.objects.count() == 1
         assert not Deployment.objects.filter(origin="K0002").exists()
+
+
+def _open_visit(unit, by, when):
+    position = unit.variant.anode_positions.first()
+    return bench_visit(unit, by, AnodeReading(position=position, mass_g=310.0), when=when)
+
+
+def test_a_visit_open_at_export_and_closed_on_board_is_closed_ashore_through_the_services(
+    three, technician, supervisor, tmp_path
+):
+    a = three[0]
+    now = timezone.now()
+    visit = _open_visit(a, technician, now - dt.timedelta(hours=6))
+    kit = make_kit(code="K0003", units=three, by=supervisor)
+    with kit_copy(kit, tmp_path) as alias:
+        with on_board(alias):
+            record = ServiceRecord.objects.get(pk=visit.pk)
+            service_record_save(
+                record=record, entries=[release_test(tested_on=timezone.localdate())], by=technician
+            )
+            service_record_close(record=record, by=supervisor, at=now - dt.timedelta(hours=1))
+        plan = plan_merge(alias, code="K0003", file_sha256=SHA)
+        assert plan.conflicts == []
+        assert [c.what for c in plan.changes] == ["bench visits worked on board"]
+        merge = merge_apply_from(alias, code="K0003", file_sha256=SHA, by=supervisor)
+        visit.refresh_from_db()
+        assert visit.closed_at == now - dt.timedelta(hours=1)
+        assert visit.closed_by == supervisor
+        assert visit.release_tests.get().origin == "K0003"
+        assert visit.anode_readings.count() == 1
+        assert merge.rows_changed == 1 and merge.counts == {"entries": 1}
+        _clean_rebuild()
+        again = merge_apply_from(alias, code="K0003", file_sha256=SHA2, by=supervisor)
+        assert again.rows_added == 0 and again.rows_changed == 0
+        assert not again.conflicts.exists()
+
+
+def test_a_visit_closed_on_both_sides_is_a_conflict_and_the_vessel_s_entries_can_stand_beside(
+    three, technician, supervisor, tmp_path
+):
+    a = three[0]
+    now = timezone.now()
+    visit = _open_visit(a, technician, now - dt.timedelta(hours=6))
+    kit = make_kit(code="K0004", units=three, by=supervisor)
+    with kit_copy(kit, tmp_path) as alias:
+        with on_board(alias):
+            record = ServiceRecord.objects.get(pk=visit.pk)
+            service_record_save(
+                record=record, entries=[release_test(tested_on=timezone.localdate())], by=technician
+            )
+            service_record_close(record=record, by=supervisor, at=now - dt.timedelta(hours=1))
+        service_record_close(record=visit, by=supervisor, at=now - dt.timedelta(hours=2))
+        plan = plan_merge(alias, code="K0004", file_sha256=SHA)
+        assert [c.kind for c in plan.conflicts] == [KitConflict.Kind.CLOSED_TWICE]
+        merge = merge_apply_from(alias, code="K0004", file_sha256=SHA, by=supervisor)
+        assert merge.rows_added == 0
+        assert not ReleaseTest.objects.filter(origin="K0004").exists()
+        conflict = merge.conflicts.get()
+        conflict_resolve(conflict=conflict, choice="add_vessel", by=supervisor, note="both real")
+        test = ReleaseTest.objects.get(origin="K0004")
+        assert test.record != visit and test.record.closed_at is not None
+        assert "kit K0004" in test.record.summary
+        _clean_rebuild()
+        with pytest.raises(ValidationError, match="resolved already"):
+            conflict_resolve(conflict=conflict, choice="keep_shore", by=supervisor)
+
+
+def test_a_deployment_in_the_water_at_export_recovered_on_board_is_recovered_ashore(
+    three, technician, supervisor, site, tmp_path
+):
+    a = three[0]
+    now = timezone.now()
+    deployment = _deploy(a, site, technician, now - dt.timedelta(days=2))
+    kit = make_kit(code="K0005", units=three, by=supervisor)
+    with kit_copy(kit, tmp_path) as alias:
+        with on_board(alias):
+            deployment_recover(
+                deployment=Deployment.objects.get(pk=deployment.pk),
+                recovered_at=now - dt.timedelta(hours=1),
+                replies_counted=77,
+                place=None,
+                by=technician,
+            )
+        plan = plan_merge(alias, code="K0005", file_sha256=SHA)
+        assert [c.what for c in plan.changes] == ["recoveries"]
+        merge_apply_from(alias, code="K0005", file_sha256=SHA, by=supervisor)
+        deployment.refresh_from_db()
+        assert deployment.recovered_at == now - dt.timedelta(hours=1)
+        assert deployment.replies_counted == 77
+        _clean_rebuild()
+
+
+def test_both_sides_deploying_one_unit_at_once_is_a_unit_in_two_places(
+    three, technician, supervisor, site, tmp_path
+):
+    b = three[1]
+    now = timezone.now()
+    kit = make_kit(code="K0006", units=three, by=supervisor)
+    with kit_copy(kit, tmp_path) as alias:
+        with on_board(alias):
+            _deploy(b, site, technician, now - dt.timedelta(hours=8), now - dt.timedelta(hours=2))
+        _deploy(b, site, technician, now - dt.timedelta(hours=5))
+        plan = plan_merge(alias, code="K0006", file_sha256=SHA)
+        assert [c.kind for c in plan.conflicts] == [KitConflict.Kind.TWO_PLACES]
+        merge = merge_apply_from(alias, code="K0006", file_sha256=SHA, by=supervisor)
+        assert merge.conflicts.count() == 1
+        assert Deployment.objects.filter(unit=b, origin="K0006").count() == 0
+        _clean_rebuild()
+
+
+def _closed_visit(unit, technician, supervisor, when):
+    return bench_visit(
+        unit,
+        technician,
+        release_test(tested_on=timezone.localdate(when)),
+        when=when,
+        close_at=when + dt.timedelta(hours=1),
+        closer=supervisor,
+    )
+
+
+def test_an_amendment_made_on_board_is_made_ashore_and_keeps_its_identity(
+    three, technician, supervisor, tmp_path
+):
+    a = three[0]
+    now = timezone.now()
+    visit = _closed_visit(a, technician, supervisor, now - dt.timedelta(hours=9))
+    test = visit.release_tests.get()
+    kit = make_kit(code="K0007", units=three, by=supervisor)
+    with kit_copy(kit, tmp_path) as alias:
+        with on_board(alias):
+            made = amendment_create(
+                record=ServiceRecord.objects.get(pk=visit.pk),
+                target=ReleaseTest.objects.get(pk=test.pk),
+                field_name="seconds_to_release",
+                corrected_value="14.5",
+                reason="Stopwatch read again",
+                by=supervisor,
+            )
+        merge = merge_apply_from(alias, code="K0007", file_sha256=SHA, by=supervisor)
+        assert merge.counts == {"amendments": 1}
+        test.refresh_from_db()
+        assert test.seconds_to_release == 14.5
+        ashore = Amendment.objects.get(origin="K0007")
+        assert ashore.uid == made.uid and ashore.reason == "Stopwatch read again"
+        _clean_rebuild()
+
+
+def test_one_value_amended_on_both_sides_is_a_conflict_the_supervisor_settles(
+    three, technician, supervisor, tmp_path
+):
+    a = three[0]
+    now = timezone.now()
+    visit = _closed_visit(a, technician, supervisor, now - dt.timedelta(hours=9))
+    test = visit.release_tests.get()
+    kit = make_kit(code="K0008", units=three, by=supervisor)
+    with kit_copy(kit, tmp_path) as alias:
+        with on_board(alias):
+            amendment_create(
+                record=ServiceRecord.objects.get(pk=visit.pk),
+                target=ReleaseTest.objects.get(pk=test.pk),
+                field_name="seconds_to_release",
+                corrected_value="14.5",
+                reason="Stopwatch read again on board",
+                by=supervisor,
+            )
+        amendment_create(
+            record=ServiceRecord.objects.get(pk=visit.pk),
+            target=test,
+            field_name="seconds_to_release",
+            corrected_value="13",
+            reason="Video checked ashore",
+            by=supervisor,
+        )
+        plan = plan_merge(alias, code="K0008", file_sha256=SHA)
+        assert [c.kind for c in plan.conflicts] == [KitConflict.Kind.AMENDED_TWICE]
+        merge = merge_apply_from(alias, code="K0008", file_sha256=SHA, by=supervisor)
+        test.refresh_from_db()
+        assert test.seconds_to_release == 13
+        conflict = merge.conflicts.get()
+        assert conflict.vessel_version[0]["fields"]["corrected_value"] == "14.5"
+        assert conflict.shore_version[0]["fields"]["corrected_value"] == "13.0"
+        conflict_resolve(conflict=conflict, choice="take_vessel", by=supervisor)
+        test.refresh_from_db()
+        assert test.seconds_to_release == 14.5
+        assert Amendment.objects.filter(record=visit).count() == 2
+        _clean_rebuild()
+
+
+def test_a_hold_set_on_board_is_set_ashore_and_a_hold_changed_on_both_sides_is_a_conflict(
+    three, technician, supervisor, tmp_path
+):
+    a, b, _ = three
+    kit = make_kit(code="K0009", units=three, by=supervisor)
+    with kit_copy(kit, tmp_path) as alias:
+        with on_board(alias):
+            for unit in (a, b):
+                unit_hold_set(
+                    unit=Transponder.objects.get(pk=unit.pk),
+                    hold=UnitHold.QUARANTINED,
+                    reason="Flood alarm on deck",
+                    by=supervisor,
+                    at=timezone.now(),
+                )
+        unit_hold_set(
+            unit=b, hold=UnitHold.RETIRED, reason="End of life", by=supervisor, at=timezone.now()
+        )
+        merge = merge_apply_from(alias, code="K0009", file_sha256=SHA, by=supervisor)
+        a.refresh_from_db()
+        b.refresh_from_db()
+        assert a.hold == UnitHold.QUARANTINED and a.hold_reason == "Flood alarm on deck"
+        assert HoldChange.objects.filter(unit=a, origin="K0009").count() == 1
+        assert b.hold == UnitHold.RETIRED
+        assert [c.kind for c in merge.conflicts.all()] == [KitConflict.Kind.HOLD_TWICE]
+        _clean_rebuild()
+
+
+def test_a_certificate_issued_on_board_comes_in_with_its_number_from_the_kit_s_range(
+    three, technician, supervisor, tmp_path
+):
+    a = three[0]
+    now = timezone.now()
+    kit = make_kit(code="K0001", units=three, by=supervisor)
+    with kit_copy(kit, tmp_path) as alias:
+        with on_board(alias):
+            visit = _closed_visit(a, technician, supervisor, now - dt.timedelta(hours=5))
+            issued = certificate_issue(
+                release_test=visit.release_tests.get(), by=supervisor, at=timezone.now()
+            )
+        merge = merge_apply_from(alias, code="K0001", file_sha256=SHA, by=supervisor)
+        assert merge.counts == {"bench visits": 1, "entries": 1, "release certificates": 1}
+        ashore = ReleaseCertificate.objects.get(number=issued.number)
+        assert ashore.uid == issued.uid and ashore.release_test.record.unit_id == a.pk
+        assert ashore.verification_code == issued.verification_code
+        _clean_rebuild()
+
+
+def test_a_certificate_number_taken_ashore_refuses_the_whole_merge(
+    three, technician, supervisor, tmp_path
+):
+    a, b, _ = three
+    now = timezone.now()
+    kit = make_kit(code="K0001", units=three, by=supervisor)
+    with kit_copy(kit, tmp_path) as alias:
+        with on_board(alias):
+            visit = _closed_visit(a, technician, supervisor, now - dt.timedelta(hours=5))
+            issued = certificate_issue(
+                release_test=visit.release_tests.get(), by=supervisor, at=timezone.now()
+            )
+        shore_visit = _closed_visit(b, technician, supervisor, now - dt.timedelta(hours=5))
+        clash = certificate_issue(
+            release_test=shore_visit.release_tests.get(), by=supervisor, at=timezone.now()
+        )
+        ReleaseCertificate.objects.filter(pk=clash.pk).update(number=issued.number)
+        with pytest.raises(CertificateClashError, match="already used ashore"):
+            merge_apply_from(alias, code="K0001", file_sha256=SHA, by=supervisor)
+        assert not KitMerge.objects.exists()
+        assert not ServiceRecord.objects.filter(origin="K0001").exists()

@@ -53,6 +53,7 @@ from fleet.models import (
     Site,
     Transponder,
 )
+from fleet.models.kits import kit_here
 from fleet.models.records import Entry, entry_kinds
 
 Choice = KitConflict.Choice
@@ -349,7 +350,9 @@ class KitReader:
         # uid -> shore pk, for the kit's uids found ashore.
         self.shore_pk: dict[type[models.Model], dict[str, int]] = {}
         for model in identified_models():
-            kit_rows = {r.pk: r for r in model._base_manager.using(alias).order_by("pk")}
+            kit_rows: dict[int, Any] = {
+                r.pk: r for r in model._base_manager.using(alias).order_by("pk")
+            }
             self.rows[model] = kit_rows
             uids = [str(r.uid) for r in kit_rows.values() if r.uid is not None]
             found: dict[str, int] = {}
@@ -1115,6 +1118,14 @@ def new_uid() -> str:
 
 def plan_merge(alias: str, *, code: str, file_sha256: str) -> MergePlan:
     """What merging the kit database at ``alias`` (kit ``code``) would do; reads only."""
+    if kit_here() is not None:
+        raise MergeRefusedError(
+            "This database is itself a vessel kit; a return file is merged ashore."
+        )
+    if Kit.objects.using(alias).filter(here=True, code=code).count() != 1:
+        raise MergeRefusedError(
+            f"The file's database is not kit {code}'s own (no kit row marked as here)."
+        )
     kit = Kit.objects.filter(code=code).first()
     if kit is None:
         raise MergeRefusedError(

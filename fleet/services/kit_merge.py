@@ -254,7 +254,9 @@ class _Applier:
         record = ServiceRecord.objects.get(pk=data["record"])
         by = _user(data.get("by"), self.by)
         for name, value in data["fields"].items():
-            f = ServiceRecord._meta.get_field(name.removesuffix("_id"))
+            f = cast(
+                "models.Field[Any, Any]", ServiceRecord._meta.get_field(name.removesuffix("_id"))
+            )
             setattr(record, f.attname, value if f.is_relation else f.to_python(value))
         entries: list[Entry] = []
         for item in data["new"]:

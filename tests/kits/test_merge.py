@@ -23,8 +23,8 @@ from fleet.models import (
     UnitHold,
 )
 from fleet.services.certificates import certificate_issue
-from fleet.services.fleet import unit_hold_set
 from fleet.services.deployments import deployment_recover, deployment_start
+from fleet.services.fleet import unit_hold_set
 from fleet.services.kit_merge import CertificateClashError, conflict_resolve, merge_apply_from
 from fleet.services.records import amendment_create, service_record_close, service_record_save
 from tests.builders import make_unit, serviced_unit

@@ -2,10 +2,10 @@ from django.apps import AppConfig
 from django.db.models.signals import post_delete, post_migrate, post_save
 
 
-def _ensure_groups(sender: AppConfig, **kwargs: object) -> None:
+def _ensure_groups(sender: AppConfig, using: str = "default", **kwargs: object) -> None:
     from .roles import ensure_groups
 
-    ensure_groups()
+    ensure_groups(using)
 
 
 class FleetConfig(AppConfig):

@@ -45,14 +45,16 @@ def can_supervise(user: User) -> bool:
     return SUPERVISOR in role_names(user)
 
 
-def ensure_groups() -> None:
+def ensure_groups(using: str = "default") -> None:
     """Create the three groups and give supervisors the model permissions the admin needs."""
+    groups = Group.objects.db_manager(using)
+    permissions = Permission.objects.db_manager(using)
     for name in ROLES:
-        Group.objects.get_or_create(name=name)
-    supervisor = Group.objects.get(name=SUPERVISOR)
+        groups.get_or_create(name=name)
+    supervisor = groups.get(name=SUPERVISOR)
     # Supervisors also see and clear sign-in locks (django-axes' access attempts).
     supervisor.permissions.set(
-        Permission.objects.filter(
+        permissions.filter(
             Q(content_type__app_label="fleet")
             | Q(
                 content_type__app_label="axes",
@@ -60,7 +62,7 @@ def ensure_groups() -> None:
             )
         )
     )
-    viewer = Group.objects.get(name=VIEWER)
+    viewer = groups.get(name=VIEWER)
     viewer.permissions.set(
-        Permission.objects.filter(content_type__app_label="fleet", codename__startswith="view_")
+        permissions.filter(content_type__app_label="fleet", codename__startswith="view_")
     )

@@ -134,6 +134,9 @@ _SQLITE_OPTIONS = {
     "timeout": 20,
 }
 
+# Also for the SQLite files a vessel kit opens beside the main database (fleet/kits/db.py).
+HOLDFAST_SQLITE_OPTIONS = dict(_SQLITE_OPTIONS)
+
 _database_url = os.environ.get("DATABASE_URL", "").strip()
 DATABASES: dict[str, Any]
 if _database_url:

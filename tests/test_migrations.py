@@ -85,9 +85,9 @@ def test_rows_older_than_kits_keep_no_uid_and_new_rows_each_get_their_own():
         serial="M-1", variant=variant, acoustic_address="1", turnaround_delay_ms=12.5
     )
     user = old.get_model("auth", "User").objects.create(username="old-hand")
-    HoldChange = old.get_model("fleet", "HoldChange")
+    old_change = old.get_model("fleet", "HoldChange")
     for reason in ("first", "second"):
-        HoldChange.objects.create(
+        old_change.objects.create(
             unit=unit,
             from_hold="none",
             to_hold="quarantined",
@@ -100,10 +100,10 @@ def test_rows_older_than_kits_keep_no_uid_and_new_rows_each_get_their_own():
     executor.loader.build_graph()
     executor.migrate(after)
     new = executor.loader.project_state(after).apps
-    NewChange = new.get_model("fleet", "HoldChange")
-    kept = list(NewChange.objects.values_list("uid", "origin"))
+    new_change = new.get_model("fleet", "HoldChange")
+    kept = list(new_change.objects.values_list("uid", "origin"))
     for reason in ("third", "fourth"):
-        NewChange.objects.create(
+        new_change.objects.create(
             unit_id=unit.pk,
             from_hold="none",
             to_hold="quarantined",
@@ -112,7 +112,7 @@ def test_rows_older_than_kits_keep_no_uid_and_new_rows_each_get_their_own():
             set_at="2026-01-06T10:00:00Z",
         )
     made = list(
-        NewChange.objects.filter(reason__in=["third", "fourth"]).values_list("uid", flat=True)
+        new_change.objects.filter(reason__in=["third", "fourth"]).values_list("uid", flat=True)
     )
     executor = MigrationExecutor(connection)
     executor.loader.build_graph()

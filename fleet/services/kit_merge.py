@@ -32,7 +32,7 @@ import hashlib
 from collections.abc import Iterator, Mapping, Sequence
 from contextlib import contextmanager
 from pathlib import Path
-from typing import Any, Protocol, cast
+from typing import Any, cast
 
 from django.apps import apps
 from django.contrib.auth.models import User
@@ -42,6 +42,8 @@ from django.utils import timezone
 
 from fleet import roles
 from fleet.due.store import refresh_unit, refreshing_once
+from fleet.kits.db import kit_database
+from fleet.kits.files import DATABASE_MEMBER, KitFile
 from fleet.kits.merge import (
     Change,
     Conflict,
@@ -73,14 +75,6 @@ from fleet.services.records import amendment_create, service_record_close, servi
 Choice = KitConflict.Choice
 
 
-class KitFile(Protocol):
-    """What ``fleet.kits.files.read_kit_file`` returns, as far as a merge reads it."""
-
-    kit_code: str
-    direction: str
-    db_path: Path
-
-
 _REFUSALS = (ValidationError, PermissionDenied, IntegrityError, DatabaseError, MergeRefusedError)
 
 
@@ -98,9 +92,13 @@ def file_sha256(path: Path) -> str:
 
 
 def _sha_of(kit_file: KitFile) -> str:
-    given = getattr(kit_file, "sha256", None) or getattr(kit_file, "file_sha256", None)
-    if given:
-        return str(given)
+    """The return file's identity: the SHA-256 of its database as its manifest records it
+    (``read_kit_file`` checked the two agree). Opening the database changes its bytes, so it
+    is never hashed again here."""
+    files = kit_file.manifest.get("files") if isinstance(kit_file.manifest, dict) else None
+    entry = files.get(DATABASE_MEMBER) if isinstance(files, dict) else None
+    if isinstance(entry, dict) and entry.get("sha256"):
+        return str(entry["sha256"])
     return file_sha256(Path(kit_file.db_path))
 
 
@@ -453,8 +451,6 @@ def _lock_units(serials: list[str]) -> list[Transponder]:
 
 @contextmanager
 def _opened(kit_file: KitFile) -> Iterator[str]:
-    from fleet.kits.db import kit_database
-
     with kit_database(kit_file.db_path) as alias:
         yield alias
 

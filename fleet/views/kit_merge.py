@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import tempfile
 from pathlib import Path
+from typing import Any
 
 from django.contrib import messages
 from django.core.exceptions import ValidationError
@@ -117,10 +118,33 @@ def kit_merge_result(request: AuthenticatedRequest, pk: int) -> HttpResponse:
         "fleet/kit_merge_result.html",
         {
             "merge": merge,
-            "conflicts": [(c, forms[c.pk]) for c in conflicts],
+            "conflicts": [(c, forms[c.pk], _sides(c)) for c in conflicts],
             "open_conflicts": sum(1 for c in conflicts if not c.is_resolved),
         },
     )
+
+
+def _side_rows(side: str, rows: list[dict[str, Any]]) -> list[dict[str, Any]]:
+    shown = []
+    for row in rows:
+        what = row.get("model") or f"change ({row.get('change', '')})"
+        values = row.get("fields") or row.get("payload") or {}
+        shown.append(
+            {
+                "title": f"{side} {what}",
+                "text": row.get("text", ""),
+                "values": [(name, "(none)" if v is None else v) for name, v in values.items()],
+            }
+        )
+    return shown
+
+
+def _sides(conflict: KitConflict) -> dict[str, list[dict[str, Any]]]:
+    """Both sides of a conflict as the page lists them: each row's line and every value."""
+    return {
+        "shore": _side_rows("Shore", list(conflict.shore_version or [])),
+        "vessel": _side_rows("Vessel", list(conflict.vessel_version or [])),
+    }
 
 
 @require_POST

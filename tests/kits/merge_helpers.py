@@ -1,70 +1,44 @@
-"""Kit databases for the merge tests, and writing on board through the services.
+"""Kits for the merge tests, and writing on board through the services.
 
-Until a kit file is needed, a kit database is a copy of the test database (``VACUUM INTO``)
-marked as the kit (its Kit row ``here``); ``on_board`` makes it the default database for a
-while, so the services write there as the vessel's laptop would. A test using these needs
-``transaction=True`` (the copy sees only committed rows).
+``exported_kit`` exports a kit as the shore does (``kit_export``), unpacks its file and opens
+its database; ``on_board`` makes that database the default one for a while, so the services
+write there as they do on the vessel's laptop.
 """
 
-import datetime as dt
 import itertools
-from collections.abc import Iterator
+from collections.abc import Iterator, Sequence
 from contextlib import contextmanager
 from pathlib import Path
 
+from django.contrib.auth.models import User
 from django.db import connections
-from django.utils import timezone
 
-from fleet.models import Kit, Transponder
+from fleet.kits.db import kit_database
+from fleet.kits.files import read_kit_file
+from fleet.models import Kit, Site, Transponder
 from fleet.models.kits import forget_kit_here
+from fleet.services.kits import kit_export
 
-_aliases = itertools.count(1)
-
-
-def make_kit(*, code: str, units: list[Transponder], by, at: dt.datetime | None = None) -> Kit:
-    """The shore's row of a kit exported now for ``units``."""
-    at = at or timezone.now()
-    kit = Kit.objects.create(
-        code=code,
-        job=f"Test job {code}",
-        created_at=at,
-        created_by=by,
-        certificate_year=timezone.localdate(at).year,
-        certificate_first=9000 + 50 * int(code[1:]),
-        certificate_last=9049 + 50 * int(code[1:]),
-    )
-    kit.units.set(units)
-    return kit
+_numbers = itertools.count(1)
 
 
 @contextmanager
-def kit_copy(kit: Kit, directory: Path) -> Iterator[str]:
-    """A kit database for ``kit``: the shore database as it is now, marked as the kit."""
-    path = directory / f"{kit.code}-{next(_aliases)}.sqlite3"
-    with connections["default"].cursor() as cursor:
-        cursor.execute("VACUUM INTO %s", [str(path)])
-    alias = f"kit_test_{next(_aliases)}"
-    with open_alias(path, alias):
-        Kit.objects.using(alias).filter(code=kit.code).update(here=True)
-        forget_kit_here()
-        yield alias
-
-
-@contextmanager
-def open_alias(path: Path, alias: str) -> Iterator[str]:
-    """A connection to the SQLite file ``path`` under ``alias``, made on the fly (not in
-    ``DATABASES``, so the test runner lets the test use it)."""
-    from django.db.backends.sqlite3.base import DatabaseWrapper
-
-    settings = dict(connections["default"].settings_dict)
-    settings["NAME"] = str(path)
-    connections[alias] = DatabaseWrapper(settings, alias)
-    try:
-        yield alias
-    finally:
-        connections[alias].close()
-        del connections[alias]
-        forget_kit_here()
+def exported_kit(
+    units: Sequence[Transponder],
+    *,
+    by: User,
+    users: Sequence[User],
+    sites: Sequence[Site],
+    directory: Path,
+) -> Iterator[tuple[Kit, str]]:
+    """A kit of ``units`` exported now; yields the shore's Kit row and the kit database's
+    alias."""
+    n = next(_numbers)
+    out = directory / f"kit-{n}.holdfast-kit"
+    kit = kit_export(units=units, sites=sites, users=users, job=f"Test job {n}", by=by, out=out)
+    kit_file = read_kit_file(out, into=directory / f"kit-{n}")
+    with kit_database(kit_file.db_path) as alias:
+        yield kit, alias
 
 
 @contextmanager

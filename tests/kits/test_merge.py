@@ -29,9 +29,9 @@ from fleet.services.kit_merge import CertificateClashError, conflict_resolve, me
 from fleet.services.records import amendment_create, service_record_close, service_record_save
 from tests.builders import make_unit, serviced_unit
 from tests.documents.conftest import bench_visit, release_test
-from tests.kits.merge_helpers import kit_copy, make_kit, on_board
+from tests.kits.merge_helpers import exported_kit, on_board
 
-pytestmark = pytest.mark.django_db(transaction=True)
+pytestmark = pytest.mark.django_db
 
 SHA = "a" * 64
 SHA2 = "b" * 64
@@ -81,8 +81,9 @@ def test_the_vessel_s_deployment_recovery_and_release_test_come_in_beside_the_sh
 ):
     a, b, _ = three
     now = timezone.now()
-    kit = make_kit(code="K0001", units=three, by=supervisor)
-    with kit_copy(kit, tmp_path) as alias:
+    with exported_kit(
+        three, by=supervisor, users=[technician, supervisor], sites=[site], directory=tmp_path
+    ) as (kit, alias):
         with on_board(alias):
             _deploy(
                 a, site, technician, now - dt.timedelta(hours=5), now - dt.timedelta(hours=3), 412
@@ -132,8 +133,9 @@ def test_a_deployment_on_board_while_the_shore_had_the_unit_on_the_bench_is_a_co
 ):
     _, _, c = three
     now = timezone.now()
-    kit = make_kit(code="K0002", units=three, by=supervisor)
-    with kit_copy(kit, tmp_path) as alias:
+    with exported_kit(
+        three, by=supervisor, users=[technician, supervisor], sites=[site], directory=tmp_path
+    ) as (kit, alias):
         with on_board(alias):
             _deploy(c, site, technician, now - dt.timedelta(hours=5), now - dt.timedelta(hours=1))
         position = c.variant.anode_positions.first()
@@ -145,16 +147,16 @@ def test_a_deployment_on_board_while_the_shore_had_the_unit_on_the_bench_is_a_co
             close_at=now - dt.timedelta(hours=2),
             closer=supervisor,
         )
-        plan = plan_merge(alias, code="K0002", file_sha256=SHA)
+        plan = plan_merge(alias, code="K0001", file_sha256=SHA)
         assert [c.kind for c in plan.conflicts] == [KitConflict.Kind.INTERLEAVED]
         assert "in the water" in plan.conflicts[0].explanation
         assert plan.counts() == {}
-        merge = merge_apply_from(alias, code="K0002", file_sha256=SHA, by=supervisor)
+        merge = merge_apply_from(alias, code="K0001", file_sha256=SHA, by=supervisor)
         assert merge.rows_added == 0
         conflict = merge.conflicts.get()
         assert conflict.vessel_version[0]["model"] == "fleet.deployment"
         assert conflict.shore_version[0]["model"] == "fleet.servicerecord"
-        assert not Deployment.objects.filter(origin="K0002").exists()
+        assert not Deployment.objects.filter(origin="K0001").exists()
         _clean_rebuild()
         with pytest.raises(ValidationError, match="cannot be added"):
             conflict_resolve(conflict=conflict, choice="add_vessel", by=supervisor)
@@ -164,9 +166,9 @@ def test_a_deployment_on_board_while_the_shore_had_the_unit_on_the_bench_is_a_co
         conflict.refresh_from_db()
         assert conflict.resolution == "keep_shore" and conflict.resolved_by == supervisor
         # Merging again does not bring the conflict back, nor the vessel's row.
-        merge_apply_from(alias, code="K0002", file_sha256=SHA2, by=supervisor)
+        merge_apply_from(alias, code="K0001", file_sha256=SHA2, by=supervisor)
         assert KitConflict.objects.count() == 1
-        assert not Deployment.objects.filter(origin="K0002").exists()
+        assert not Deployment.objects.filter(origin="K0001").exists()
 
 
 def _open_visit(unit, by, when):
@@ -175,43 +177,45 @@ def _open_visit(unit, by, when):
 
 
 def test_a_visit_open_at_export_and_closed_on_board_is_closed_ashore_through_the_services(
-    three, technician, supervisor, tmp_path
+    three, technician, supervisor, site, tmp_path
 ):
     a = three[0]
     now = timezone.now()
     visit = _open_visit(a, technician, now - dt.timedelta(hours=6))
-    kit = make_kit(code="K0003", units=three, by=supervisor)
-    with kit_copy(kit, tmp_path) as alias:
+    with exported_kit(
+        three, by=supervisor, users=[technician, supervisor], sites=[site], directory=tmp_path
+    ) as (kit, alias):
         with on_board(alias):
             record = ServiceRecord.objects.get(pk=visit.pk)
             service_record_save(
                 record=record, entries=[release_test(tested_on=timezone.localdate())], by=technician
             )
             service_record_close(record=record, by=supervisor, at=now - dt.timedelta(hours=1))
-        plan = plan_merge(alias, code="K0003", file_sha256=SHA)
+        plan = plan_merge(alias, code="K0001", file_sha256=SHA)
         assert plan.conflicts == []
         assert [c.what for c in plan.changes] == ["bench visits worked on board"]
-        merge = merge_apply_from(alias, code="K0003", file_sha256=SHA, by=supervisor)
+        merge = merge_apply_from(alias, code="K0001", file_sha256=SHA, by=supervisor)
         visit.refresh_from_db()
         assert visit.closed_at == now - dt.timedelta(hours=1)
         assert visit.closed_by == supervisor
-        assert visit.release_tests.get().origin == "K0003"
+        assert visit.release_tests.get().origin == "K0001"
         assert visit.anode_readings.count() == 1
         assert merge.rows_changed == 1 and merge.counts == {"entries": 1}
         _clean_rebuild()
-        again = merge_apply_from(alias, code="K0003", file_sha256=SHA2, by=supervisor)
+        again = merge_apply_from(alias, code="K0001", file_sha256=SHA2, by=supervisor)
         assert again.rows_added == 0 and again.rows_changed == 0
         assert not again.conflicts.exists()
 
 
 def test_a_visit_closed_on_both_sides_is_a_conflict_and_the_vessel_s_entries_can_stand_beside(
-    three, technician, supervisor, tmp_path
+    three, technician, supervisor, site, tmp_path
 ):
     a = three[0]
     now = timezone.now()
     visit = _open_visit(a, technician, now - dt.timedelta(hours=6))
-    kit = make_kit(code="K0004", units=three, by=supervisor)
-    with kit_copy(kit, tmp_path) as alias:
+    with exported_kit(
+        three, by=supervisor, users=[technician, supervisor], sites=[site], directory=tmp_path
+    ) as (kit, alias):
         with on_board(alias):
             record = ServiceRecord.objects.get(pk=visit.pk)
             service_record_save(
@@ -219,16 +223,16 @@ def test_a_visit_closed_on_both_sides_is_a_conflict_and_the_vessel_s_entries_can
             )
             service_record_close(record=record, by=supervisor, at=now - dt.timedelta(hours=1))
         service_record_close(record=visit, by=supervisor, at=now - dt.timedelta(hours=2))
-        plan = plan_merge(alias, code="K0004", file_sha256=SHA)
+        plan = plan_merge(alias, code="K0001", file_sha256=SHA)
         assert [c.kind for c in plan.conflicts] == [KitConflict.Kind.CLOSED_TWICE]
-        merge = merge_apply_from(alias, code="K0004", file_sha256=SHA, by=supervisor)
+        merge = merge_apply_from(alias, code="K0001", file_sha256=SHA, by=supervisor)
         assert merge.rows_added == 0
-        assert not ReleaseTest.objects.filter(origin="K0004").exists()
+        assert not ReleaseTest.objects.filter(origin="K0001").exists()
         conflict = merge.conflicts.get()
         conflict_resolve(conflict=conflict, choice="add_vessel", by=supervisor, note="both real")
-        test = ReleaseTest.objects.get(origin="K0004")
+        test = ReleaseTest.objects.get(origin="K0001")
         assert test.record != visit and test.record.closed_at is not None
-        assert "kit K0004" in test.record.summary
+        assert "kit K0001" in test.record.summary
         _clean_rebuild()
         with pytest.raises(ValidationError, match="resolved already"):
             conflict_resolve(conflict=conflict, choice="keep_shore", by=supervisor)
@@ -240,8 +244,9 @@ def test_a_deployment_in_the_water_at_export_recovered_on_board_is_recovered_ash
     a = three[0]
     now = timezone.now()
     deployment = _deploy(a, site, technician, now - dt.timedelta(days=2))
-    kit = make_kit(code="K0005", units=three, by=supervisor)
-    with kit_copy(kit, tmp_path) as alias:
+    with exported_kit(
+        three, by=supervisor, users=[technician, supervisor], sites=[site], directory=tmp_path
+    ) as (kit, alias):
         with on_board(alias):
             deployment_recover(
                 deployment=Deployment.objects.get(pk=deployment.pk),
@@ -250,9 +255,9 @@ def test_a_deployment_in_the_water_at_export_recovered_on_board_is_recovered_ash
                 place=None,
                 by=technician,
             )
-        plan = plan_merge(alias, code="K0005", file_sha256=SHA)
+        plan = plan_merge(alias, code="K0001", file_sha256=SHA)
         assert [c.what for c in plan.changes] == ["recoveries"]
-        merge_apply_from(alias, code="K0005", file_sha256=SHA, by=supervisor)
+        merge_apply_from(alias, code="K0001", file_sha256=SHA, by=supervisor)
         deployment.refresh_from_db()
         assert deployment.recovered_at == now - dt.timedelta(hours=1)
         assert deployment.replies_counted == 77
@@ -264,16 +269,17 @@ def test_both_sides_deploying_one_unit_at_once_is_a_unit_in_two_places(
 ):
     b = three[1]
     now = timezone.now()
-    kit = make_kit(code="K0006", units=three, by=supervisor)
-    with kit_copy(kit, tmp_path) as alias:
+    with exported_kit(
+        three, by=supervisor, users=[technician, supervisor], sites=[site], directory=tmp_path
+    ) as (kit, alias):
         with on_board(alias):
             _deploy(b, site, technician, now - dt.timedelta(hours=8), now - dt.timedelta(hours=2))
         _deploy(b, site, technician, now - dt.timedelta(hours=5))
-        plan = plan_merge(alias, code="K0006", file_sha256=SHA)
+        plan = plan_merge(alias, code="K0001", file_sha256=SHA)
         assert [c.kind for c in plan.conflicts] == [KitConflict.Kind.TWO_PLACES]
-        merge = merge_apply_from(alias, code="K0006", file_sha256=SHA, by=supervisor)
+        merge = merge_apply_from(alias, code="K0001", file_sha256=SHA, by=supervisor)
         assert merge.conflicts.count() == 1
-        assert Deployment.objects.filter(unit=b, origin="K0006").count() == 0
+        assert Deployment.objects.filter(unit=b, origin="K0001").count() == 0
         _clean_rebuild()
 
 
@@ -289,14 +295,15 @@ def _closed_visit(unit, technician, supervisor, when):
 
 
 def test_an_amendment_made_on_board_is_made_ashore_and_keeps_its_identity(
-    three, technician, supervisor, tmp_path
+    three, technician, supervisor, site, tmp_path
 ):
     a = three[0]
     now = timezone.now()
     visit = _closed_visit(a, technician, supervisor, now - dt.timedelta(hours=9))
     test = visit.release_tests.get()
-    kit = make_kit(code="K0007", units=three, by=supervisor)
-    with kit_copy(kit, tmp_path) as alias:
+    with exported_kit(
+        three, by=supervisor, users=[technician, supervisor], sites=[site], directory=tmp_path
+    ) as (kit, alias):
         with on_board(alias):
             made = amendment_create(
                 record=ServiceRecord.objects.get(pk=visit.pk),
@@ -306,24 +313,25 @@ def test_an_amendment_made_on_board_is_made_ashore_and_keeps_its_identity(
                 reason="Stopwatch read again",
                 by=supervisor,
             )
-        merge = merge_apply_from(alias, code="K0007", file_sha256=SHA, by=supervisor)
+        merge = merge_apply_from(alias, code="K0001", file_sha256=SHA, by=supervisor)
         assert merge.counts == {"amendments": 1}
         test.refresh_from_db()
         assert test.seconds_to_release == 14.5
-        ashore = Amendment.objects.get(origin="K0007")
+        ashore = Amendment.objects.get(origin="K0001")
         assert ashore.uid == made.uid and ashore.reason == "Stopwatch read again"
         _clean_rebuild()
 
 
 def test_one_value_amended_on_both_sides_is_a_conflict_the_supervisor_settles(
-    three, technician, supervisor, tmp_path
+    three, technician, supervisor, site, tmp_path
 ):
     a = three[0]
     now = timezone.now()
     visit = _closed_visit(a, technician, supervisor, now - dt.timedelta(hours=9))
     test = visit.release_tests.get()
-    kit = make_kit(code="K0008", units=three, by=supervisor)
-    with kit_copy(kit, tmp_path) as alias:
+    with exported_kit(
+        three, by=supervisor, users=[technician, supervisor], sites=[site], directory=tmp_path
+    ) as (kit, alias):
         with on_board(alias):
             amendment_create(
                 record=ServiceRecord.objects.get(pk=visit.pk),
@@ -341,9 +349,9 @@ def test_one_value_amended_on_both_sides_is_a_conflict_the_supervisor_settles(
             reason="Video checked ashore",
             by=supervisor,
         )
-        plan = plan_merge(alias, code="K0008", file_sha256=SHA)
+        plan = plan_merge(alias, code="K0001", file_sha256=SHA)
         assert [c.kind for c in plan.conflicts] == [KitConflict.Kind.AMENDED_TWICE]
-        merge = merge_apply_from(alias, code="K0008", file_sha256=SHA, by=supervisor)
+        merge = merge_apply_from(alias, code="K0001", file_sha256=SHA, by=supervisor)
         test.refresh_from_db()
         assert test.seconds_to_release == 13
         conflict = merge.conflicts.get()
@@ -357,11 +365,12 @@ def test_one_value_amended_on_both_sides_is_a_conflict_the_supervisor_settles(
 
 
 def test_a_hold_set_on_board_is_set_ashore_and_a_hold_changed_on_both_sides_is_a_conflict(
-    three, technician, supervisor, tmp_path
+    three, technician, supervisor, site, tmp_path
 ):
     a, b, _ = three
-    kit = make_kit(code="K0009", units=three, by=supervisor)
-    with kit_copy(kit, tmp_path) as alias:
+    with exported_kit(
+        three, by=supervisor, users=[technician, supervisor], sites=[site], directory=tmp_path
+    ) as (kit, alias):
         with on_board(alias):
             for unit in (a, b):
                 unit_hold_set(
@@ -374,23 +383,24 @@ def test_a_hold_set_on_board_is_set_ashore_and_a_hold_changed_on_both_sides_is_a
         unit_hold_set(
             unit=b, hold=UnitHold.RETIRED, reason="End of life", by=supervisor, at=timezone.now()
         )
-        merge = merge_apply_from(alias, code="K0009", file_sha256=SHA, by=supervisor)
+        merge = merge_apply_from(alias, code="K0001", file_sha256=SHA, by=supervisor)
         a.refresh_from_db()
         b.refresh_from_db()
         assert a.hold == UnitHold.QUARANTINED and a.hold_reason == "Flood alarm on deck"
-        assert HoldChange.objects.filter(unit=a, origin="K0009").count() == 1
+        assert HoldChange.objects.filter(unit=a, origin="K0001").count() == 1
         assert b.hold == UnitHold.RETIRED
         assert [c.kind for c in merge.conflicts.all()] == [KitConflict.Kind.HOLD_TWICE]
         _clean_rebuild()
 
 
 def test_a_certificate_issued_on_board_comes_in_with_its_number_from_the_kit_s_range(
-    three, technician, supervisor, tmp_path
+    three, technician, supervisor, site, tmp_path
 ):
     a = three[0]
     now = timezone.now()
-    kit = make_kit(code="K0001", units=three, by=supervisor)
-    with kit_copy(kit, tmp_path) as alias:
+    with exported_kit(
+        three, by=supervisor, users=[technician, supervisor], sites=[site], directory=tmp_path
+    ) as (kit, alias):
         with on_board(alias):
             visit = _closed_visit(a, technician, supervisor, now - dt.timedelta(hours=5))
             issued = certificate_issue(
@@ -405,12 +415,13 @@ def test_a_certificate_issued_on_board_comes_in_with_its_number_from_the_kit_s_r
 
 
 def test_a_certificate_number_taken_ashore_refuses_the_whole_merge(
-    three, technician, supervisor, tmp_path
+    three, technician, supervisor, site, tmp_path
 ):
     a, b, _ = three
     now = timezone.now()
-    kit = make_kit(code="K0001", units=three, by=supervisor)
-    with kit_copy(kit, tmp_path) as alias:
+    with exported_kit(
+        three, by=supervisor, users=[technician, supervisor], sites=[site], directory=tmp_path
+    ) as (kit, alias):
         with on_board(alias):
             visit = _closed_visit(a, technician, supervisor, now - dt.timedelta(hours=5))
             issued = certificate_issue(

@@ -6,7 +6,7 @@ PORT ?= 8000
 WORKERS ?= 3
 STAMP := $(VENV)/.installed-stamp
 
-.PHONY: demo serve test install lint format migrations-check deploy-check clean
+.PHONY: demo serve kit-serve kit-pack test install lint format migrations-check deploy-check clean
 
 $(BIN)/python:
 	$(PYTHON) -m venv $(VENV)
@@ -35,6 +35,16 @@ serve: install
 	DEBUG=false $(BIN)/python manage.py collectstatic --noinput
 	DEBUG=false $(BIN)/gunicorn fleet.wsgi:application --bind 127.0.0.1:$(PORT) \
 		--workers $(WORKERS) --access-logfile - --forwarded-allow-ips 127.0.0.1
+
+# On the vessel's laptop (README "Taking a kit to sea"): serve a kit file on 127.0.0.1, and pack
+# its working copy to go back ashore. The kit's own settings come from its working folder.
+kit-serve: install
+	@test -n "$(KIT)" || { echo "make kit-serve KIT=<kit file> [KEEP=--keep]"; exit 1; }
+	DEBUG=true $(BIN)/python manage.py kit_serve "$(KIT)" --port $(PORT) $(KEEP)
+
+kit-pack: install
+	@test -n "$(DIR)" -a -n "$(BY)" -a -n "$(OUT)" || { echo "make kit-pack DIR=<working folder> BY=<username> OUT=<file>"; exit 1; }
+	DEBUG=true $(BIN)/python manage.py kit_pack --dir "$(DIR)" --by "$(BY)" --out "$(OUT)"
 
 lint: install
 	$(BIN)/ruff check .

@@ -37,6 +37,7 @@ from fleet.models import (
     BatteryInstall,
     Deployment,
     DueRow,
+    Kit,
     SealChange,
     SealPosition,
     ServiceRecord,
@@ -627,3 +628,13 @@ def timeline_rows(
         )
         for u in units
     ]
+
+
+def kit_rows() -> list[Kit]:
+    """The kits page: every kit, newest first, with who made it and how many units it took
+    (``unit_count``), in one query."""
+    return list(
+        Kit.objects.select_related("created_by")
+        .annotate(unit_count=Count("units", distinct=True))
+        .order_by("-created_at", "-pk")
+    )

@@ -120,6 +120,7 @@ TEMPLATES = [
                 "django.contrib.auth.context_processors.auth",
                 "django.contrib.messages.context_processors.messages",
                 "fleet.context_processors.role_flags",
+                "fleet.context_processors.vessel_kit",
             ],
         },
     },
@@ -187,6 +188,8 @@ MEDIA_URL = "media/"
 MEDIA_ROOT = Path(os.environ.get("MEDIA_ROOT", str(BASE_DIR / "media")))
 # Uploaded import files wait here, named by checksum, between the preview and the confirm.
 IMPORT_STAGING_ROOT = Path(os.environ.get("IMPORT_STAGING_ROOT", str(BASE_DIR / "import-staging")))
+# Vessel kit files made on the kits page, kept for download (named by kit code).
+KIT_FILES_ROOT = Path(os.environ.get("KIT_FILES_ROOT", str(BASE_DIR / "kit-files")))
 
 # Upload limits: workshop photos from a tablet camera, re-encoded on save.
 FILE_UPLOAD_MAX_MEMORY_SIZE = 10 * 1024 * 1024

@@ -5,18 +5,22 @@ from collections.abc import Callable
 from functools import wraps
 from typing import Any
 
+from django.contrib import messages
 from django.contrib.auth.models import User
 from django.core.exceptions import PermissionDenied
 from django.http import Http404, HttpRequest
 from django.http.response import HttpResponseBase
-from django.shortcuts import get_object_or_404
+from django.shortcuts import get_object_or_404, redirect
+from django.urls import reverse
 
 from fleet import roles
+from fleet.kits.identity import current_kit
 from fleet.models import (
     CalendarFeed,
     Deployment,
     KitConflict,
     KitMerge,
+    Kit,
     ReleaseCertificate,
     ReleaseTest,
     ServiceRecord,
@@ -142,3 +146,34 @@ def get_calendar_feed_for_token(token: str) -> CalendarFeed:
     if feed is None or not feed.user.is_active or not roles.can_read(feed.user):
         raise Http404("No such calendar.")
     return feed
+
+
+def ashore_only(action: str) -> Callable[[ViewFunction], ViewFunction]:
+    """Refuse the view on a vessel kit, with a message saying ``action`` is done ashore (making
+    a kit, importing a fleet, merging a kit back: none makes sense on board)."""
+
+    def decorator(view: ViewFunction) -> ViewFunction:
+        @wraps(view)
+        def wrapped(request: HttpRequest, *args: Any, **kwargs: Any) -> HttpResponseBase:
+            kit = current_kit()
+            if kit is not None:
+                messages.error(
+                    request,
+                    f"This is a vessel copy ({kit.code}): {action} is done ashore, not on board.",
+                )
+                return redirect(reverse("kit-list"))
+            return view(request, *args, **kwargs)
+
+        return wrapped
+
+    return decorator
+
+
+def check_kits_for_user(request: HttpRequest) -> None:
+    """Vessel kits are a supervisor's: making one, downloading its file, packing it."""
+    _check(request, write=False, supervise=True)
+
+
+def get_kit_for_user(request: HttpRequest, code: str) -> Kit:
+    _check(request, write=False, supervise=True)
+    return get_object_or_404(Kit, code=code)

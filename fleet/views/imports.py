@@ -13,7 +13,7 @@ from fleet.imports.export import template_csv
 from fleet.imports.forms import ImportConfirmForm, ImportUploadForm
 from fleet.services.imports import KINDS, ImportRefusedError, Outcome, import_commit, import_preview
 
-from .guards import AuthenticatedRequest, check_import_for_user
+from .guards import AuthenticatedRequest, ashore_only, check_import_for_user
 
 
 def _page(
@@ -37,6 +37,7 @@ def _page(
 
 
 @require_http_methods(["GET", "POST"])
+@ashore_only("importing a fleet")
 def import_page(request: AuthenticatedRequest) -> HttpResponse:
     """GET: the upload form. POST: the preview of the uploaded file, kept on the server by its
     checksum until confirmed."""
@@ -60,6 +61,7 @@ def import_page(request: AuthenticatedRequest) -> HttpResponse:
 
 
 @require_POST
+@ashore_only("importing a fleet")
 def import_confirm(request: AuthenticatedRequest) -> HttpResponse:
     """Write the previewed file, all or nothing."""
     check_import_for_user(request)

@@ -207,6 +207,8 @@ def _pages(fleet, role):
             "/labels/contact/",
             "/kits/merge/",
             f"/kits/merge/{fleet['merge'].pk}/",
+            "/kits/",
+            "/kits/new/",
         ]
     return pages
 

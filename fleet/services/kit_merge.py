@@ -57,6 +57,7 @@ from fleet.kits.merge import (
 )
 from fleet.models import (
     Amendment,
+    Kit,
     Deployment,
     HoldChange,
     KitConflict,
@@ -483,8 +484,6 @@ def merge_apply_from(
     resolutions: Mapping[str, str] | None = None,
 ) -> KitMerge:
     """``merge_apply`` on a kit database already open at ``alias``."""
-    from fleet.models import Kit
-
     kit = Kit.objects.filter(code=code).first()
     if kit is not None:
         done = KitMerge.objects.filter(
@@ -540,11 +539,15 @@ def _apply(plan: MergePlan, *, by: User, resolutions: Mapping[str, str]) -> KitM
 
 
 def _mark_kit_merged(plan: MergePlan) -> None:
-    kit = plan.kit
-    merged = getattr(type(kit), "Status", None)
-    value = getattr(merged, "MERGED", None) if merged is not None else None
-    if value is not None and getattr(kit, "status", None) != value:
-        kit.status = value
+    _set_kit_status(plan.kit)
+
+
+def _set_kit_status(kit: Kit) -> None:
+    """Merged back once merged with no conflict left to resolve; partly merged until then."""
+    waiting = KitConflict.objects.filter(merge__kit=kit, resolution="").exists()
+    status = Kit.Status.RETURNED_PARTLY if waiting else Kit.Status.MERGED
+    if kit.status != status:
+        kit.status = status
         kit.save(update_fields=["status"])
 
 
@@ -582,6 +585,7 @@ def conflict_resolve(
     current.full_clean()
     current.save(update_fields=["resolution", "resolved_by", "resolved_at", "note"])
     refresh_unit(unit, at=now)
+    _set_kit_status(current.merge.kit)
     conflict.resolution, conflict.resolved_by, conflict.resolved_at, conflict.note = (
         choice,
         by,

@@ -14,6 +14,7 @@ from fleet.models import (
     AnodeReading,
     Deployment,
     HoldChange,
+    Kit,
     KitConflict,
     KitMerge,
     ReleaseCertificate,
@@ -160,9 +161,11 @@ def test_a_deployment_on_board_while_the_shore_had_the_unit_on_the_bench_is_a_co
         _clean_rebuild()
         with pytest.raises(ValidationError, match="cannot be added"):
             conflict_resolve(conflict=conflict, choice="add_vessel", by=supervisor)
+        assert Kit.objects.get().status == Kit.Status.RETURNED_PARTLY
         conflict_resolve(
             conflict=conflict, choice="keep_shore", by=supervisor, note="deck log wrong"
         )
+        assert Kit.objects.get().status == Kit.Status.MERGED
         conflict.refresh_from_db()
         assert conflict.resolution == "keep_shore" and conflict.resolved_by == supervisor
         # Merging again does not bring the conflict back, nor the vessel's row.

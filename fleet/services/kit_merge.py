@@ -57,9 +57,9 @@ from fleet.kits.merge import (
 )
 from fleet.models import (
     Amendment,
-    Kit,
     Deployment,
     HoldChange,
+    Kit,
     KitConflict,
     KitMerge,
     Place,

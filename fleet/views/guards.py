@@ -18,9 +18,9 @@ from fleet.kits.identity import current_kit
 from fleet.models import (
     CalendarFeed,
     Deployment,
+    Kit,
     KitConflict,
     KitMerge,
-    Kit,
     ReleaseCertificate,
     ReleaseTest,
     ServiceRecord,

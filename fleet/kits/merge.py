@@ -258,6 +258,8 @@ class MergePlan:
     changes: list[Change] = field(default_factory=list)
     conflicts: list[Conflict] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)
+    # New vessel rows whose parent an earlier merge of this kit kept in a conflict.
+    orphans: list[VesselRow] = field(default_factory=list)
     already_merged: int = 0
     already_applied: bool = False
 
@@ -537,21 +539,21 @@ class _Planner:
         shore_spans: list[Span] = []
         vessel_spans: list[Span] = []
         # Deployments that existed at export.
+        # A row made on board and merged by an earlier return file is a shore row now: what
+        # the vessel did to it since is a change, as for the rows that existed at export.
         for kd in r.kit_rows_of(Deployment, kit_unit):
-            if r.is_board_made(kd):
-                if r.is_new(Deployment, kd):
-                    vessel_spans.append(_span(kd, r.vessel_row(kd)))
-                else:
-                    self.plan.already_merged += 1
+            if r.is_new(Deployment, kd):
+                vessel_spans.append(_span(kd, r.vessel_row(kd)))
                 continue
+            if r.is_board_made(kd):
+                self.plan.already_merged += 1
             self._existing_deployment(kd, unit, shore_spans, vessel_spans)
         for kr in r.kit_rows_of(ServiceRecord, kit_unit):
-            if r.is_board_made(kr):
-                if r.is_new(ServiceRecord, kr):
-                    vessel_spans.append(_span(kr, r.vessel_row(kr)))
-                else:
-                    self.plan.already_merged += 1
+            if r.is_new(ServiceRecord, kr):
+                vessel_spans.append(_span(kr, r.vessel_row(kr)))
                 continue
+            if r.is_board_made(kr):
+                self.plan.already_merged += 1
             self._existing_record(kr, unit, shore_spans, vessel_spans)
         kit_uids = {
             str(x.uid)
@@ -657,7 +659,9 @@ class _Planner:
         shore_entries = _entries_of(sr, "default")
         kit_keys = {_entry_key(e) for e in kit_entries}
         shore_keys = {_entry_key(e) for e in shore_entries}
-        board_new = [e for e in kit_entries if r.is_new(type(e), e)]
+        board_new = [
+            e for e in kit_entries if r.is_new(type(e), e) and str(e.uid) not in self.held_before
+        ]
         shore_only = [e for e in shore_entries if _entry_key(e) not in kit_keys]
         kit_copied = [e for e in kit_entries if not r.is_board_made(e)]
         touched = kr.updated_at > self.t
@@ -856,13 +860,11 @@ class _Planner:
             if model in (HoldChange,):
                 continue
             for instance in r.rows[model].values():
-                if not r.is_board_made(instance):
+                if not r.is_new(model, instance):
+                    if r.is_board_made(instance) and model not in (ServiceRecord, Deployment):
+                        self.plan.already_merged += 1
                     if model is ReleaseCertificate:
                         self._existing_certificate(instance)
-                    continue
-                if not r.is_new(model, instance):
-                    if model not in (ServiceRecord, Deployment):
-                        self.plan.already_merged += 1
                     continue
                 uid = str(instance.uid)
                 if uid in self.held_before:
@@ -870,10 +872,10 @@ class _Planner:
                 if model is Amendment:
                     self._amendment(instance)
                     continue
-                if isinstance(instance, Entry) and not r.is_board_made(
-                    r.rows[ServiceRecord][instance.record_id]
+                if isinstance(instance, Entry) and not r.is_new(
+                    ServiceRecord, r.rows[ServiceRecord][instance.record_id]
                 ):
-                    continue  # an entry of a visit open at export: planned with the visit
+                    continue  # an entry of a visit already ashore: planned with the visit
                 self.plan.additions.append(r.vessel_row(instance))
 
     def _amendment(self, am: Any) -> None:
@@ -976,8 +978,10 @@ class _Planner:
             if parents & {v.uid for v in conflict.vessel}:
                 conflict.vessel.append(row)
                 return
+        self.plan.orphans.append(row)
         self.plan.notes.append(
-            f"{row.unit_serial}: {row.text} waits for a conflict recorded by an earlier merge."
+            f"{row.unit_serial}: {row.text} depends on vessel rows an earlier merge kept in a "
+            "conflict; it is kept with them."
         )
 
 

@@ -306,10 +306,16 @@ class _Applier:
             self.count("hold changes")
 
     def _moves(self, unit: Transponder, change: Change) -> None:
-        unit_move(
-            unit=Transponder.objects.get(pk=unit.pk),
-            place=Place.objects.get(pk=change.payload["place"]),
-        )
+        place = Place.objects.get(pk=change.payload["place"])
+        try:
+            with transaction.atomic():
+                unit_move(unit=Transponder.objects.get(pk=unit.pk), place=place)
+        except ValidationError as exc:
+            # Where a unit stands is not history: the shore's place stands, and the merge says so.
+            line = f"{unit.serial} was moved on board to {place}; not moved ashore: " + " ".join(
+                exc.messages
+            )
+            self.merge.notes = "\n".join(filter(None, [self.merge.notes, line]))
 
     def _certificate_changes(self, unit: Transponder, change: Change) -> None:
         row = VesselRow.from_json(change.payload["row"])
@@ -419,9 +425,11 @@ def _pk_by_uid(row: VesselRow) -> int:
 def record_conflict(
     merge: KitMerge, conflict: Conflict, *, changes: Sequence[Change] = ()
 ) -> KitConflict | None:
-    """Keep a conflict, both sides whole; a conflict this kit already recorded is not kept
-    twice."""
-    if KitConflict.objects.filter(merge__kit=merge.kit, key=conflict.key).exists():
+    """Keep a conflict, both sides whole; a conflict this kit already recorded (the same rows
+    of the vessel) is not kept twice."""
+    fresh = sorted(row.uid for row in conflict.vessel if not row.copy)
+    key = f"{conflict.key}:{hashlib.sha256(','.join(fresh).encode()).hexdigest()[:16]}"
+    if KitConflict.objects.filter(merge__kit=merge.kit, key=key).exists():
         return None
     vessel = [row.as_json() for row in conflict.vessel]
     vessel += [
@@ -438,11 +446,42 @@ def record_conflict(
         merge=merge,
         kind=conflict.kind,
         unit=Transponder.objects.get(serial=conflict.unit_serial),
-        key=conflict.key[:200],
+        key=key[:200],
         explanation=conflict.explanation,
         shore_version=conflict.shore,
         vessel_version=vessel,
         choices=list(conflict.choices),
+    )
+
+
+def _keep_orphan(merge: KitMerge, row: VesselRow) -> None:
+    """A new vessel row whose parent an earlier merge kept in a conflict joins that conflict
+    while it waits; once it was resolved, the row is a conflict of its own."""
+    parents = {ref.uid for ref in row.refs.values() if ref.uid is not None}
+    for earlier in KitConflict.objects.select_for_update().filter(merge__kit=merge.kit):
+        uids = {item.get("uid") for item in earlier.vessel_version}
+        if not parents & uids or row.uid in uids:
+            continue
+        if not earlier.resolution:
+            earlier.vessel_version = [*earlier.vessel_version, row.as_json()]
+            earlier.save(update_fields=["vessel_version"])
+            return
+        break
+    record_conflict(
+        merge,
+        Conflict(
+            kind=KitConflict.Kind.INTERLEAVED,
+            unit_serial=row.unit_serial,
+            key=f"vessel:{row.uid}",
+            explanation=(
+                f"{row.unit_serial}: the vessel's {row.text} belongs to vessel rows an earlier "
+                "merge kept out of the shore's records (a conflict already resolved). Keep it "
+                "out, or add it once what it belongs to is ashore."
+            ),
+            shore=[],
+            vessel=[row],
+            choices=[Choice.KEEP_SHORE, Choice.ADD_VESSEL],
+        ),
     )
 
 
@@ -527,13 +566,15 @@ def _apply(plan: MergePlan, *, by: User, resolutions: Mapping[str, str]) -> KitM
                 conflict_resolve(
                     conflict=recorded, choice=resolutions[conflict.key], by=by, note=""
                 )
+        for row in plan.orphans:
+            _keep_orphan(merge, row)
     merge.counts = applier.counts
     merge.rows_added = sum(applier.counts.values())
     merge.rows_changed = applier.changed
     # Stamped after every write: a later return file of this kit compares the shore's
     # changes with this moment, not with the export (``plan_merge``).
     merge.merged_at = timezone.now()
-    merge.save(update_fields=["counts", "rows_added", "rows_changed", "merged_at"])
+    merge.save(update_fields=["counts", "rows_added", "rows_changed", "merged_at", "notes"])
     _mark_kit_merged(plan)
     return merge
 

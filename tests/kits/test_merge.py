@@ -439,3 +439,42 @@ def test_a_certificate_number_taken_ashore_refuses_the_whole_merge(
             merge_apply_from(alias, code="K0001", file_sha256=SHA, by=supervisor)
         assert not KitMerge.objects.exists()
         assert not ServiceRecord.objects.filter(origin="K0001").exists()
+
+
+def test_a_later_return_file_brings_what_the_vessel_did_since_to_rows_merged_before(
+    three, technician, supervisor, site, tmp_path
+):
+    a, b, _ = three
+    now = timezone.now()
+    with exported_kit(
+        three, by=supervisor, users=[technician, supervisor], sites=[site], directory=tmp_path
+    ) as (kit, alias):
+        with on_board(alias):
+            wet = _deploy(b, site, technician, now - dt.timedelta(hours=9))
+            visit = _open_visit(a, technician, now - dt.timedelta(hours=8))
+        first = merge_apply_from(alias, code="K0001", file_sha256=SHA, by=supervisor)
+        assert first.counts == {"bench visits": 1, "entries": 1, "deployments": 1}
+        ashore = ServiceRecord.objects.get(uid=visit.uid)
+        assert ashore.closed_at is None
+        with on_board(alias):
+            record = ServiceRecord.objects.get(pk=visit.pk)
+            service_record_save(
+                record=record, entries=[release_test(tested_on=timezone.localdate())], by=technician
+            )
+            service_record_close(record=record, by=supervisor, at=now - dt.timedelta(hours=2))
+            deployment_recover(
+                deployment=Deployment.objects.get(pk=wet.pk),
+                recovered_at=now - dt.timedelta(hours=1),
+                replies_counted=12,
+                place=None,
+                by=technician,
+            )
+        second = merge_apply_from(alias, code="K0001", file_sha256=SHA2, by=supervisor)
+        assert second.counts == {"entries": 1}
+        assert second.rows_changed == 2
+        assert not second.conflicts.exists()
+        ashore.refresh_from_db()
+        assert ashore.closed_at == now - dt.timedelta(hours=2)
+        assert ashore.release_tests.get().origin == "K0001"
+        assert Deployment.objects.get(uid=wet.uid).replies_counted == 12
+        _clean_rebuild()

@@ -31,7 +31,8 @@ class KitMerge(models.Model):
     counts = models.JSONField(default=dict, blank=True)
     rows_added = models.PositiveIntegerField(default=0)
     rows_changed = models.PositiveIntegerField(default=0)
-    notes = models.TextField(blank=True)
+    # Written by the merge, never typed.
+    notes = models.TextField(blank=True, editable=False)
 
     class Meta:
         ordering = ["-merged_at", "-pk"]
@@ -62,7 +63,7 @@ class KitConflict(models.Model):
     # A stable key of what is in conflict (the vessel rows' uids), so a later merge of the
     # same kit recognises a conflict it already recorded.
     key = models.CharField(max_length=200)
-    explanation = models.TextField()
+    explanation = models.TextField(editable=False)  # written by the merge, never typed
     shore_version = models.JSONField(default=list, blank=True)
     vessel_version = models.JSONField(default=list, blank=True)
     choices = models.JSONField(default=list, blank=True)

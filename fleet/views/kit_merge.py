@@ -23,6 +23,7 @@ from fleet.services.kit_merge import conflict_resolve, merge_apply, merge_previe
 
 from .guards import (
     AuthenticatedRequest,
+    ashore_only,
     check_kit_merge_for_user,
     get_kit_conflict_for_user,
     get_kit_merge_for_user,
@@ -59,6 +60,7 @@ def _preview(path: Path) -> MergePlan:
 
 
 @require_http_methods(["GET", "POST"])
+@ashore_only("merging a kit back")
 def kit_merge_page(request: AuthenticatedRequest) -> HttpResponse:
     """GET: the upload form and the merges so far. POST: the preview of the uploaded file,
     kept on the server by its checksum until confirmed."""
@@ -82,6 +84,7 @@ def kit_merge_page(request: AuthenticatedRequest) -> HttpResponse:
 
 
 @require_POST
+@ashore_only("merging a kit back")
 def kit_merge_confirm(request: AuthenticatedRequest) -> HttpResponse:
     """Merge the previewed file, all of it in one transaction."""
     from fleet.kits.files import read_kit_file
@@ -105,6 +108,7 @@ def kit_merge_confirm(request: AuthenticatedRequest) -> HttpResponse:
 
 
 @require_GET
+@ashore_only("merging a kit back")
 def kit_merge_result(request: AuthenticatedRequest, pk: int) -> HttpResponse:
     merge = get_kit_merge_for_user(request, pk)
     conflicts = list(
@@ -148,6 +152,7 @@ def _sides(conflict: KitConflict) -> dict[str, list[dict[str, Any]]]:
 
 
 @require_POST
+@ashore_only("merging a kit back")
 def kit_conflict_resolve(request: AuthenticatedRequest, pk: int) -> HttpResponse:
     conflict = get_kit_conflict_for_user(request, pk)
     form = ConflictResolveForm(request.POST, conflict=conflict, prefix=f"c{conflict.pk}")

@@ -131,11 +131,15 @@ def pytest_configure(config):
 
 
 @pytest.fixture(autouse=True)
-def _kit_read_afresh():
-    # Which kit the database is, is cached per process; a test's rollback removes a Kit row
-    # without a signal, so every test starts and ends reading it afresh.
-    from fleet.kits.identity import forget_current_kit
+def _no_kit_at_the_start():
+    # Which kit the database is, is cached per process. A test database holds no Kit row when
+    # a test starts (a test that saves one resets the cache through the Kit's signals), and a
+    # test's rollback removes a Kit row without a signal: so every test starts and ends with
+    # "no kit here", and query counts never include the one-time read.
+    from fleet.models.kits import forget_kit_here, remember_kit_here
 
-    forget_current_kit()
+    forget_kit_here()
+    remember_kit_here(None)
     yield
-    forget_current_kit()
+    forget_kit_here()
+    remember_kit_here(None)

@@ -1,6 +1,6 @@
 """Vessel kits ashore and on board: export a copy of part of the fleet, pack it to come back.
 
-``kit_export`` (ashore, one transaction):
+``kit_export`` (ashore; the empty kit database is made first, the rest is one transaction):
 
 1. locks the chosen units, issues the next kit code (``K0001``, ``K0002``…) and reserves the
    kit's certificate numbers in the shore's counter (``reserve_certificates``);
@@ -9,10 +9,11 @@
    keeping every primary key and uid: the units, their whole history (records, every entry
    kind, amendments, deployments, certificates, hold changes, photos' rows without their
    files), their stored derived state (UnitState, AnodeState, SealState, DueRow), and every
-   row those point at (variants with their positions and reply charge steps, places, sites,
-   users), plus the chosen sites, the sailing users with their password hashes and roles (other
-   users the copied rows name come inactive, so they cannot sign in on board), the label
-   settings, and the kit's own row with ``here=True``;
+   row those point at (variants with their positions and reply charge steps, sites, users),
+   plus every place (a unit recovered on board goes to one), the chosen sites, the sailing
+   users with their password hashes and roles (other users the copied rows name come
+   inactive, so they cannot sign in on board), the label settings, and the kit's own row with
+   ``here=True``;
 3. sets the kit's certificate counters to its reserved ranges and its SQLite AUTOINCREMENT
    counters far above the shore's highest keys (``KEY_HEADROOM``), so a row made on board never
    takes a primary key the shore hands out meanwhile (the merge still matches by uid);
@@ -65,6 +66,7 @@ from fleet.models import (
     HoldChange,
     Kit,
     LabelSetting,
+    Place,
     ReleaseCertificate,
     ReleaseTest,
     ReplyChargeStep,
@@ -194,6 +196,9 @@ def _history(unit_ids: set[int]) -> dict[type[models.Model], set[Any]]:
         ReleaseCertificate.objects.filter(release_test__in=chosen[ReleaseTest])
     )
     chosen[LabelSetting] = _ids(LabelSetting.objects.all())
+    # Every place (a short list): a unit recovered on board goes to one, the vessel say, that
+    # its history may not name yet.
+    chosen[Place] = _ids(Place.objects.all())
     return chosen
 
 
@@ -451,7 +456,6 @@ def refuse_on_a_kit(action: str) -> None:
         )
 
 
-@transaction.atomic
 def kit_export(
     *,
     units: Sequence[Transponder],
@@ -462,11 +466,23 @@ def kit_export(
     out: Path,
 ) -> Kit:
     """Make a vessel kit of ``units`` (with ``sites`` and the sailing ``users``) for ``job`` and
-    write its file to ``out`` (see the module docstring). Nothing is kept if any step fails."""
+    write its file to ``out`` (see the module docstring). Nothing is kept if any step fails.
+
+    The empty kit database is made before the shore's transaction starts (the first time in a
+    process it is migrated, which takes a while), so the shore's write lock is held only for
+    the copy and the check."""
     refuse_on_a_kit("making a kit")
     choice = KitChoice(units=units, sites=sites, users=users, job=job.strip())
     _check_choice(choice)
-    unit_ids = sorted({u.pk for u in units})
+    with tempfile.TemporaryDirectory(prefix="holdfast-kit-") as work:
+        db_path = Path(work) / DATABASE_MEMBER
+        _empty_kit_database(db_path)
+        return _export_into(choice, by=by, db_path=db_path, out=Path(out))
+
+
+@transaction.atomic
+def _export_into(choice: KitChoice, *, by: User, db_path: Path, out: Path) -> Kit:
+    unit_ids = sorted({u.pk for u in choice.units})
     locked = list(Transponder.objects.select_for_update().filter(pk__in=unit_ids).order_by("pk"))
     if len(locked) != len(unit_ids):
         raise ValidationError({"units": "A unit chosen no longer exists; choose again."})
@@ -476,30 +492,26 @@ def kit_export(
     kit.full_clean()
     kit.save()
     kit.units.set(locked)
-    kit.sites.set(sites)
-    kit.users.set(users)
-    choice = KitChoice(units=locked, sites=sites, users=users, job=choice.job)
-    out = Path(out)
-    with tempfile.TemporaryDirectory(prefix="holdfast-kit-") as work:
-        db_path = Path(work) / DATABASE_MEMBER
-        _empty_kit_database(db_path)
-        with kit_database(db_path) as alias, transaction.atomic(using=alias):
-            counts = _copy_into(alias, kit, choice)
-        problem = check_derived_state(db_path)
-        if problem:
-            raise ValidationError(
-                f"The kit's derived state does not match a rebuild; no kit was made. {problem}"
-            )
-        final = Path(work) / "final.sqlite3"
-        copy_database(db_path, final)
-        _write_kit_file(
-            out,
-            final,
-            kind=KIT_FORMAT,
-            command="kit_export",
-            at=at,
-            kit=_manifest(kit, choice, counts),
+    kit.sites.set(choice.sites)
+    kit.users.set(choice.users)
+    choice = KitChoice(units=locked, sites=choice.sites, users=choice.users, job=choice.job)
+    with kit_database(db_path) as alias, transaction.atomic(using=alias):
+        counts = _copy_into(alias, kit, choice)
+    problem = check_derived_state(db_path)
+    if problem:
+        raise ValidationError(
+            f"The kit's derived state does not match a rebuild; no kit was made. {problem}"
         )
+    final = db_path.with_name("final.sqlite3")
+    copy_database(db_path, final)
+    _write_kit_file(
+        out,
+        final,
+        kind=KIT_FORMAT,
+        command="kit_export",
+        at=at,
+        kit=_manifest(kit, choice, counts),
+    )
     kit.exported_sha256 = _sha256(out)
     kit.save(update_fields=["exported_sha256"])
     return kit

@@ -201,3 +201,16 @@ def test_kit_pack_writes_the_return_file_of_a_working_copy(shore, tmp_path):
     assert (returned.kit_code, returned.direction) == ("K0001", "return")
     assert returned.manifest["kit"]["packed_by"] == "tech"
     assert returned.manifest["kit"]["units"] == ["TX-0001", "TX-0002"]
+
+
+def test_the_kits_list_is_one_query_with_its_unit_counts(shore, django_assert_num_queries):
+    from fleet.selectors import kit_rows
+
+    for code, units in (("K0001", shore.units[:2]), ("K0002", shore.units[2:])):
+        kit = _kit_here(shore.sailing[1])
+        Kit.objects.filter(pk=kit.pk).update(code=code, here=False)
+        kit.units.set(units)
+    with django_assert_num_queries(1):
+        rows = kit_rows()
+        counts = {k.code: (k.unit_count, k.created_by.username) for k in rows}
+    assert counts == {"K0001": (2, "super"), "K0002": (1, "super")}

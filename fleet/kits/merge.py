@@ -294,13 +294,13 @@ class MergePlan:
             yield "This file was merged already; merging it again changes nothing."
         counts = self.counts()
         yield "To add: " + (
-            ", ".join(f"{n} {label}" for label, n in counts.items()) or "nothing new"
+            ", ".join(f"{label}: {n}" for label, n in counts.items()) or "nothing new"
         )
         for row in self.additions:
             yield f"  + {row.unit_serial}: {row.text}"
         changes = self.change_counts()
         yield "Changes made on board to rows that existed at export: " + (
-            ", ".join(f"{n} {what}" for what, n in changes.items()) or "none"
+            ", ".join(f"{what}: {n}" for what, n in changes.items()) or "none"
         )
         for change in self.changes:
             yield f"  ~ {change.unit_serial}: {change.text}"
@@ -775,8 +775,9 @@ class _Planner:
                     explanation=(
                         f"{unit.serial}: the vessel's {v.text} cannot be true together with "
                         f"the shore's history since the export: {reasons}. Keep the shore's "
-                        "history (the vessel's row stays in this conflict), or add the "
-                        "vessel's row as well once the shore's history is corrected."
+                        "history (the vessel's rows stay kept in this conflict), or add the "
+                        "vessel's rows as well (refused while the shore's records contradict "
+                        "them: correct those first)."
                     ),
                     shore=[shore_json(cast("models.Model", s.row)) for s, _ in found],
                     vessel=[row],

@@ -113,7 +113,7 @@ def test_the_command_previews_then_merges_a_return_file_once(
 ):
     back = _trip(fleet, technician, supervisor, tmp_path)
     preview = _run(str(back))
-    assert "To add: 1 bench visits, 1 entries, 1 deployments" in preview
+    assert "To add: bench visits: 1, entries: 1, deployments: 1" in preview
     assert "Conflicts: none" in preview
     assert "Nothing was written" in preview
     assert not KitMerge.objects.exists()

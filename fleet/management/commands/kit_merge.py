@@ -53,7 +53,7 @@ class Command(BaseCommand):
                 raise CommandError(
                     f"Kit merge refused: {'; '.join(getattr(exc, 'messages', [str(exc)]))}"
                 ) from exc
-        added = ", ".join(f"{n} {label}" for label, n in merge.counts.items()) or "nothing new"
+        added = ", ".join(f"{label}: {n}" for label, n in merge.counts.items()) or "nothing new"
         conflicts = merge.conflicts.count()
         self.stdout.write(
             f"Merged kit {merge.kit.code} (merge {merge.pk}): added {added}; "

@@ -478,3 +478,23 @@ def test_a_later_return_file_brings_what_the_vessel_did_since_to_rows_merged_bef
         assert ashore.release_tests.get().origin == "K0001"
         assert Deployment.objects.get(uid=wet.uid).replies_counted == 12
         _clean_rebuild()
+
+
+def test_a_resolution_given_with_the_merge_is_carried_out_and_recorded(
+    three, technician, supervisor, site, tmp_path
+):
+    b = three[1]
+    now = timezone.now()
+    with exported_kit(
+        three, by=supervisor, users=[technician, supervisor], sites=[site], directory=tmp_path
+    ) as (kit, alias):
+        with on_board(alias):
+            _deploy(b, site, technician, now - dt.timedelta(hours=8), now - dt.timedelta(hours=2))
+        _deploy(b, site, technician, now - dt.timedelta(hours=5))
+        key = plan_merge(alias, code="K0001", file_sha256=SHA).conflicts[0].key
+        merge = merge_apply_from(
+            alias, code="K0001", file_sha256=SHA, by=supervisor, resolutions={key: "keep_shore"}
+        )
+        conflict = merge.conflicts.get()
+        assert conflict.resolution == "keep_shore" and conflict.resolved_by == supervisor
+        assert Kit.objects.get().status == Kit.Status.MERGED

@@ -445,12 +445,25 @@ class KitReader:
             lookup = self.content_types
         if lookup is not None:
             if kit_pk not in lookup:
-                raise _UnmatchedError(label, kit_pk)
+                raise self._missing_reference(model, kit_pk)
             return Ref(label, pk=lookup[kit_pk])
         # Reference rows copied with their keys (variants' anode and seal positions).
         if not model._base_manager.filter(pk=kit_pk).exists():
             raise _UnmatchedError(label, kit_pk)
         return Ref(label, pk=kit_pk)
+
+    def _missing_reference(self, model: type[models.Model], kit_pk: int) -> MergeRefusedError:
+        """A user, place or site the vessel's rows name that the shore does not have (made on
+        board): the whole merge waits until it exists ashore under the same name."""
+        key = {User: "username", Place: "name", Site: "name"}.get(model)
+        if key is None:
+            return _UnmatchedError(model._meta.label_lower, kit_pk)
+        name = model._base_manager.using(self.alias).values_list(key, flat=True).get(pk=kit_pk)
+        return MergeRefusedError(
+            f"The vessel's rows name the {model._meta.verbose_name} {name!r}, which this "
+            "database does not have (it was added on board). Add it ashore under the same "
+            "name, then merge again; nothing was merged."
+        )
 
     def vessel_row(self, instance: Any) -> VesselRow:
         model = type(instance)

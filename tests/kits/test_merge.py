@@ -8,7 +8,7 @@ from django.core.exceptions import ValidationError
 from django.utils import timezone
 
 from fleet.due.snapshot import rebuild_differences
-from fleet.kits.merge import plan_merge
+from fleet.kits.merge import MergeRefusedError, plan_merge
 from fleet.models import (
     Amendment,
     AnodeReading,
@@ -28,7 +28,7 @@ from fleet.services.deployments import deployment_recover, deployment_start
 from fleet.services.fleet import unit_hold_set
 from fleet.services.kit_merge import CertificateClashError, conflict_resolve, merge_apply_from
 from fleet.services.records import amendment_create, service_record_close, service_record_save
-from tests.builders import make_unit, serviced_unit
+from tests.builders import make_site, make_unit, serviced_unit
 from tests.documents.conftest import bench_visit, release_test
 from tests.kits.merge_helpers import exported_kit, on_board
 
@@ -498,3 +498,23 @@ def test_a_resolution_given_with_the_merge_is_carried_out_and_recorded(
         conflict = merge.conflicts.get()
         assert conflict.resolution == "keep_shore" and conflict.resolved_by == supervisor
         assert Kit.objects.get().status == Kit.Status.MERGED
+
+
+def test_a_site_added_on_board_stops_the_merge_until_the_shore_has_it(
+    three, technician, supervisor, site, tmp_path
+):
+    a = three[0]
+    now = timezone.now()
+    with exported_kit(
+        three, by=supervisor, users=[technician, supervisor], sites=[site], directory=tmp_path
+    ) as (kit, alias):
+        with on_board(alias):
+            found = make_site(name="Uncharted shoal")
+            _deploy(a, found, technician, now - dt.timedelta(hours=8), now - dt.timedelta(hours=2))
+        with pytest.raises(MergeRefusedError, match="'Uncharted shoal'.*Add it ashore"):
+            merge_apply_from(alias, code="K0001", file_sha256=SHA, by=supervisor)
+        assert not KitMerge.objects.exists()
+        make_site(name="Uncharted shoal", latitude_deg=12.0)
+        merge = merge_apply_from(alias, code="K0001", file_sha256=SHA, by=supervisor)
+        assert merge.counts == {"deployments": 1}
+        assert Deployment.objects.get(origin="K0001").site.name == "Uncharted shoal"

@@ -9,6 +9,7 @@ from .views import (
     find,
     help,
     imports,
+    kit_merge,
     kits,
     media,
     planning,
@@ -74,6 +75,14 @@ urlpatterns = [
     # The admin's sign-in: ours (a technician gets our 403 page, not the framework's login).
     path("admin/login/", signin.admin_login, name="admin-login"),
     # Bringing history in from spreadsheets (supervisors)
+    path("kits/merge/", kit_merge.kit_merge_page, name="kit-merge"),
+    path("kits/merge/confirm/", kit_merge.kit_merge_confirm, name="kit-merge-confirm"),
+    path("kits/merge/<int:pk>/", kit_merge.kit_merge_result, name="kit-merge-result"),
+    path(
+        "kits/conflicts/<int:pk>/resolve/",
+        kit_merge.kit_conflict_resolve,
+        name="kit-conflict-resolve",
+    ),
     path("kits/", kits.kit_list, name="kit-list"),
     path("kits/new/", kits.kit_new, name="kit-new"),
     path("kits/pack/", kits.kit_pack_view, name="kit-pack"),

@@ -5,6 +5,7 @@ from .deployments import Deployment
 from .documents import CertificateCounter, ReleaseCertificate
 from .feeds import CalendarFeed
 from .imports import ImportBatch, ImportedRow
+from .kit_merge import KitConflict, KitMerge
 from .kits import Kit
 from .places import Place, Site
 from .preferences import LabelSetting
@@ -53,6 +54,8 @@ __all__ = [
     "ImportBatch",
     "ImportedRow",
     "Kit",
+    "KitConflict",
+    "KitMerge",
     "LabelSetting",
     "PackRemoval",
     "Place",

@@ -19,6 +19,8 @@ from fleet.models import (
     CalendarFeed,
     Deployment,
     Kit,
+    KitConflict,
+    KitMerge,
     ReleaseCertificate,
     ReleaseTest,
     ServiceRecord,
@@ -67,6 +69,21 @@ def _check(request: HttpRequest, write: bool, supervise: bool = False) -> None:
 def check_import_for_user(request: HttpRequest) -> None:
     """Importing history is for supervisors (every import view starts here)."""
     _check(request, write=False, supervise=True)
+
+
+def check_kit_merge_for_user(request: HttpRequest) -> None:
+    """Merging a vessel kit and resolving its conflicts is for supervisors."""
+    _check(request, write=False, supervise=True)
+
+
+def get_kit_merge_for_user(request: HttpRequest, pk: int) -> KitMerge:
+    _check(request, write=False, supervise=True)
+    return get_object_or_404(KitMerge.objects.select_related("kit", "merged_by"), pk=pk)
+
+
+def get_kit_conflict_for_user(request: HttpRequest, pk: int) -> KitConflict:
+    _check(request, write=False, supervise=True)
+    return get_object_or_404(KitConflict.objects.select_related("merge", "unit"), pk=pk)
 
 
 def get_unit_for_user(

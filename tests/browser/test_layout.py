@@ -11,7 +11,15 @@ from pathlib import Path
 import pytest
 from django.utils import timezone
 
-from fleet.models import Deployment, ServiceRecord, Transponder, UnitHold
+from fleet.models import (
+    Deployment,
+    Kit,
+    KitConflict,
+    KitMerge,
+    ServiceRecord,
+    Transponder,
+    UnitHold,
+)
 from fleet.services.deployments import deployment_start
 from fleet.services.records import service_record_save
 from tests.builders import make_place, make_site, make_unit, make_user, make_variant, serviced_unit
@@ -104,7 +112,55 @@ def _fleet():
         by=tech,
     )
     closed = ServiceRecord.objects.filter(unit=ready, closed_at__isnull=False).first()
-    return {"site": site, "record": record, "closed": closed, "variant": variant}
+    merge = _kit_merge(people["supervisor"], bench)
+    return {"site": site, "record": record, "closed": closed, "variant": variant, "merge": merge}
+
+
+def _kit_merge(boss, unit):
+    """A merged kit with one conflict kept, its rows' long values as a merge writes them."""
+    kit = Kit.objects.create(
+        code="K0042",
+        job="Layout survey of the far-offshore array, second leg",
+        created_at=timezone.now() - dt.timedelta(days=3),
+        created_by=boss,
+        certificate_year=timezone.localdate().year,
+        certificate_first=9001,
+        certificate_last=9100,
+    )
+    merge = KitMerge.objects.create(
+        kit=kit,
+        file_sha256="c" * 64,
+        merged_at=timezone.now(),
+        merged_by=boss,
+        status=KitMerge.Status.APPLIED,
+        counts={"bench visits": 1, "entries": 3, "deployments": 1},
+        rows_added=5,
+        notes="LY1-0004 was worked on both sides since the export; the histories do not overlap.",
+    )
+    row = {
+        "model": "fleet.deployment",
+        "uid": "0b6f3c5e-8d0a-4a43-9d1f-5a7f1f0f2c11",
+        "text": "deployment over the side 2026-11-29 06:40, recovered 2026-11-30 18:05",
+        "fields": {
+            "over_side_at": "2026-11-29T06:40:00.000000+00:00",
+            "notes": "Released on the second command; slow ascent, recovered by the workboat "
+            "alongside-without-the-crane-because-the-swell-was-too-high",
+            "uid": "0b6f3c5e-8d0a-4a43-9d1f-5a7f1f0f2c11",
+        },
+        "refs": {},
+    }
+    KitConflict.objects.create(
+        merge=merge,
+        kind=KitConflict.Kind.INTERLEAVED,
+        unit=unit,
+        key="layout",
+        explanation="LY1-0004: the vessel's deployment cannot be true together with the "
+        "shore's history since the export: ashore it was on the bench meanwhile.",
+        shore_version=[{"model": "fleet.servicerecord", "text": "bench visit", "fields": {}}],
+        vessel_version=[row],
+        choices=[KitConflict.Choice.KEEP_SHORE, KitConflict.Choice.ADD_VESSEL],
+    )
+    return merge
 
 
 def _pages(fleet, role):
@@ -149,6 +205,8 @@ def _pages(fleet, role):
             "/units/LY1-0001/hold/",
             "/import/",
             "/labels/contact/",
+            "/kits/merge/",
+            f"/kits/merge/{fleet['merge'].pk}/",
             "/kits/",
             "/kits/new/",
         ]

@@ -789,8 +789,9 @@ class _Planner:
                         f"{unit.serial}: the vessel's {v.text} cannot be true together with "
                         f"the shore's history since the export: {reasons}. Keep the shore's "
                         "history (the vessel's rows stay kept in this conflict), or add the "
-                        "vessel's rows as well (refused while the shore's records contradict "
-                        "them: correct those first)."
+                        "vessel's rows as well when both truly happened (a clock set wrong on "
+                        "one side, say); what cannot be stored together, such as two "
+                        "deployments at once, is still refused until one side is corrected."
                     ),
                     shore=[shore_json(cast("models.Model", s.row)) for s, _ in found],
                     vessel=[row],

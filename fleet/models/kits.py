@@ -11,6 +11,7 @@ the models' ``save()`` can stamp ``origin`` without importing a floor above them
 
 import threading
 import uuid
+from collections.abc import Collection
 from typing import Any
 
 from django.conf import settings
@@ -141,3 +142,9 @@ class Stamped(models.Model):
         if self._state.adding and not self.origin:
             self.origin = origin_here(kwargs.get("using") or "default")
         super().save(*args, **kwargs)
+
+    def validate_unique(self, exclude: Collection[str] | None = None) -> None:
+        # A uid is a fresh uuid4, or one the merge copies after looking it up: asking the
+        # database whether it is taken would cost a query for every row a service or an
+        # import checks. The unique index stays the backstop.
+        super().validate_unique(exclude={*(exclude or ()), "uid"})

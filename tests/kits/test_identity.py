@@ -136,3 +136,19 @@ def test_the_kit_is_read_again_after_its_row_changes(supervisor):
     assert current_kit() == kit
     kit.delete()
     assert current_kit() is None
+
+
+def test_checking_a_new_row_asks_the_database_nothing_about_its_uid(unit, technician):
+    # One query per row checked would make a 100,000-row import ask 100,000 times; the
+    # unique index is the backstop for a uuid4.
+    from django.db import connection
+    from django.test.utils import CaptureQueriesContext
+
+    from fleet.models import ServiceRecord
+
+    record = ServiceRecord(
+        unit=unit, opened_at=T0, technician=technician, place=unit.place, created_by=technician
+    )
+    with CaptureQueriesContext(connection) as queries:
+        record.full_clean()
+    assert not [q["sql"] for q in queries if '"uid"' in q["sql"]]

@@ -55,6 +55,7 @@ from .acceptance import (
 )
 from .days import add_days, add_months, days_between, local_day, start_of
 from .duty import Duty, charge_per_reply_as, duty_of
+from .facts import AnodeRowFacts, PressureTestFacts, StateFacts, UnitFacts
 from .items import DueItem, DueState, ItemKind, classify
 from .rules import Rules, rules_for
 
@@ -122,7 +123,7 @@ class AnodeProjection:
         )
 
 
-def anode_projection(row: AnodeState, rules: Rules, duty: Duty) -> AnodeProjection:
+def anode_projection(row: AnodeState | AnodeRowFacts, rules: Rules, duty: Duty) -> AnodeProjection:
     position = row.position
     new_kg = position.new_net_mass_g / 1000.0
     threshold = new_kg * position.replace_at_remaining_percent / 100.0
@@ -243,7 +244,9 @@ class BatteryProjection:
         return (self.remaining_ah - self.reserve_ah) / per_day
 
 
-def _pack_spec(unit: Transponder, state: UnitState) -> tuple[str, calc_battery.PackSpec]:
+def _pack_spec(
+    unit: Transponder | UnitFacts, state: UnitState | StateFacts
+) -> tuple[str, calc_battery.PackSpec]:
     pack = state.pack
     assert pack is not None
     variant = unit.variant
@@ -268,8 +271,8 @@ def _mean_current_a(
 
 
 def battery_projection(
-    unit: Transponder,
-    state: UnitState,
+    unit: Transponder | UnitFacts,
+    state: UnitState | StateFacts,
     rules: Rules,
     duty: Duty,
     steps: dict[int, float],
@@ -355,7 +358,7 @@ def battery_outcome(b: BatteryProjection | None, duty: Duty) -> Outcome:
 # --- tests and checks ---------------------------------------------------------------------
 
 
-def pressure_tested_words(test: PressureTest) -> str:
+def pressure_tested_words(test: PressureTest | PressureTestFacts) -> str:
     """The one phrase that names a pressure test in every basis and check: its date and the
     pressure it held from."""
     return f"tested {test.tested_on} at {quantity(test.start_pressure_dbar, 'dbar', 0)}"

@@ -90,7 +90,10 @@ class Verdict(StrEnum):
 
     @property
     def rank(self) -> int:
-        return {"fail": 0, "warn": 1, "pass": 2}[self.value]
+        return _RANK[self.value]
+
+
+_RANK = {"fail": 0, "warn": 1, "pass": 2}
 
 
 @dataclass(frozen=True, slots=True)

@@ -25,6 +25,29 @@ class AnodeHistory:
     fitted: tuple[tuple[dt.date, float], ...]
     projection: tuple[tuple[dt.date, float], ...]
     threshold_percent: float
+    shown: str = ""  # what is drawn when the readings are thinned ("" when all are)
+
+
+# The chart draws a bounded number of readings, whatever the history: the newest
+# ``RECENT_READINGS`` in full; before them, each calendar year's first, last, lowest and
+# highest reading and every reading that replaced the anode.
+RECENT_READINGS = 100
+
+
+def thin_readings(points: list[tuple[dt.date, float, bool]]) -> list[int]:
+    """Indices (oldest first) of the readings ``(day, percent, replaced)`` the chart draws."""
+    cut = max(0, len(points) - RECENT_READINGS)
+    keep = set(range(cut, len(points)))
+    by_year: dict[int, list[int]] = {}
+    for i in range(cut):
+        by_year.setdefault(points[i][0].year, []).append(i)
+        if points[i][2]:
+            keep.add(i)
+    for indices in by_year.values():
+        keep.update((indices[0], indices[-1]))
+        keep.add(min(indices, key=lambda i: points[i][1]))
+        keep.add(max(indices, key=lambda i: points[i][1]))
+    return sorted(keep)
 
 
 def anode_history(ev: UnitEvaluation, position_id: int) -> AnodeHistory | None:
@@ -57,12 +80,18 @@ def anode_history(ev: UnitEvaluation, position_id: int) -> AnodeHistory | None:
     new_g = next(
         p.new_net_mass_g for p in unit.variant.anode_positions.all() if p.pk == position_id
     )
-    for index, (mass_g, remaining_percent, _replaced, opened_at) in enumerate(rows):
+    every: list[tuple[dt.date, float, bool]] = []
+    at: list[int] = []  # each reading's index in ``rows``
+    for index, (mass_g, remaining_percent, replaced, opened_at) in enumerate(rows):
         # As ``AnodeReading.effective_remaining_percent``.
         pct = remaining_percent if mass_g is None else 100.0 * mass_g / new_g
-        if pct is None:
-            continue
-        day = timezone.localdate(opened_at)
+        if pct is not None:
+            every.append((timezone.localdate(opened_at), pct, replaced))
+            at.append(index)
+    kept = thin_readings(every)
+    for k in kept:
+        day, pct, _replaced = every[k]
+        index = at[k]
         points.append((day, pct))
         current_anode = last_replaced is None or index > last_replaced
         if current_anode and wearing and projection.fit is not None:
@@ -76,8 +105,19 @@ def anode_history(ev: UnitEvaluation, position_id: int) -> AnodeHistory | None:
         future.append((as_of, 100.0 * projection.mass_now_kg / projection.new_kg))
         if item is not None and item.due_on is not None and item.due_on > as_of:
             future.append((item.due_on, projection.replace_at_percent))
+    shown = ""
+    if len(kept) < len(every):
+        shown = (
+            f"{len(kept):,} of {len(every):,} readings drawn: the newest {RECENT_READINGS} "
+            "in full; before them each year's first, last, lowest, highest and replacements"
+        )
     return AnodeHistory(
-        projection.name, tuple(points), tuple(fitted), tuple(future), projection.replace_at_percent
+        projection.name,
+        tuple(points),
+        tuple(fitted),
+        tuple(future),
+        projection.replace_at_percent,
+        shown,
     )
 
 

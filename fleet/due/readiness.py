@@ -755,7 +755,7 @@ def _chunk_rows(
     for unit_id, position_id, *values in AnodeState.objects.filter(unit_id__in=ids).values_list(
         *ANODE_COLUMNS
     ):
-        anodes.setdefault(unit_id, {})[position_id] = tuple(values)  # type: ignore[assignment]
+        anodes.setdefault(unit_id, {})[position_id] = tuple(values)
     dated: dict[int, dict[str, Dated]] = {}
     rows = DueRow.objects.filter(unit_id__in=ids, kind__in=DATED_KINDS)
     for unit_id, key, due_on, failed, basis in rows.values_list(

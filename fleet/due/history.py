@@ -50,6 +50,24 @@ def thin_readings(points: list[tuple[dt.date, float, bool]]) -> list[int]:
     return sorted(keep)
 
 
+Row = tuple[float | None, float | None, bool, dt.datetime]
+
+
+def _percents(rows: list[Row], new_g: float) -> tuple[list[tuple[dt.date, float, bool]], list[int]]:
+    """Each reading with a value as (local day, % of new, replaced), and its index in
+    ``rows``."""
+    tz = timezone.get_current_timezone()
+    every: list[tuple[dt.date, float, bool]] = []
+    at: list[int] = []
+    for index, (mass_g, remaining_percent, replaced, opened_at) in enumerate(rows):
+        # As ``AnodeReading.effective_remaining_percent``.
+        pct = remaining_percent if mass_g is None else 100.0 * mass_g / new_g
+        if pct is not None:
+            every.append((opened_at.astimezone(tz).date(), pct, replaced))
+            at.append(index)
+    return every, at
+
+
 def anode_history(ev: UnitEvaluation, position_id: int) -> AnodeHistory | None:
     projection = next((p for p in ev.anodes if p.position_id == position_id), None)
     if projection is None:
@@ -58,37 +76,36 @@ def anode_history(ev: UnitEvaluation, position_id: int) -> AnodeHistory | None:
     intervals = list(
         Deployment.objects.filter(unit=unit).values_list("over_side_at", "recovered_at")
     )
-    # Plain values, oldest first; each reading's immersed days found in one pass.
+    # Plain values, oldest first.
     rows = list(
         unit_readings(unit, [position_id])
         .order_by("record__opened_at", "pk")
         .values_list("mass_g", "remaining_percent", "replaced", "record__opened_at")
     )
-    xs = immersed_days_at_each(intervals, [row[3] for row in rows])
+    new_g = next(
+        p.new_net_mass_g for p in unit.variant.anode_positions.all() if p.pk == position_id
+    )
+    every, at = _percents(rows, new_g)
+    kept = thin_readings(every)
+    # The current anode's life starts at the last replacement.
+    last_replaced = max((i for i, row in enumerate(rows) if row[2]), default=None)
+    # Immersed days (one pass) at the drawn readings and the last replacement only.
+    wanted = {at[k] for k in kept}
+    if last_replaced is not None:
+        wanted.add(last_replaced)
+    needed = sorted(wanted)
+    moments = [rows[i][3] for i in needed]
+    xs = dict(zip(needed, immersed_days_at_each(intervals, moments), strict=True))
     points = []
     fitted = []
     fit_from_x = 0.0
     wearing = projection.fit is not None and bool(projection.fit.rate_kg_per_day)
-    # The current anode's life starts at the last replacement.
-    last_replaced = max((i for i, row in enumerate(rows) if row[2]), default=None)
     if last_replaced is not None:
         fit_from_x = xs[last_replaced]
         start_mass = projection.fit.mass_at_kg(0.0) if projection.fit and wearing else None
         if start_mass is not None:
             day = timezone.localdate(rows[last_replaced][3])
             fitted.append((day, 100.0 * start_mass / projection.new_kg))
-    new_g = next(
-        p.new_net_mass_g for p in unit.variant.anode_positions.all() if p.pk == position_id
-    )
-    every: list[tuple[dt.date, float, bool]] = []
-    at: list[int] = []  # each reading's index in ``rows``
-    for index, (mass_g, remaining_percent, replaced, opened_at) in enumerate(rows):
-        # As ``AnodeReading.effective_remaining_percent``.
-        pct = remaining_percent if mass_g is None else 100.0 * mass_g / new_g
-        if pct is not None:
-            every.append((timezone.localdate(opened_at), pct, replaced))
-            at.append(index)
-    kept = thin_readings(every)
     for k in kept:
         day, pct, _replaced = every[k]
         index = at[k]

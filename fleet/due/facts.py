@@ -9,6 +9,7 @@ and every readiness check then run the same code on either, so there is one deri
 from __future__ import annotations
 
 import datetime as dt
+from collections.abc import Sequence
 from dataclasses import dataclass
 
 from fleet.models import (
@@ -163,19 +164,25 @@ AnodeValues = tuple[
 ]
 
 
-def anode_rows(variant: Variant, by_position: dict[int, AnodeValues]) -> tuple[AnodeRowFacts, ...]:
-    """One row per position of the variant, in its order; a position with no stored row yet
-    has no data (the defaults)."""
+def anode_rows(
+    positions: Sequence[AnodePosition], by_position: dict[int, AnodeValues]
+) -> tuple[AnodeRowFacts, ...]:
+    """One row per position of the variant (``positions``, in its order); a position with no
+    stored row yet has no data (the defaults)."""
     return tuple(
         AnodeRowFacts(p, *by_position[p.pk]) if p.pk in by_position else AnodeRowFacts(p)
-        for p in variant.anode_positions.all()
+        for p in positions
     )
 
 
 def unit_facts_from_values(
-    row: tuple[object, ...], variant: Variant, anodes: dict[int, AnodeValues]
+    row: tuple[object, ...],
+    variant: Variant,
+    positions: Sequence[AnodePosition],
+    anodes: dict[int, AnodeValues],
 ) -> UnitFacts:
-    """A row of ``UNIT_COLUMNS`` as ``UnitFacts``."""
+    """A row of ``UNIT_COLUMNS`` as ``UnitFacts``; ``positions``: the variant's anode
+    positions, read once for all its units."""
     (pk, serial, address, _variant_id, step, delay, hold_reason, condition, place,
      state_id, as_of, immersed, first_over, duty_replies, used,
      open_id, open_at, open_rate, open_step,
@@ -210,7 +217,7 @@ def unit_facts_from_values(
         condition,  # type: ignore[arg-type]
         place or "",  # type: ignore[arg-type]
         state,
-        anode_rows(variant, anodes),
+        anode_rows(positions, anodes),
     )
 
 
@@ -272,5 +279,5 @@ def unit_facts_of(unit: Transponder, state: UnitState | None, condition: str) ->
         condition,
         unit.place.name if unit.place else "",
         state_facts_of(state),
-        anode_rows(unit.variant, stored),
+        anode_rows(list(unit.variant.anode_positions.all()), stored),
     )

@@ -44,7 +44,16 @@ from fleet.calc import buoyancy as calc_buoyancy
 from fleet.calc import ranging as calc_ranging
 from fleet.calc import seawater as calc_seawater
 from fleet.formatting import clauses, number, percent, quantity, signed
-from fleet.models import AnodeState, Deployment, DueRow, SensorCheck, Site, Transponder, Variant
+from fleet.models import (
+    AnodeState,
+    Deployment,
+    DueRow,
+    SealPosition,
+    SensorCheck,
+    Site,
+    Transponder,
+    Variant,
+)
 
 from .condition import Condition, annotate_condition, condition_of
 from .duty import Duty, duty_of
@@ -90,10 +99,13 @@ class Verdict(StrEnum):
 
     @property
     def rank(self) -> int:
-        return _RANK[self.value]
+        return _RANK[self]
 
 
-_RANK = {"fail": 0, "warn": 1, "pass": 2}
+# The members as plain module names: ``Verdict.PASS`` goes through the enum's descriptor on
+# every use, a cost the whole-fleet planner pays hundreds of thousands of times.
+PASS, WARN, FAIL = Verdict.PASS, Verdict.WARN, Verdict.FAIL
+_RANK = {FAIL: 0, WARN: 1, PASS: 2}
 
 
 @dataclass(frozen=True, slots=True)
@@ -138,11 +150,18 @@ class Readiness(_OfAPlan):
 
     @property
     def verdict(self) -> Verdict:
-        return min((c.verdict for c in self.checks), key=lambda v: v.rank, default=Verdict.PASS)
+        """The worst of the checks' verdicts (pass when there are none)."""
+        worst = PASS
+        for c in self.checks:
+            if c.verdict is FAIL:
+                return FAIL
+            if c.verdict is WARN:
+                worst = WARN
+        return worst
 
     @property
     def failures(self) -> list[CheckResult]:
-        return [c for c in self.checks if c.verdict == Verdict.FAIL]
+        return [c for c in self.checks if c.verdict == FAIL]
 
     @property
     def first_failure(self) -> CheckResult | None:
@@ -201,6 +220,7 @@ class SiteMemo:
         self.pressure_dbar = calc_seawater.pressure_dbar(site.water_depth_m, site.latitude_deg)
         self._sound_speed: float | None = None
         self.steps: dict[int, dict[int, float]] = {}
+        self.seals: dict[int, list[SealPosition]] = {}
         self.buoyancy: dict[int, list[CheckResult]] = {}
         self.ranging: dict[tuple[int, float], list[CheckResult]] = {}
 
@@ -224,27 +244,24 @@ def _dated_item_check(
     *,
     missing: Verdict,
     lapses: Verdict,
-    expired: Verdict = Verdict.FAIL,
+    expired: Verdict = FAIL,
 ) -> CheckResult:
     """A test or interval item against the planned period: a fault fails; due by the start
     gives ``expired`` (a fail unless the item does not bear on the unit's safe return);
     lapsing before recovery gives ``lapses``; no record gives ``missing``."""
+    end = planned.end
     if item is None or item.due_on is None:
         basis = item.basis if item is not None else "nothing recorded"
         return CheckResult(name, missing, basis, source)
     if item.failed:
-        return CheckResult(name, Verdict.FAIL, item.basis, source)
+        return CheckResult(name, FAIL, item.basis, source)
     if item.due_on <= planned.start:
         return CheckResult(
             name, expired, f"due {item.due_on}, by the start {planned.start}", source
         )
-    if item.due_on < planned.end:
-        return CheckResult(
-            name, lapses, f"due {item.due_on}, before recovery {planned.end}", source
-        )
-    return CheckResult(
-        name, Verdict.PASS, f"due {item.due_on}, after recovery {planned.end}", source
-    )
+    if item.due_on < end:
+        return CheckResult(name, lapses, f"due {item.due_on}, before recovery {end}", source)
+    return CheckResult(name, PASS, f"due {item.due_on}, after recovery {end}", source)
 
 
 def check_status(c: Context) -> list[CheckResult]:
@@ -253,21 +270,21 @@ def check_status(c: Context) -> list[CheckResult]:
     unit = c.unit
     condition = Condition(unit.condition)
     if condition.held:
-        verdict, numbers = Verdict.FAIL, f"unit is {condition.label.lower()}"
+        verdict, numbers = FAIL, f"unit is {condition.label.lower()}"
         if unit.hold_reason:
             numbers += f": {unit.hold_reason}"
     elif condition == Condition.IN_WATER:
-        verdict = Verdict.FAIL
+        verdict = FAIL
         numbers = "unit is in the water now; recover and service it first"
     elif condition == Condition.ON_BENCH:
-        verdict = Verdict.WARN
+        verdict = WARN
         numbers = "unit is on the bench now; close its bench visit before it goes"
     elif condition == Condition.NEEDS_WORK:
         # The checks below judge each item for this job; the condition is today's summary.
-        verdict = Verdict.PASS
+        verdict = PASS
         numbers = "needs work today: an item is overdue or has no data (see below)"
     else:
-        verdict, numbers = Verdict.PASS, condition.label.lower()
+        verdict, numbers = PASS, condition.label.lower()
     return [CheckResult("Unit condition", verdict, numbers, "—")]
 
 
@@ -291,11 +308,11 @@ def check_depth(c: Context, margins: dict[str, float]) -> list[CheckResult]:
     margins["depth"] = spare
     numbers = depth_words(site.water_depth_m, rating, rules.depth_margin_fraction)
     if site.water_depth_m > rating:
-        verdict = Verdict.FAIL
+        verdict = FAIL
     elif spare < rules.depth_margin_fraction:
-        verdict = Verdict.WARN
+        verdict = WARN
     else:
-        verdict = Verdict.PASS
+        verdict = PASS
     return [CheckResult("Depth rating", verdict, numbers, f"margin: {COMMON}")]
 
 
@@ -308,22 +325,20 @@ def check_pressure_test(c: Context) -> list[CheckResult]:
     name = "Pressure test"
     item = c.items.get("pressure_test")
     if test is None or item is None:
-        return [CheckResult(name, Verdict.FAIL, "no pressure test recorded", source)]
+        return [CheckResult(name, FAIL, "no pressure test recorded", source)]
     head = (
         f"this site needs {quantity(needed, 'dbar', 0)} "
         f"({quantity(c.site_pressure_dbar, 'dbar', 0)} × {rules.proof_factor:g})"
     )
     if item.failed:
         # The item's basis already names the test and what is wrong with it.
-        return [CheckResult(name, Verdict.FAIL, clauses(head, item.basis), source)]
+        return [CheckResult(name, FAIL, clauses(head, item.basis), source)]
     tested = pressure_tested_words(test)
     if test.start_pressure_dbar < needed * (1.0 - rules.gauge_tolerance_percent / 100.0):
         short = needed - test.start_pressure_dbar
         numbers = clauses(head, f"{tested}, {quantity(short, 'dbar', 0)} short of it")
-        return [CheckResult(name, Verdict.FAIL, numbers, source)]
-    dated = _dated_item_check(
-        name, item, c.planned, source, missing=Verdict.FAIL, lapses=Verdict.WARN
-    )
+        return [CheckResult(name, FAIL, numbers, source)]
+    dated = _dated_item_check(name, item, c.planned, source, missing=FAIL, lapses=WARN)
     return [CheckResult(name, dated.verdict, clauses(head, tested, dated.numbers), source)]
 
 
@@ -375,17 +390,17 @@ def check_battery(c: Context, margins: dict[str, float]) -> list[CheckResult]:
     )
     if battery is None:
         margins["battery"] = -1.0
-        return [CheckResult("Battery", Verdict.FAIL, "no pack recorded as fitted", source)]
+        return [CheckResult("Battery", FAIL, "no pack recorded as fitted", source)]
     days = planned.days
     need = (battery.daily_in_water_ah + battery.self_discharge_daily_ah) * days
     left = battery.remaining_ah - need
     numbers = battery_words(battery, planned, c.rate, c.step, need)
     if left < 0:
-        verdict = Verdict.FAIL
+        verdict = FAIL
     elif left < battery.reserve_ah:
-        verdict = Verdict.WARN
+        verdict = WARN
     else:
-        verdict = Verdict.PASS
+        verdict = PASS
     margins["battery"] = left / battery.usable_ah if battery.usable_ah else -1.0
     return [CheckResult("Battery", verdict, numbers, source)]
 
@@ -397,12 +412,12 @@ def check_anodes(c: Context, margins: dict[str, float]) -> list[CheckResult]:
     for p in c.anodes:
         name = f"Anode: {p.name}"
         if p.fit is None:
-            results.append(CheckResult(name, Verdict.WARN, "no reading recorded", source))
+            results.append(CheckResult(name, WARN, "no reading recorded", source))
             continue
         mass_end = p.mass_after_kg(c.planned.days)
         if mass_end is None:
             numbers = "no wear rate yet (one reading and no design current)"
-            results.append(CheckResult(name, Verdict.WARN, numbers, source))
+            results.append(CheckResult(name, WARN, numbers, source))
             continue
         spare_kg = mass_end - p.threshold_kg
         numbers = (
@@ -412,12 +427,12 @@ def check_anodes(c: Context, margins: dict[str, float]) -> list[CheckResult]:
         )
         if p.bond_fault(c.rules):
             numbers += f"; bond {p.bond_resistance_ohm:g} Ω over the limit"
-            results.append(CheckResult(name, Verdict.FAIL, numbers, source))
+            results.append(CheckResult(name, FAIL, numbers, source))
             anode_margin = min(anode_margin, -1.0)
             continue
-        verdict = Verdict.FAIL if spare_kg < 0 else Verdict.PASS
-        if verdict == Verdict.PASS and p.fit.fast_wear:
-            verdict, numbers = Verdict.WARN, numbers + "; wearing faster than design"
+        verdict = FAIL if spare_kg < 0 else PASS
+        if verdict == PASS and p.fit.fast_wear:
+            verdict, numbers = WARN, numbers + "; wearing faster than design"
         results.append(CheckResult(name, verdict, numbers, source))
         anode_margin = min(anode_margin, spare_kg / p.new_kg)
     margins["anodes"] = anode_margin
@@ -427,16 +442,17 @@ def check_anodes(c: Context, margins: dict[str, float]) -> list[CheckResult]:
 def check_seals(c: Context) -> list[CheckResult]:
     source = f"intervals: {COMMON}; shelf life ISO 2230:2002"
     results = []
-    for seal in c.unit.variant.seal_positions.all():
+    seals = c.memo.seals.get(c.unit.variant_id)
+    if seals is None:
+        seals = c.memo.seals[c.unit.variant_id] = list(c.unit.variant.seal_positions.all())
+    for seal in seals:
         name = f"Seal: {seal.name}"
         item = c.items.get(f"seal:{seal.pk}")
         if item is None or item.due_on is None:
-            results.append(CheckResult(name, Verdict.WARN, "no seal change recorded", source))
+            results.append(CheckResult(name, WARN, "no seal change recorded", source))
             continue
-        result = _dated_item_check(
-            name, item, c.planned, source, missing=Verdict.WARN, lapses=Verdict.FAIL
-        )
-        if result.verdict == Verdict.FAIL and not item.failed:
+        result = _dated_item_check(name, item, c.planned, source, missing=WARN, lapses=FAIL)
+        if result.verdict == FAIL and not item.failed:
             result = CheckResult(name, result.verdict, f"{result.numbers}: {item.basis}", source)
         results.append(result)
     return results
@@ -448,12 +464,8 @@ def check_release(c: Context) -> list[CheckResult]:
     source = f"validity and acceptance: {COMMON}"
     item = c.items.get("release_test")
     if item is None or item.due_on is None:
-        return [CheckResult("Release test", Verdict.FAIL, "no release test recorded", source)]
-    return [
-        _dated_item_check(
-            "Release test", item, c.planned, source, missing=Verdict.FAIL, lapses=Verdict.FAIL
-        )
-    ]
+        return [CheckResult("Release test", FAIL, "no release test recorded", source)]
+    return [_dated_item_check("Release test", item, c.planned, source, missing=FAIL, lapses=FAIL)]
 
 
 def sensor_source(sensor: str) -> str:
@@ -480,10 +492,10 @@ def check_sensors(c: Context) -> list[CheckResult]:
                 item,
                 c.planned,
                 source,
-                missing=Verdict.WARN,
-                lapses=Verdict.WARN,
+                missing=WARN,
+                lapses=WARN,
                 # A lapsed calibration spoils the data, not the unit's return: a check.
-                expired=Verdict.WARN,
+                expired=WARN,
             )
         )
     return results
@@ -522,7 +534,7 @@ def _buoyancy(c: Context) -> list[CheckResult]:
     )
     name = "Recovery buoyancy"
     if variant.mass_in_air_kg is None or variant.displaced_volume_m3 is None:
-        return [CheckResult(name, Verdict.WARN, "variant has no mass and volume recorded", source)]
+        return [CheckResult(name, WARN, "variant has no mass and volume recorded", source)]
     surface_t = (
         rules.surface_temperature_c
         if site.surface_temperature_c is None
@@ -542,7 +554,7 @@ def _buoyancy(c: Context) -> list[CheckResult]:
         reserve_fraction_of_mass=rules.recovery_reserve_fraction_of_mass,
     )
     numbers = buoyancy_words(result, variant.mass_in_air_kg, variant.displaced_volume_m3)
-    verdict = Verdict.PASS if result.passed else Verdict.FAIL
+    verdict = PASS if result.passed else FAIL
     return [CheckResult(name, verdict, numbers, source)]
 
 
@@ -596,7 +608,7 @@ def _ranging(c: Context) -> list[CheckResult]:
     reasons = [r for t in timings for r in t.reasons]
     if reasons:
         numbers += "; " + "; ".join(dict.fromkeys(reasons))
-    verdict = Verdict.PASS if all(t.fits for t in timings) else Verdict.FAIL
+    verdict = PASS if all(t.fits for t in timings) else FAIL
     return [CheckResult("Reply timing", verdict, numbers, source)]
 
 
@@ -606,9 +618,9 @@ def check_address(c: Context, clashes: list[str]) -> list[CheckResult]:
         numbers = (
             f"address {unit.acoustic_address} already used at {site.name} by {', '.join(clashes)}"
         )
-        return [CheckResult("Acoustic address", Verdict.FAIL, numbers, "—")]
+        return [CheckResult("Acoustic address", FAIL, numbers, "—")]
     numbers = f"address {unit.acoustic_address} free at {site.name}"
-    return [CheckResult("Acoustic address", Verdict.PASS, numbers, "—")]
+    return [CheckResult("Acoustic address", PASS, numbers, "—")]
 
 
 def check_unit(
@@ -778,6 +790,7 @@ def plan_campaign(planned: PlannedDeployment, *, wanted: int, on: dt.date) -> Pl
     memo = SiteMemo(planned)
     variants = {v.pk: v for v in Variant.objects.prefetch_related(*VARIANT_PREFETCH)}
     rules = {pk: rules_for(v) for pk, v in variants.items()}
+    positions = {pk: list(v.anode_positions.all()) for pk, v in variants.items()}
     active = Transponder.objects.exclude(hold__in=INACTIVE)
     units = annotate_condition(active, on).order_by("pk").values_list(*UNIT_COLUMNS)
     results = []
@@ -789,7 +802,12 @@ def plan_campaign(planned: PlannedDeployment, *, wanted: int, on: dt.date) -> Pl
         for row in chunk:
             pk, variant_id = row[0], row[3]
             variant = variants[variant_id]  # type: ignore[index]
-            facts = unit_facts_from_values(row, variant, anodes.get(pk, {}))  # type: ignore[call-overload]
+            facts = unit_facts_from_values(
+                row,
+                variant,
+                positions[variant_id],  # type: ignore[index]
+                anodes.get(pk, {}),  # type: ignore[call-overload]
+            )
             others = [s for s in clashes.get(facts.acoustic_address, []) if s != facts.serial]
             if facts.state is None:
                 stateless.append(facts.pk)
@@ -821,20 +839,20 @@ def plan_campaign(planned: PlannedDeployment, *, wanted: int, on: dt.date) -> Pl
                 _check_loaded(unit, planned, clashes, on=on, memo=memo, rules_cache=cache)
             )
     candidates = sorted(
-        (r for r in results if r.verdict != Verdict.FAIL),
+        (r for r in results if r.verdict != FAIL),
         key=lambda r: (-r.verdict.rank, -r.margin, r.unit.serial),
     )
     # Units picked for the same job must answer to different addresses: the better-ranked
     # unit keeps its address and a later one with the same address is set aside.
     ready: list[Readiness] = []
     taken: dict[str, str] = {}
-    rejected = [r for r in results if r.verdict == Verdict.FAIL]
+    rejected = [r for r in results if r.verdict == FAIL]
     for r in candidates:
         address = r.unit.acoustic_address
         if address in taken:
             clash = CheckResult(
                 "Acoustic address",
-                Verdict.FAIL,
+                FAIL,
                 f"address {address} is also {taken[address]}'s, ranked higher in this plan",
                 "—",
             )

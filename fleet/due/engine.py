@@ -37,7 +37,6 @@ from fleet.calc import seals as calc_seals
 from fleet.formatting import clauses, quantity
 from fleet.models import (
     AnodeState,
-    DueRow,
     PressureTest,
     SealState,
     SensorCheck,
@@ -584,58 +583,6 @@ def evaluate_unit(
                 f"Sensor check: {sensor.label}",
                 sensor_outcome(check, unit, rules),
             )
-    return ev
-
-
-# A stored due row as plain values, in this order (``stored_rows``).
-STORED_ROW_FIELDS = ("kind", "key", "item", "due_on", "basis", "flags", "failed", "position")
-StoredRow = tuple[str, str, str, dt.date | None, str, str, bool, int]
-
-
-def stored_rows(units: QuerySet[Transponder]) -> dict[int, list[StoredRow]]:
-    """The stored due rows of ``units`` as plain values (no model per row), by unit id, in
-    the unit page's order. One query."""
-    by_unit: dict[int, list[StoredRow]] = {}
-    rows = DueRow.objects.filter(unit__in=units.values("pk")).order_by("unit_id", "position")
-    for unit_id, *row in rows.values_list("unit_id", *STORED_ROW_FIELDS).iterator(2000):
-        by_unit.setdefault(unit_id, []).append(tuple(row))
-    return by_unit
-
-
-def evaluate_stored(
-    unit: Transponder,
-    rows: list[StoredRow],
-    *,
-    on: dt.date,
-    rules_cache: dict[int, Rules] | None = None,
-) -> UnitEvaluation:
-    """``evaluate_unit`` for a unit loaded with ``fleet_queryset`` and its stored due rows
-    (``stored_rows``): the items are the stored rows (equal to a fresh derivation, which
-    ``rebuild_state --check`` proves), the anode projections are worked out from the state
-    rows; ``battery`` is left unset (a planned deployment projects its own). A unit with no
-    state yet has no stored rows, so it is evaluated in full."""
-    state = state_of(unit)
-    if state is None:
-        return evaluate_unit(unit, on=on, rules_cache=rules_cache)
-    cache = rules_cache if rules_cache is not None else {}
-    rules = cache.get(unit.variant_id)
-    if rules is None:
-        rules = cache[unit.variant_id] = rules_for(unit.variant)
-    duty = duty_of(unit, state, rules)
-    ev = UnitEvaluation(unit=unit, rules=rules, duty=duty, on=on)
-    anode_rows = {r.position_id: r for r in unit.anode_states.all()}
-    for position in unit.variant.anode_positions.all():
-        row = anode_rows.get(position.pk) or AnodeState(unit=unit, position=position)
-        row.position = position
-        ev.anodes.append(anode_projection(row, rules, duty))
-    place = unit.place.name if unit.place else ""
-    ev.items = [
-        DueItem(
-            unit.pk, unit.serial, unit.variant.name, place, ItemKind(kind), key, item, due_on,
-            classify(due_on, on, rules.due_soon_days), basis, tuple(flags.splitlines()), failed,
-        )
-        for kind, key, item, due_on, basis, flags, failed, _position in rows
-    ]  # fmt: skip
     return ev
 
 

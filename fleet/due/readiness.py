@@ -758,7 +758,7 @@ DATED_KINDS = (
 )
 
 
-def _chunk_rows(
+def chunk_rows(
     ids: list[int],
 ) -> tuple[dict[int, dict[int, AnodeValues]], dict[int, dict[str, Dated]]]:
     """The anode state rows and the dated due rows of the units ``ids``, as plain values
@@ -798,7 +798,7 @@ def plan_campaign(planned: PlannedDeployment, *, wanted: int, on: dt.date) -> Pl
     stateless: list[int] = []
 
     def check(chunk: list[tuple[object, ...]]) -> None:
-        anodes, dated = _chunk_rows([row[0] for row in chunk])  # type: ignore[misc]
+        anodes, dated = chunk_rows([row[0] for row in chunk])  # type: ignore[misc]
         for row in chunk:
             pk, variant_id = row[0], row[3]
             variant = variants[variant_id]  # type: ignore[index]

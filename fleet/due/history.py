@@ -125,8 +125,8 @@ def anode_history(ev: UnitEvaluation, position_id: int) -> AnodeHistory | None:
     shown = ""
     if len(kept) < len(every):
         shown = (
-            f"{len(kept):,} of {len(every):,} readings drawn: the newest {RECENT_READINGS} "
-            "in full; before them each year's first, last, lowest, highest and replacements"
+            f"{len(kept):,} of {len(every):,} readings drawn: the newest {RECENT_READINGS}; "
+            "before them each year's first, last, lowest, highest and replacements"
         )
     return AnodeHistory(
         projection.name,

@@ -37,6 +37,7 @@ class Chart:
     y_min: float = 0.0
     y_max: float | None = None
     today: dt.date | None = None
+    note: str = ""  # under the title: what is drawn, when not everything is
 
 
 def _ticks(lo: float, hi: float, n: int = 5) -> list[float]:
@@ -133,8 +134,11 @@ def render(chart: Chart) -> str:
         f'viewBox="0 0 {WIDTH} {HEIGHT}" font-family="DejaVu Sans, sans-serif" font-size="11">',
         f"<title>{escape(chart.title)}</title>",
         '<rect width="100%" height="100%" fill="#fff"/>',
-        f'<text x="{LEFT}" y="16" font-size="13" font-weight="bold">{escape(chart.title)}</text>',
+        f'<text x="{LEFT}" y="{12 if chart.note else 16}" font-size="13" font-weight="bold">'
+        f"{escape(chart.title)}</text>",
     ]
+    if chart.note:
+        out.append(f'<text x="{LEFT}" y="24" font-size="9">{escape(chart.note)}</text>')
     if not points:
         out.append(f'<text x="{LEFT}" y="{HEIGHT / 2}">No data to draw yet.</text></svg>')
         return "".join(out)
@@ -180,6 +184,7 @@ def anode_chart(history: AnodeHistory, *, serial: str, today: dt.date) -> Chart:
         y_min=0.0,
         y_max=100.0,
         today=today,
+        note=history.shown,
         series=[
             Series("readings", history.readings, marker="circle", line=False),
             Series("fitted wear", history.fitted),

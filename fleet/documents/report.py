@@ -407,10 +407,13 @@ def _charts_section(doc: ReportDocument, width: float) -> list[Flowable]:
     table.setStyle(
         TableStyle([("LEFTPADDING", (0, 0), (-1, -1), 0), ("VALIGN", (0, 0), (-1, -1), "TOP")])
     )
+    # A chart that draws only some of its readings says which, under the charts.
+    notes = [para(f"{c.title}: {c.note}.", "small") for c in doc.charts if c.note]
     return [
         CondPageBreak(70 * mm),
         para(f"Charts, as of {fmt_date(doc.charts_on)}", "h2_flow"),
         table,
+        *notes,
     ]
 
 

@@ -24,6 +24,7 @@ from fleet.formatting import percent
 from fleet.models import Deployment, Transponder, UnitState
 
 from .days import days_between
+from .facts import StateFacts, UnitFacts
 from .rules import Rules
 
 # A unit that has hardly been in the water would otherwise project its wear decades out.
@@ -53,7 +54,9 @@ class Duty:
         return f"in the water {percent(self.fraction)} of the time so far"
 
 
-def duty_of(unit: Transponder, state: UnitState | None, rules: Rules) -> Duty:
+def duty_of(
+    unit: Transponder | UnitFacts, state: UnitState | StateFacts | None, rules: Rules
+) -> Duty:
     store_t = rules.battery_default_temperature_c
     if state is None or state.as_of is None:
         return Duty(

@@ -37,7 +37,6 @@ from fleet.calc import seals as calc_seals
 from fleet.formatting import clauses, quantity
 from fleet.models import (
     AnodeState,
-    DueRow,
     PressureTest,
     SealState,
     SensorCheck,
@@ -55,6 +54,7 @@ from .acceptance import (
 )
 from .days import add_days, add_months, days_between, local_day, start_of
 from .duty import Duty, charge_per_reply_as, duty_of
+from .facts import AnodeRowFacts, PressureTestFacts, StateFacts, UnitFacts
 from .items import DueItem, DueState, ItemKind, classify
 from .rules import Rules, rules_for
 
@@ -122,7 +122,7 @@ class AnodeProjection:
         )
 
 
-def anode_projection(row: AnodeState, rules: Rules, duty: Duty) -> AnodeProjection:
+def anode_projection(row: AnodeState | AnodeRowFacts, rules: Rules, duty: Duty) -> AnodeProjection:
     position = row.position
     new_kg = position.new_net_mass_g / 1000.0
     threshold = new_kg * position.replace_at_remaining_percent / 100.0
@@ -243,7 +243,9 @@ class BatteryProjection:
         return (self.remaining_ah - self.reserve_ah) / per_day
 
 
-def _pack_spec(unit: Transponder, state: UnitState) -> tuple[str, calc_battery.PackSpec]:
+def _pack_spec(
+    unit: Transponder | UnitFacts, state: UnitState | StateFacts
+) -> tuple[str, calc_battery.PackSpec]:
     pack = state.pack
     assert pack is not None
     variant = unit.variant
@@ -268,8 +270,8 @@ def _mean_current_a(
 
 
 def battery_projection(
-    unit: Transponder,
-    state: UnitState,
+    unit: Transponder | UnitFacts,
+    state: UnitState | StateFacts,
     rules: Rules,
     duty: Duty,
     steps: dict[int, float],
@@ -355,7 +357,7 @@ def battery_outcome(b: BatteryProjection | None, duty: Duty) -> Outcome:
 # --- tests and checks ---------------------------------------------------------------------
 
 
-def pressure_tested_words(test: PressureTest) -> str:
+def pressure_tested_words(test: PressureTest | PressureTestFacts) -> str:
     """The one phrase that names a pressure test in every basis and check: its date and the
     pressure it held from."""
     return f"tested {test.tested_on} at {quantity(test.start_pressure_dbar, 'dbar', 0)}"
@@ -581,58 +583,6 @@ def evaluate_unit(
                 f"Sensor check: {sensor.label}",
                 sensor_outcome(check, unit, rules),
             )
-    return ev
-
-
-# A stored due row as plain values, in this order (``stored_rows``).
-STORED_ROW_FIELDS = ("kind", "key", "item", "due_on", "basis", "flags", "failed", "position")
-StoredRow = tuple[str, str, str, dt.date | None, str, str, bool, int]
-
-
-def stored_rows(units: QuerySet[Transponder]) -> dict[int, list[StoredRow]]:
-    """The stored due rows of ``units`` as plain values (no model per row), by unit id, in
-    the unit page's order. One query."""
-    by_unit: dict[int, list[StoredRow]] = {}
-    rows = DueRow.objects.filter(unit__in=units.values("pk")).order_by("unit_id", "position")
-    for unit_id, *row in rows.values_list("unit_id", *STORED_ROW_FIELDS).iterator(2000):
-        by_unit.setdefault(unit_id, []).append(tuple(row))
-    return by_unit
-
-
-def evaluate_stored(
-    unit: Transponder,
-    rows: list[StoredRow],
-    *,
-    on: dt.date,
-    rules_cache: dict[int, Rules] | None = None,
-) -> UnitEvaluation:
-    """``evaluate_unit`` for a unit loaded with ``fleet_queryset`` and its stored due rows
-    (``stored_rows``): the items are the stored rows (equal to a fresh derivation, which
-    ``rebuild_state --check`` proves), the anode projections are worked out from the state
-    rows; ``battery`` is left unset (a planned deployment projects its own). A unit with no
-    state yet has no stored rows, so it is evaluated in full."""
-    state = state_of(unit)
-    if state is None:
-        return evaluate_unit(unit, on=on, rules_cache=rules_cache)
-    cache = rules_cache if rules_cache is not None else {}
-    rules = cache.get(unit.variant_id)
-    if rules is None:
-        rules = cache[unit.variant_id] = rules_for(unit.variant)
-    duty = duty_of(unit, state, rules)
-    ev = UnitEvaluation(unit=unit, rules=rules, duty=duty, on=on)
-    anode_rows = {r.position_id: r for r in unit.anode_states.all()}
-    for position in unit.variant.anode_positions.all():
-        row = anode_rows.get(position.pk) or AnodeState(unit=unit, position=position)
-        row.position = position
-        ev.anodes.append(anode_projection(row, rules, duty))
-    place = unit.place.name if unit.place else ""
-    ev.items = [
-        DueItem(
-            unit.pk, unit.serial, unit.variant.name, place, ItemKind(kind), key, item, due_on,
-            classify(due_on, on, rules.due_soon_days), basis, tuple(flags.splitlines()), failed,
-        )
-        for kind, key, item, due_on, basis, flags, failed, _position in rows
-    ]  # fmt: skip
     return ev
 
 

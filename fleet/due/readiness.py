@@ -38,31 +38,50 @@ from collections import Counter
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from enum import StrEnum
+from typing import NamedTuple
 
 from fleet.calc import buoyancy as calc_buoyancy
 from fleet.calc import ranging as calc_ranging
 from fleet.calc import seawater as calc_seawater
 from fleet.formatting import clauses, number, percent, quantity, signed
-from fleet.models import Deployment, SensorCheck, Site, Transponder
+from fleet.models import (
+    AnodeState,
+    Deployment,
+    DueRow,
+    SealPosition,
+    SensorCheck,
+    Site,
+    Transponder,
+    Variant,
+)
 
 from .condition import Condition, annotate_condition, condition_of
+from .duty import Duty, duty_of
 from .engine import (
     INACTIVE,
     SENSOR_FLAGS,
+    VARIANT_PREFETCH,
+    AnodeProjection,
     BatteryProjection,
-    UnitEvaluation,
+    anode_projection,
     battery_projection,
-    evaluate_stored,
     evaluate_unit,
     fleet_queryset,
     pressure_tested_words,
     sensor_key,
     state_of,
-    stored_rows,
 )
-from .items import DueItem
+from .facts import (
+    ANODE_COLUMNS,
+    UNIT_COLUMNS,
+    AnodeValues,
+    UnitFacts,
+    unit_facts_from_values,
+    unit_facts_of,
+)
+from .items import ItemKind
 from .planned import PlannedDeployment
-from .rules import Rules
+from .rules import Rules, rules_for
 
 
 class Verdict(StrEnum):
@@ -80,7 +99,13 @@ class Verdict(StrEnum):
 
     @property
     def rank(self) -> int:
-        return {"fail": 0, "warn": 1, "pass": 2}[self.value]
+        return _RANK[self]
+
+
+# The members as plain module names: ``Verdict.PASS`` goes through the enum's descriptor on
+# every use, a cost the whole-fleet planner pays hundreds of thousands of times.
+PASS, WARN, FAIL = Verdict.PASS, Verdict.WARN, Verdict.FAIL
+_RANK = {FAIL: 0, WARN: 1, PASS: 2}
 
 
 @dataclass(frozen=True, slots=True)
@@ -112,7 +137,7 @@ class _OfAPlan:
 
 @dataclass(slots=True)
 class Readiness(_OfAPlan):
-    unit: Transponder
+    unit: UnitFacts
     planned: PlannedDeployment
     interrogations_per_day: int
     power_step: int
@@ -125,11 +150,18 @@ class Readiness(_OfAPlan):
 
     @property
     def verdict(self) -> Verdict:
-        return min((c.verdict for c in self.checks), key=lambda v: v.rank, default=Verdict.PASS)
+        """The worst of the checks' verdicts (pass when there are none)."""
+        worst = PASS
+        for c in self.checks:
+            if c.verdict is FAIL:
+                return FAIL
+            if c.verdict is WARN:
+                worst = WARN
+        return worst
 
     @property
     def failures(self) -> list[CheckResult]:
-        return [c for c in self.checks if c.verdict == Verdict.FAIL]
+        return [c for c in self.checks if c.verdict == FAIL]
 
     @property
     def first_failure(self) -> CheckResult | None:
@@ -153,11 +185,25 @@ class Readiness(_OfAPlan):
 COMMON = "common practice, no published source"
 
 
+class Dated(NamedTuple):
+    """What a check reads of a dated due item (a stored due row or a fresh ``DueItem``)."""
+
+    due_on: dt.date | None
+    failed: bool
+    basis: str
+
+
 @dataclass(frozen=True, slots=True)
 class Context:
-    """What every check reads: the evaluation, the plan and the duty it implies."""
+    """What every check reads, as plain values: the unit, its rules and duty, its anode
+    projections and dated items, the plan and the duty it implies."""
 
-    ev: UnitEvaluation
+    unit: UnitFacts
+    rules: Rules
+    duty: Duty
+    anodes: list[AnodeProjection]
+    items: dict[str, Dated]
+    steps: dict[int, float]
     planned: PlannedDeployment
     rate: float
     step: int
@@ -173,6 +219,8 @@ class SiteMemo:
         site = planned.site
         self.pressure_dbar = calc_seawater.pressure_dbar(site.water_depth_m, site.latitude_deg)
         self._sound_speed: float | None = None
+        self.steps: dict[int, dict[int, float]] = {}
+        self.seals: dict[int, list[SealPosition]] = {}
         self.buoyancy: dict[int, list[CheckResult]] = {}
         self.ranging: dict[tuple[int, float], list[CheckResult]] = {}
 
@@ -190,56 +238,53 @@ class SiteMemo:
 
 def _dated_item_check(
     name: str,
-    item: DueItem | None,
+    item: Dated | None,
     planned: PlannedDeployment,
     source: str,
     *,
     missing: Verdict,
     lapses: Verdict,
-    expired: Verdict = Verdict.FAIL,
+    expired: Verdict = FAIL,
 ) -> CheckResult:
     """A test or interval item against the planned period: a fault fails; due by the start
     gives ``expired`` (a fail unless the item does not bear on the unit's safe return);
     lapsing before recovery gives ``lapses``; no record gives ``missing``."""
+    end = planned.end
     if item is None or item.due_on is None:
         basis = item.basis if item is not None else "nothing recorded"
         return CheckResult(name, missing, basis, source)
     if item.failed:
-        return CheckResult(name, Verdict.FAIL, item.basis, source)
+        return CheckResult(name, FAIL, item.basis, source)
     if item.due_on <= planned.start:
         return CheckResult(
             name, expired, f"due {item.due_on}, by the start {planned.start}", source
         )
-    if item.due_on < planned.end:
-        return CheckResult(
-            name, lapses, f"due {item.due_on}, before recovery {planned.end}", source
-        )
-    return CheckResult(
-        name, Verdict.PASS, f"due {item.due_on}, after recovery {planned.end}", source
-    )
+    if item.due_on < end:
+        return CheckResult(name, lapses, f"due {item.due_on}, before recovery {end}", source)
+    return CheckResult(name, PASS, f"due {item.due_on}, after recovery {end}", source)
 
 
 def check_status(c: Context) -> list[CheckResult]:
     """The unit's condition today (``condition.py``); a list that annotated it already
     (``annotate_condition``) saves the query."""
-    unit = c.ev.unit
-    condition = Condition(getattr(unit, "condition", None) or condition_of(unit, c.ev.on))
+    unit = c.unit
+    condition = Condition(unit.condition)
     if condition.held:
-        verdict, numbers = Verdict.FAIL, f"unit is {condition.label.lower()}"
+        verdict, numbers = FAIL, f"unit is {condition.label.lower()}"
         if unit.hold_reason:
             numbers += f": {unit.hold_reason}"
     elif condition == Condition.IN_WATER:
-        verdict = Verdict.FAIL
+        verdict = FAIL
         numbers = "unit is in the water now; recover and service it first"
     elif condition == Condition.ON_BENCH:
-        verdict = Verdict.WARN
+        verdict = WARN
         numbers = "unit is on the bench now; close its bench visit before it goes"
     elif condition == Condition.NEEDS_WORK:
         # The checks below judge each item for this job; the condition is today's summary.
-        verdict = Verdict.PASS
+        verdict = PASS
         numbers = "needs work today: an item is overdue or has no data (see below)"
     else:
-        verdict, numbers = Verdict.PASS, condition.label.lower()
+        verdict, numbers = PASS, condition.label.lower()
     return [CheckResult("Unit condition", verdict, numbers, "—")]
 
 
@@ -257,45 +302,43 @@ def depth_words(site_m: float, rating_m: float, want_fraction: float) -> str:
 
 
 def check_depth(c: Context, margins: dict[str, float]) -> list[CheckResult]:
-    rules, site = c.ev.rules, c.planned.site
-    rating = c.ev.unit.variant.depth_rating_m
+    rules, site = c.rules, c.planned.site
+    rating = c.unit.variant.depth_rating_m
     spare = (rating - site.water_depth_m) / rating
     margins["depth"] = spare
     numbers = depth_words(site.water_depth_m, rating, rules.depth_margin_fraction)
     if site.water_depth_m > rating:
-        verdict = Verdict.FAIL
+        verdict = FAIL
     elif spare < rules.depth_margin_fraction:
-        verdict = Verdict.WARN
+        verdict = WARN
     else:
-        verdict = Verdict.PASS
+        verdict = PASS
     return [CheckResult("Depth rating", verdict, numbers, f"margin: {COMMON}")]
 
 
 def check_pressure_test(c: Context) -> list[CheckResult]:
-    rules = c.ev.rules
-    state = state_of(c.ev.unit)
+    rules = c.rules
+    state = c.unit.state
     test = state.last_pressure_test if state else None
     needed = c.site_pressure_dbar * rules.proof_factor
     source = f"sea pressure: TEOS-10 (gsw); proof factor {rules.proof_factor:g}: {COMMON}"
     name = "Pressure test"
-    item = c.ev.item("pressure_test")
+    item = c.items.get("pressure_test")
     if test is None or item is None:
-        return [CheckResult(name, Verdict.FAIL, "no pressure test recorded", source)]
+        return [CheckResult(name, FAIL, "no pressure test recorded", source)]
     head = (
         f"this site needs {quantity(needed, 'dbar', 0)} "
         f"({quantity(c.site_pressure_dbar, 'dbar', 0)} × {rules.proof_factor:g})"
     )
     if item.failed:
         # The item's basis already names the test and what is wrong with it.
-        return [CheckResult(name, Verdict.FAIL, clauses(head, item.basis), source)]
+        return [CheckResult(name, FAIL, clauses(head, item.basis), source)]
     tested = pressure_tested_words(test)
     if test.start_pressure_dbar < needed * (1.0 - rules.gauge_tolerance_percent / 100.0):
         short = needed - test.start_pressure_dbar
         numbers = clauses(head, f"{tested}, {quantity(short, 'dbar', 0)} short of it")
-        return [CheckResult(name, Verdict.FAIL, numbers, source)]
-    dated = _dated_item_check(
-        name, item, c.planned, source, missing=Verdict.FAIL, lapses=Verdict.WARN
-    )
+        return [CheckResult(name, FAIL, numbers, source)]
+    dated = _dated_item_check(name, item, c.planned, source, missing=FAIL, lapses=WARN)
     return [CheckResult(name, dated.verdict, clauses(head, tested, dated.numbers), source)]
 
 
@@ -325,18 +368,18 @@ def battery_words(
 
 
 def check_battery(c: Context, margins: dict[str, float]) -> list[CheckResult]:
-    ev, planned = c.ev, c.planned
+    planned = c.planned
     # The capacity-against-temperature figures are recalled from Linden's Handbook (from
     # memory, see calc.battery); the page names the handbook only.
     source = "capacity vs temperature: Linden's Handbook of Batteries; charge = I·t"
-    state = state_of(ev.unit)
+    state = c.unit.state
     battery = (
         battery_projection(
-            ev.unit,
+            c.unit,
             state,
-            ev.rules,
-            ev.duty,
-            ev.steps,
+            c.rules,
+            c.duty,
+            c.steps,
             on=planned.start,
             temperature_c=planned.site.bottom_temperature_c,
             replies_per_day=c.rate,
@@ -347,17 +390,17 @@ def check_battery(c: Context, margins: dict[str, float]) -> list[CheckResult]:
     )
     if battery is None:
         margins["battery"] = -1.0
-        return [CheckResult("Battery", Verdict.FAIL, "no pack recorded as fitted", source)]
+        return [CheckResult("Battery", FAIL, "no pack recorded as fitted", source)]
     days = planned.days
     need = (battery.daily_in_water_ah + battery.self_discharge_daily_ah) * days
     left = battery.remaining_ah - need
     numbers = battery_words(battery, planned, c.rate, c.step, need)
     if left < 0:
-        verdict = Verdict.FAIL
+        verdict = FAIL
     elif left < battery.reserve_ah:
-        verdict = Verdict.WARN
+        verdict = WARN
     else:
-        verdict = Verdict.PASS
+        verdict = PASS
     margins["battery"] = left / battery.usable_ah if battery.usable_ah else -1.0
     return [CheckResult("Battery", verdict, numbers, source)]
 
@@ -366,15 +409,15 @@ def check_anodes(c: Context, margins: dict[str, float]) -> list[CheckResult]:
     source = "wear fit against immersed days; DNV-RP-B401 (2010) Table 10-6 design rate"
     results = []
     anode_margin = 1.0
-    for p in c.ev.anodes:
+    for p in c.anodes:
         name = f"Anode: {p.name}"
         if p.fit is None:
-            results.append(CheckResult(name, Verdict.WARN, "no reading recorded", source))
+            results.append(CheckResult(name, WARN, "no reading recorded", source))
             continue
         mass_end = p.mass_after_kg(c.planned.days)
         if mass_end is None:
             numbers = "no wear rate yet (one reading and no design current)"
-            results.append(CheckResult(name, Verdict.WARN, numbers, source))
+            results.append(CheckResult(name, WARN, numbers, source))
             continue
         spare_kg = mass_end - p.threshold_kg
         numbers = (
@@ -382,14 +425,14 @@ def check_anodes(c: Context, margins: dict[str, float]) -> list[CheckResult]:
             f"{p.threshold_kg * 1000:.0f} g ({p.replace_at_percent:.0f} % of "
             f"{p.new_kg * 1000:.0f} g)"
         )
-        if p.bond_fault(c.ev.rules):
+        if p.bond_fault(c.rules):
             numbers += f"; bond {p.bond_resistance_ohm:g} Ω over the limit"
-            results.append(CheckResult(name, Verdict.FAIL, numbers, source))
+            results.append(CheckResult(name, FAIL, numbers, source))
             anode_margin = min(anode_margin, -1.0)
             continue
-        verdict = Verdict.FAIL if spare_kg < 0 else Verdict.PASS
-        if verdict == Verdict.PASS and p.fit.fast_wear:
-            verdict, numbers = Verdict.WARN, numbers + "; wearing faster than design"
+        verdict = FAIL if spare_kg < 0 else PASS
+        if verdict == PASS and p.fit.fast_wear:
+            verdict, numbers = WARN, numbers + "; wearing faster than design"
         results.append(CheckResult(name, verdict, numbers, source))
         anode_margin = min(anode_margin, spare_kg / p.new_kg)
     margins["anodes"] = anode_margin
@@ -399,33 +442,30 @@ def check_anodes(c: Context, margins: dict[str, float]) -> list[CheckResult]:
 def check_seals(c: Context) -> list[CheckResult]:
     source = f"intervals: {COMMON}; shelf life ISO 2230:2002"
     results = []
-    for seal in c.ev.unit.variant.seal_positions.all():
+    seals = c.memo.seals.get(c.unit.variant_id)
+    if seals is None:
+        seals = c.memo.seals[c.unit.variant_id] = list(c.unit.variant.seal_positions.all())
+    for seal in seals:
         name = f"Seal: {seal.name}"
-        item = c.ev.item(f"seal:{seal.pk}")
+        item = c.items.get(f"seal:{seal.pk}")
         if item is None or item.due_on is None:
-            results.append(CheckResult(name, Verdict.WARN, "no seal change recorded", source))
+            results.append(CheckResult(name, WARN, "no seal change recorded", source))
             continue
-        result = _dated_item_check(
-            name, item, c.planned, source, missing=Verdict.WARN, lapses=Verdict.FAIL
-        )
-        if result.verdict == Verdict.FAIL and not item.failed:
+        result = _dated_item_check(name, item, c.planned, source, missing=WARN, lapses=FAIL)
+        if result.verdict == FAIL and not item.failed:
             result = CheckResult(name, result.verdict, f"{result.numbers}: {item.basis}", source)
         results.append(result)
     return results
 
 
 def check_release(c: Context) -> list[CheckResult]:
-    if not c.ev.unit.variant.release_fitted:
+    if not c.unit.variant.release_fitted:
         return []
     source = f"validity and acceptance: {COMMON}"
-    item = c.ev.item("release_test")
+    item = c.items.get("release_test")
     if item is None or item.due_on is None:
-        return [CheckResult("Release test", Verdict.FAIL, "no release test recorded", source)]
-    return [
-        _dated_item_check(
-            "Release test", item, c.planned, source, missing=Verdict.FAIL, lapses=Verdict.FAIL
-        )
-    ]
+        return [CheckResult("Release test", FAIL, "no release test recorded", source)]
+    return [_dated_item_check("Release test", item, c.planned, source, missing=FAIL, lapses=FAIL)]
 
 
 def sensor_source(sensor: str) -> str:
@@ -442,20 +482,20 @@ def sensor_source(sensor: str) -> str:
 def check_sensors(c: Context) -> list[CheckResult]:
     results = []
     for sensor, flag, _attr in SENSOR_FLAGS:
-        if not getattr(c.ev.unit.variant, flag):
+        if not getattr(c.unit.variant, flag):
             continue
         source = sensor_source(sensor)
-        item = c.ev.item(sensor_key(sensor))
+        item = c.items.get(sensor_key(sensor))
         results.append(
             _dated_item_check(
                 f"Sensor: {sensor.label}",
                 item,
                 c.planned,
                 source,
-                missing=Verdict.WARN,
-                lapses=Verdict.WARN,
+                missing=WARN,
+                lapses=WARN,
                 # A lapsed calibration spoils the data, not the unit's return: a check.
-                expired=Verdict.WARN,
+                expired=WARN,
             )
         )
     return results
@@ -479,14 +519,14 @@ def buoyancy_words(result: calc_buoyancy.RecoveryBuoyancy, mass_kg: float, volum
 
 def check_buoyancy(c: Context) -> list[CheckResult]:
     """Depends on the variant and the site only: worked out once per variant in a plan."""
-    variant_id = c.ev.unit.variant_id
+    variant_id = c.unit.variant_id
     if variant_id not in c.memo.buoyancy:
         c.memo.buoyancy[variant_id] = _buoyancy(c)
     return c.memo.buoyancy[variant_id]
 
 
 def _buoyancy(c: Context) -> list[CheckResult]:
-    variant, site, rules = c.ev.unit.variant, c.planned.site, c.ev.rules
+    variant, site, rules = c.unit.variant, c.planned.site, c.rules
     source = (
         "Archimedes; density TEOS-10 (gsw) at the seabed and the surface, the lower taken; "
         f"reserve {percent(rules.recovery_reserve_fraction_of_mass)} of the mass in air, at least "
@@ -494,7 +534,7 @@ def _buoyancy(c: Context) -> list[CheckResult]:
     )
     name = "Recovery buoyancy"
     if variant.mass_in_air_kg is None or variant.displaced_volume_m3 is None:
-        return [CheckResult(name, Verdict.WARN, "variant has no mass and volume recorded", source)]
+        return [CheckResult(name, WARN, "variant has no mass and volume recorded", source)]
     surface_t = (
         rules.surface_temperature_c
         if site.surface_temperature_c is None
@@ -514,7 +554,7 @@ def _buoyancy(c: Context) -> list[CheckResult]:
         reserve_fraction_of_mass=rules.recovery_reserve_fraction_of_mass,
     )
     numbers = buoyancy_words(result, variant.mass_in_air_kg, variant.displaced_volume_m3)
-    verdict = Verdict.PASS if result.passed else Verdict.FAIL
+    verdict = PASS if result.passed else FAIL
     return [CheckResult(name, verdict, numbers, source)]
 
 
@@ -522,14 +562,14 @@ def check_ranging(c: Context) -> list[CheckResult]:
     """The reply must arrive after the interrogator's blanking and end before its next
     interrogation, at the farthest planned geometry (and the nearest: straight overhead).
     Depends on the unit only through its turnaround delay (and its variant's rules)."""
-    key = (c.ev.unit.variant_id, c.ev.unit.turnaround_delay_ms)
+    key = (c.unit.variant_id, c.unit.turnaround_delay_ms)
     if key not in c.memo.ranging:
         c.memo.ranging[key] = _ranging(c)
     return c.memo.ranging[key]
 
 
 def _ranging(c: Context) -> list[CheckResult]:
-    unit, site, rules = c.ev.unit, c.planned.site, c.ev.rules
+    unit, site, rules = c.unit, c.planned.site, c.rules
     offset = (
         rules.ranging_horizontal_offset_m
         if c.planned.horizontal_offset_m is None
@@ -568,39 +608,51 @@ def _ranging(c: Context) -> list[CheckResult]:
     reasons = [r for t in timings for r in t.reasons]
     if reasons:
         numbers += "; " + "; ".join(dict.fromkeys(reasons))
-    verdict = Verdict.PASS if all(t.fits for t in timings) else Verdict.FAIL
+    verdict = PASS if all(t.fits for t in timings) else FAIL
     return [CheckResult("Reply timing", verdict, numbers, source)]
 
 
 def check_address(c: Context, clashes: list[str]) -> list[CheckResult]:
-    unit, site = c.ev.unit, c.planned.site
+    unit, site = c.unit, c.planned.site
     if clashes:
         numbers = (
             f"address {unit.acoustic_address} already used at {site.name} by {', '.join(clashes)}"
         )
-        return [CheckResult("Acoustic address", Verdict.FAIL, numbers, "—")]
+        return [CheckResult("Acoustic address", FAIL, numbers, "—")]
     numbers = f"address {unit.acoustic_address} free at {site.name}"
-    return [CheckResult("Acoustic address", Verdict.PASS, numbers, "—")]
+    return [CheckResult("Acoustic address", PASS, numbers, "—")]
 
 
 def check_unit(
-    ev: UnitEvaluation,
+    unit: UnitFacts,
+    rules: Rules,
+    items: dict[str, Dated],
     planned: PlannedDeployment,
     *,
     address_clashes: list[str] | None = None,
     memo: SiteMemo | None = None,
 ) -> Readiness:
-    """Every check of ``ev``'s unit for ``planned``, in the order of the module docstring.
-    ``memo``: the plan's site figures, shared by the units of one plan."""
-    unit = ev.unit
+    """Every check of ``unit`` for ``planned``, in the order of the module docstring, on
+    plain values: the one code path of both a single unit's readiness and the planner.
+    ``items``: the unit's dated items by key; ``memo``: the plan's site figures, shared by
+    the units of one plan."""
+    memo = memo if memo is not None else SiteMemo(planned)
+    duty = duty_of(unit, unit.state, rules)
+    anodes = [anode_projection(row, rules, duty) for row in unit.anode_rows]
+    steps = memo.steps.get(unit.variant_id)
+    if steps is None:
+        steps = memo.steps[unit.variant_id] = {
+            s.step: s.charge_per_reply_as for s in unit.variant.reply_steps.all()
+        }
     rate = (
-        ev.duty.replies_per_day
+        duty.replies_per_day
         if planned.interrogations_per_day is None
         else planned.interrogations_per_day
     )
     step = unit.transmit_power_step if planned.power_step is None else planned.power_step
-    memo = memo if memo is not None else SiteMemo(planned)
-    c = Context(ev, planned, rate, step, memo.pressure_dbar, memo)
+    c = Context(
+        unit, rules, duty, anodes, items, steps, planned, rate, step, memo.pressure_dbar, memo
+    )
     r = Readiness(unit, planned, round(rate), step)
     checks: tuple[Callable[[], list[CheckResult]], ...] = (
         lambda: check_status(c),
@@ -631,15 +683,28 @@ def address_clashes_at(site_id: int) -> dict[str, list[str]]:
 
 
 def readiness_for(unit: Transponder, planned: PlannedDeployment, *, on: dt.date) -> Readiness:
-    """``unit`` checked for ``planned``, evaluated as of ``on``."""
+    """``unit`` checked for ``planned``, evaluated as of ``on``: its items derived afresh by
+    the engine, its state turned into the plain values the checks read."""
     loaded = fleet_queryset(Transponder.objects.filter(pk=unit.pk)).get()
-    ev = evaluate_unit(loaded, on=on)
-    others = [
-        s
-        for s in address_clashes_at(planned.site.pk).get(loaded.acoustic_address, [])
-        if s != loaded.serial
-    ]
-    return check_unit(ev, planned, address_clashes=others)
+    return _check_loaded(loaded, planned, address_clashes_at(planned.site.pk), on=on)
+
+
+def _check_loaded(
+    loaded: Transponder,
+    planned: PlannedDeployment,
+    clashes: dict[str, list[str]],
+    *,
+    on: dt.date,
+    memo: SiteMemo | None = None,
+    rules_cache: dict[int, Rules] | None = None,
+) -> Readiness:
+    """A unit loaded with ``fleet_queryset``, its items derived afresh, checked."""
+    ev = evaluate_unit(loaded, on=on, rules_cache=rules_cache)
+    condition = getattr(loaded, "condition", None) or condition_of(loaded, on)
+    facts = unit_facts_of(loaded, state_of(loaded), condition)
+    items = {i.key: Dated(i.due_on, i.failed, i.basis) for i in ev.items}
+    others = [s for s in clashes.get(loaded.acoustic_address, []) if s != loaded.serial]
+    return check_unit(facts, ev.rules, items, planned, address_clashes=others, memo=memo)
 
 
 @dataclass(frozen=True, slots=True)
@@ -684,45 +749,110 @@ class Plan(_OfAPlan):
 # Units the planner reads at once: the same queries for any fleet up to this size, and
 # that many more for each further chunk; the memory of one chunk's rows at a time.
 PLAN_CHUNK = 2000
+# The due rows a readiness check reads (the anodes and the battery are projected afresh).
+DATED_KINDS = (
+    ItemKind.SEAL,
+    ItemKind.PRESSURE_TEST,
+    ItemKind.RELEASE_TEST,
+    ItemKind.SENSOR_CHECK,
+)
+
+
+def chunk_rows(
+    ids: list[int],
+) -> tuple[dict[int, dict[int, AnodeValues]], dict[int, dict[str, Dated]]]:
+    """The anode state rows and the dated due rows of the units ``ids``, as plain values
+    (two queries)."""
+    anodes: dict[int, dict[int, AnodeValues]] = {}
+    for unit_id, position_id, *values in AnodeState.objects.filter(unit_id__in=ids).values_list(
+        *ANODE_COLUMNS
+    ):
+        anodes.setdefault(unit_id, {})[position_id] = tuple(values)
+    dated: dict[int, dict[str, Dated]] = {}
+    rows = DueRow.objects.filter(unit_id__in=ids, kind__in=DATED_KINDS)
+    for unit_id, key, due_on, failed, basis in rows.values_list(
+        "unit_id", "key", "due_on", "failed", "basis"
+    ):
+        dated.setdefault(unit_id, {})[key] = Dated(due_on, failed, basis)
+    return anodes, dated
 
 
 def plan_campaign(planned: PlannedDeployment, *, wanted: int, on: dt.date) -> Plan:
     """Every active unit checked for the job; those that pass, most margin first.
 
-    Read from the stored rows in a constant number of queries (``evaluate_stored``): the
-    units with their state, condition and due rows, the variants once each; the site's
-    seawater figures are worked out once (``SiteMemo``)."""
+    Read from the stored rows as plain values, by chunks of ``PLAN_CHUNK`` units: the units
+    with their state columns and condition (one ``values_list``), their anode state rows
+    and dated due rows (one each); the variants with their positions once each. The checks
+    are ``check_unit``'s, the code a single unit's readiness runs; the site's seawater
+    figures are worked out once (``SiteMemo``). A unit with no state row yet has no stored
+    rows and is derived afresh (``readiness_for``)."""
     clashes = address_clashes_at(planned.site.pk)
     memo = SiteMemo(planned)
-    results = []
-    # The condition comes with the units (one SQL expression), not one query per unit.
+    variants = {v.pk: v for v in Variant.objects.prefetch_related(*VARIANT_PREFETCH)}
+    rules = {pk: rules_for(v) for pk, v in variants.items()}
+    positions = {pk: list(v.anode_positions.all()) for pk, v in variants.items()}
     active = Transponder.objects.exclude(hold__in=INACTIVE)
-    units = fleet_queryset(annotate_condition(active, on), share_variants=True)
-    rows = stored_rows(active)
-    cache: dict[int, Rules] = {}
-    # Streamed by chunks (``PLAN_CHUNK``); each unit keeps only what the page shows of it
-    # (serial, variant) once checked, so the plan holds its results, not the fleet's rows.
-    for unit in units.iterator(chunk_size=PLAN_CHUNK):
-        ev = evaluate_stored(unit, rows.pop(unit.pk, []), on=on, rules_cache=cache)
-        others = [s for s in clashes.get(ev.unit.acoustic_address, []) if s != ev.unit.serial]
-        results.append(check_unit(ev, planned, address_clashes=others, memo=memo))
-        unit._prefetched_objects_cache = {}  # type: ignore[attr-defined]
-        unit._state.fields_cache.pop("state", None)
+    units = annotate_condition(active, on).order_by("pk").values_list(*UNIT_COLUMNS)
+    results = []
+    chunk: list[tuple[object, ...]] = []
+    stateless: list[int] = []
+
+    def check(chunk: list[tuple[object, ...]]) -> None:
+        anodes, dated = chunk_rows([row[0] for row in chunk])  # type: ignore[misc]
+        for row in chunk:
+            pk, variant_id = row[0], row[3]
+            variant = variants[variant_id]  # type: ignore[index]
+            facts = unit_facts_from_values(
+                row,
+                variant,
+                positions[variant_id],  # type: ignore[index]
+                anodes.get(pk, {}),  # type: ignore[call-overload]
+            )
+            others = [s for s in clashes.get(facts.acoustic_address, []) if s != facts.serial]
+            if facts.state is None:
+                stateless.append(facts.pk)
+                continue
+            results.append(
+                check_unit(
+                    facts,
+                    rules[facts.variant_id],
+                    dated.get(facts.pk, {}),
+                    planned,
+                    address_clashes=others,
+                    memo=memo,
+                )
+            )
+
+    for row in units.iterator(chunk_size=PLAN_CHUNK):
+        chunk.append(row)
+        if len(chunk) == PLAN_CHUNK:
+            check(chunk)
+            chunk = []
+    if chunk:
+        check(chunk)
+    # Units never written have no stored rows: derived afresh, all at once.
+    if stateless:
+        cache: dict[int, Rules] = {}
+        loaded = fleet_queryset(annotate_condition(active.filter(pk__in=stateless), on))
+        for unit in loaded:
+            results.append(
+                _check_loaded(unit, planned, clashes, on=on, memo=memo, rules_cache=cache)
+            )
     candidates = sorted(
-        (r for r in results if r.verdict != Verdict.FAIL),
+        (r for r in results if r.verdict != FAIL),
         key=lambda r: (-r.verdict.rank, -r.margin, r.unit.serial),
     )
     # Units picked for the same job must answer to different addresses: the better-ranked
     # unit keeps its address and a later one with the same address is set aside.
     ready: list[Readiness] = []
     taken: dict[str, str] = {}
-    rejected = [r for r in results if r.verdict == Verdict.FAIL]
+    rejected = [r for r in results if r.verdict == FAIL]
     for r in candidates:
         address = r.unit.acoustic_address
         if address in taken:
             clash = CheckResult(
                 "Acoustic address",
-                Verdict.FAIL,
+                FAIL,
                 f"address {address} is also {taken[address]}'s, ranked higher in this plan",
                 "—",
             )

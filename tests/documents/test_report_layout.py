@@ -114,3 +114,16 @@ def test_it_draws_the_unit_charts_when_asked(history):
 
 def test_it_has_no_charts_unless_asked(history):
     assert prepare_report(fresh(history.record)).charts == ()
+
+
+def test_a_thinned_anode_chart_says_so_in_the_report(history):
+    import dataclasses
+
+    record = fresh(history.record)
+    doc = prepare_report(record, charts_on=dt.date(2026, 4, 1))
+    first = doc.charts[0]
+    assert not first.note  # a short history is drawn in full
+    thinned = dataclasses.replace(first, note="130 of 1,667 readings drawn")
+    doc = dataclasses.replace(doc, charts=(thinned, *doc.charts[1:]))
+    text = pdf_text(render_report(doc))
+    assert f"{first.title}: 130 of 1,667 readings drawn." in text

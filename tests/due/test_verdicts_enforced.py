@@ -224,18 +224,18 @@ def test_the_planner_reads_a_fleet_in_the_same_number_of_queries_for_more_units(
             make_unit(serial=f"PQ-{i:04d}", acoustic_address=f"5{i:02d}", place=workshop),
             technician,
         )
-    # Expect 9 queries: the site's units in the water (their addresses); the units with
-    # place, state and condition in one; anode states; seal states; the variants (one object
-    # each, shared by their units) and their anode positions, seal positions and reply charge
-    # steps; the stored due rows.
-    with django_assert_num_queries(9):
+    # Expect 8 queries: the site's units in the water (their addresses); the variants and
+    # their anode positions, seal positions and reply charge steps (read once each); the
+    # units' columns with place, state and condition as plain values in one; their anode
+    # state rows; their dated due rows.
+    with django_assert_num_queries(8):
         small = plan()
     for i in range(3, 12):
         serviced(
             make_unit(serial=f"PQ-{i:04d}", acoustic_address=f"5{i:02d}", place=workshop),
             technician,
         )
-    with django_assert_num_queries(9):
+    with django_assert_num_queries(8):
         large = plan()
     assert len(small.ready) + len(small.rejected) == 3
     assert len(large.ready) + len(large.rejected) == 12

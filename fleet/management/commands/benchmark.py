@@ -46,9 +46,10 @@ from django.utils import timezone
 
 from fleet import roles
 from fleet.due.condition import annotate_condition
-from fleet.due.engine import INACTIVE, stored_rows
+from fleet.due.engine import INACTIVE
+from fleet.due.facts import UNIT_COLUMNS
 from fleet.due.planned import PlannedDeployment
-from fleet.due.readiness import plan_campaign
+from fleet.due.readiness import PLAN_CHUNK, chunk_rows, plan_campaign
 from fleet.due.store import derived_rows, due_queryset, due_totals, rebuild_all
 from fleet.management.commands import benchmark_import, benchmark_upload
 from fleet.models import (
@@ -348,15 +349,19 @@ def _overview_rows() -> None:
 
 
 def _planner_rows() -> None:
-    """A SQL read of the rows the planner uses: every active unit with its state and its
-    condition, and their stored due rows, as plain values."""
+    """A SQL read of the rows the planner uses, as the planner reads them (plain values, by
+    chunks of ``PLAN_CHUNK`` units): every active unit's columns with its state's and its
+    condition (``UNIT_COLUMNS``), then the chunk's anode state rows and dated due rows."""
     active = Transponder.objects.exclude(hold__in=INACTIVE)
-    list(
-        annotate_condition(active, timezone.localdate())
-        .values_list("pk", "serial", "acoustic_address", "variant_id", "condition", "state__as_of")
-        .iterator(2000)
-    )
-    stored_rows(active)
+    units = annotate_condition(active, timezone.localdate()).order_by("pk")
+    chunk: list[int] = []
+    for row in units.values_list(*UNIT_COLUMNS).iterator(PLAN_CHUNK):
+        chunk.append(row[0])
+        if len(chunk) == PLAN_CHUNK:
+            chunk_rows(chunk)
+            chunk = []
+    if chunk:
+        chunk_rows(chunk)
 
 
 def _import(rows: int) -> dict[str, float]:

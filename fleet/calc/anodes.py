@@ -525,7 +525,11 @@ class WearSums:
     def __post_init__(self) -> None:
         require_int("n", self.n, 0)
         for name in ("sum_x", "sum_y", "sum_xx", "sum_xy", "sum_yy"):
-            require_range(name, getattr(self, name))
+            value = getattr(self, name)
+            # A finite float passes as it is (the common case, read from stored sums);
+            # anything else goes through the guard, which names what is wrong.
+            if type(value) is not float or not math.isfinite(value):
+                require_range(name, value)
 
     @classmethod
     def empty(cls) -> WearSums:

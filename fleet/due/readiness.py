@@ -38,6 +38,7 @@ from collections import Counter
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from enum import StrEnum
+from functools import partial
 from typing import NamedTuple
 
 from fleet.calc import buoyancy as calc_buoyancy
@@ -108,12 +109,46 @@ PASS, WARN, FAIL = Verdict.PASS, Verdict.WARN, Verdict.FAIL
 _RANK = {FAIL: 0, WARN: 1, PASS: 2}
 
 
-@dataclass(frozen=True, slots=True)
+Words = str | Callable[[], str]
+
+
 class CheckResult:
-    name: str
-    verdict: Verdict
-    numbers: str
-    source: str
+    """One check's name, verdict, sentence and source. The sentence may be given as a
+    callable (``Words``) that builds it from the check's figures: it is called once, on first
+    reading of ``numbers``, so the whole-fleet planner formats only the rows a page shows
+    and a single unit's readiness reads the very same words."""
+
+    __slots__ = ("name", "verdict", "_numbers", "source")
+
+    def __init__(self, name: str, verdict: Verdict, numbers: Words, source: str) -> None:
+        self.name = name
+        self.verdict = verdict
+        self._numbers = numbers
+        self.source = source
+
+    @property
+    def numbers(self) -> str:
+        words = self._numbers
+        if not isinstance(words, str):
+            words = self._numbers = words()
+        return words
+
+    def _key(self) -> tuple[str, Verdict, str, str]:
+        return (self.name, self.verdict, self.numbers, self.source)
+
+    def __eq__(self, other: object) -> bool:
+        if not isinstance(other, CheckResult):
+            return NotImplemented
+        return self._key() == other._key()
+
+    def __hash__(self) -> int:
+        return hash(self._key())
+
+    def __repr__(self) -> str:
+        return (
+            f"CheckResult(name={self.name!r}, verdict={self.verdict!r}, "
+            f"numbers={self.numbers!r}, source={self.source!r})"
+        )
 
 
 class _OfAPlan:
@@ -255,13 +290,12 @@ def _dated_item_check(
         return CheckResult(name, missing, basis, source)
     if item.failed:
         return CheckResult(name, FAIL, item.basis, source)
-    if item.due_on <= planned.start:
-        return CheckResult(
-            name, expired, f"due {item.due_on}, by the start {planned.start}", source
-        )
-    if item.due_on < end:
-        return CheckResult(name, lapses, f"due {item.due_on}, before recovery {end}", source)
-    return CheckResult(name, PASS, f"due {item.due_on}, after recovery {end}", source)
+    due, start = item.due_on, planned.start
+    if due <= start:
+        return CheckResult(name, expired, lambda: f"due {due}, by the start {start}", source)
+    if due < end:
+        return CheckResult(name, lapses, lambda: f"due {due}, before recovery {end}", source)
+    return CheckResult(name, PASS, lambda: f"due {due}, after recovery {end}", source)
 
 
 def check_status(c: Context) -> list[CheckResult]:
@@ -306,7 +340,8 @@ def check_depth(c: Context, margins: dict[str, float]) -> list[CheckResult]:
     rating = c.unit.variant.depth_rating_m
     spare = (rating - site.water_depth_m) / rating
     margins["depth"] = spare
-    numbers = depth_words(site.water_depth_m, rating, rules.depth_margin_fraction)
+    want = rules.depth_margin_fraction
+    numbers = lambda: depth_words(site.water_depth_m, rating, want)  # noqa: E731
     if site.water_depth_m > rating:
         verdict = FAIL
     elif spare < rules.depth_margin_fraction:
@@ -326,20 +361,33 @@ def check_pressure_test(c: Context) -> list[CheckResult]:
     item = c.items.get("pressure_test")
     if test is None or item is None:
         return [CheckResult(name, FAIL, "no pressure test recorded", source)]
-    head = (
-        f"this site needs {quantity(needed, 'dbar', 0)} "
-        f"({quantity(c.site_pressure_dbar, 'dbar', 0)} × {rules.proof_factor:g})"
-    )
+    site_dbar, factor = c.site_pressure_dbar, rules.proof_factor
+
+    # The words are built when read (``CheckResult.numbers``), from these same figures.
+    def head() -> str:
+        return (
+            f"this site needs {quantity(needed, 'dbar', 0)} "
+            f"({quantity(site_dbar, 'dbar', 0)} × {factor:g})"
+        )
+
     if item.failed:
         # The item's basis already names the test and what is wrong with it.
-        return [CheckResult(name, FAIL, clauses(head, item.basis), source)]
-    tested = pressure_tested_words(test)
+        basis = item.basis
+        return [CheckResult(name, FAIL, lambda: clauses(head(), basis), source)]
     if test.start_pressure_dbar < needed * (1.0 - rules.gauge_tolerance_percent / 100.0):
         short = needed - test.start_pressure_dbar
-        numbers = clauses(head, f"{tested}, {quantity(short, 'dbar', 0)} short of it")
-        return [CheckResult(name, FAIL, numbers, source)]
+
+        def short_words() -> str:
+            tested = pressure_tested_words(test)
+            return clauses(head(), f"{tested}, {quantity(short, 'dbar', 0)} short of it")
+
+        return [CheckResult(name, FAIL, short_words, source)]
     dated = _dated_item_check(name, item, c.planned, source, missing=FAIL, lapses=WARN)
-    return [CheckResult(name, dated.verdict, clauses(head, tested, dated.numbers), source)]
+
+    def words() -> str:
+        return clauses(head(), pressure_tested_words(test), dated.numbers)
+
+    return [CheckResult(name, dated.verdict, words, source)]
 
 
 def battery_words(
@@ -394,7 +442,8 @@ def check_battery(c: Context, margins: dict[str, float]) -> list[CheckResult]:
     days = planned.days
     need = (battery.daily_in_water_ah + battery.self_discharge_daily_ah) * days
     left = battery.remaining_ah - need
-    numbers = battery_words(battery, planned, c.rate, c.step, need)
+    rate, step = c.rate, c.step
+    numbers = lambda: battery_words(battery, planned, rate, step, need)  # noqa: E731
     if left < 0:
         verdict = FAIL
     elif left < battery.reserve_ah:
@@ -403,6 +452,23 @@ def check_battery(c: Context, margins: dict[str, float]) -> list[CheckResult]:
         verdict = PASS
     margins["battery"] = left / battery.usable_ah if battery.usable_ah else -1.0
     return [CheckResult("Battery", verdict, numbers, source)]
+
+
+def anode_words(
+    p: AnodeProjection, mass_end: float, *, bond_fault: bool = True, fast: bool = False
+) -> str:
+    """One anode's check in one sentence: the mass projected at recovery against its
+    replace-at mass, and a bond fault or fast wear when there is one."""
+    numbers = (
+        f"{mass_end * 1000:.0f} g projected at recovery, replace at "
+        f"{p.threshold_kg * 1000:.0f} g ({p.replace_at_percent:.0f} % of "
+        f"{p.new_kg * 1000:.0f} g)"
+    )
+    if bond_fault:
+        return numbers + f"; bond {p.bond_resistance_ohm:g} Ω over the limit"
+    if fast:
+        return numbers + "; wearing faster than design"
+    return numbers
 
 
 def check_anodes(c: Context, margins: dict[str, float]) -> list[CheckResult]:
@@ -420,23 +486,24 @@ def check_anodes(c: Context, margins: dict[str, float]) -> list[CheckResult]:
             results.append(CheckResult(name, WARN, numbers, source))
             continue
         spare_kg = mass_end - p.threshold_kg
-        numbers = (
-            f"{mass_end * 1000:.0f} g projected at recovery, replace at "
-            f"{p.threshold_kg * 1000:.0f} g ({p.replace_at_percent:.0f} % of "
-            f"{p.new_kg * 1000:.0f} g)"
-        )
         if p.bond_fault(c.rules):
-            numbers += f"; bond {p.bond_resistance_ohm:g} Ω over the limit"
-            results.append(CheckResult(name, FAIL, numbers, source))
+            words = partial(anode_words, p, mass_end, bond_fault=True)
+            results.append(CheckResult(name, FAIL, words, source))
             anode_margin = min(anode_margin, -1.0)
             continue
         verdict = FAIL if spare_kg < 0 else PASS
-        if verdict == PASS and p.fit.fast_wear:
-            verdict, numbers = WARN, numbers + "; wearing faster than design"
-        results.append(CheckResult(name, verdict, numbers, source))
+        fast = verdict == PASS and p.fit.fast_wear
+        if fast:
+            verdict = WARN
+        words = partial(anode_words, p, mass_end, bond_fault=False, fast=fast)
+        results.append(CheckResult(name, verdict, words, source))
         anode_margin = min(anode_margin, spare_kg / p.new_kg)
     margins["anodes"] = anode_margin
     return results
+
+
+def _with_basis(result: CheckResult, basis: str) -> str:
+    return f"{result.numbers}: {basis}"
 
 
 def check_seals(c: Context) -> list[CheckResult]:
@@ -453,7 +520,8 @@ def check_seals(c: Context) -> list[CheckResult]:
             continue
         result = _dated_item_check(name, item, c.planned, source, missing=WARN, lapses=FAIL)
         if result.verdict == FAIL and not item.failed:
-            result = CheckResult(name, result.verdict, f"{result.numbers}: {item.basis}", source)
+            words = partial(_with_basis, result, item.basis)
+            result = CheckResult(name, result.verdict, words, source)
         results.append(result)
     return results
 
@@ -613,14 +681,13 @@ def _ranging(c: Context) -> list[CheckResult]:
 
 
 def check_address(c: Context, clashes: list[str]) -> list[CheckResult]:
-    unit, site = c.unit, c.planned.site
+    address, site = c.unit.acoustic_address, c.planned.site
     if clashes:
-        numbers = (
-            f"address {unit.acoustic_address} already used at {site.name} by {', '.join(clashes)}"
-        )
-        return [CheckResult("Acoustic address", FAIL, numbers, "—")]
-    numbers = f"address {unit.acoustic_address} free at {site.name}"
-    return [CheckResult("Acoustic address", PASS, numbers, "—")]
+        used = f"address {address} already used at {site.name} by {', '.join(clashes)}"
+        return [CheckResult("Acoustic address", FAIL, used, "—")]
+    return [
+        CheckResult("Acoustic address", PASS, lambda: f"address {address} free at {site.name}", "—")
+    ]
 
 
 def check_unit(

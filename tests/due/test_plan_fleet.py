@@ -198,3 +198,36 @@ def test_the_overview_costs_the_same_queries_for_20_and_2000_units(
     due_queries = [sql for sql in large if "fleet_duerow" in sql]
     assert due_queries
     assert not any('IN (SELECT U0."id"' in sql for sql in due_queries)
+
+
+def test_the_plan_builds_a_sentence_only_when_it_is_read(
+    variant, site, technician, workshop, monkeypatch
+):
+    """The planner works out verdicts and margins for every unit and leaves the words for the
+    rows a page shows: a check's sentence is built once, on first reading, from the figures
+    the verdict used, and reads the same as the unit checked alone."""
+    from fleet.due import readiness as readiness_module
+
+    _random_fleet(random.Random(5), variant, site, technician, workshop, 8)
+    on = timezone.localdate()
+    planned = PlannedDeployment(site, on + dt.timedelta(days=10), 90)
+    built = []
+    depth_words = readiness_module.depth_words
+
+    def counted(*args):
+        built.append(args)
+        return depth_words(*args)
+
+    monkeypatch.setattr(readiness_module, "depth_words", counted)
+    plan = plan_campaign(planned, wanted=3, on=on)
+    results = plan.ready + plan.rejected
+    assert len(results) >= 5
+    assert built == []  # no unit's depth sentence built yet
+    first = results[0]
+    depth = next(c for c in first.checks if c.name == "Depth rating")
+    words = depth.numbers
+    assert len(built) == 1
+    assert depth.numbers is words  # built once, kept
+    assert len(built) == 1
+    alone = readiness_for(first.unit, planned, on=on)
+    assert [c.numbers for c in alone.checks if c.name == "Depth rating"] == [words]

@@ -231,3 +231,39 @@ def test_the_plan_builds_a_sentence_only_when_it_is_read(
     assert len(built) == 1
     alone = readiness_for(first.unit, planned, on=on)
     assert [c.numbers for c in alone.checks if c.name == "Depth rating"] == [words]
+
+
+def test_the_plan_pauses_the_cyclic_collector_and_restores_it(
+    variant, site, technician, workshop, monkeypatch
+):
+    """The collector is off while the plan is built and back as it was afterwards, after a
+    failure too (a collector left off would grow every later request's memory)."""
+    import gc
+
+    from fleet.due import readiness as readiness_module
+
+    seen = []
+    check_unit = readiness_module.check_unit
+
+    def watched(*args, **kwargs):
+        seen.append(gc.isenabled())
+        return check_unit(*args, **kwargs)
+
+    monkeypatch.setattr(readiness_module, "check_unit", watched)
+    _random_fleet(random.Random(7), variant, site, technician, workshop, 3)
+    planned = PlannedDeployment(site, timezone.localdate() + dt.timedelta(days=10), 90)
+    assert gc.isenabled()
+    plan_campaign(planned, wanted=1, on=timezone.localdate())
+    assert seen and not any(seen)
+    assert gc.isenabled()
+    with pytest.raises(RuntimeError), readiness_module.cyclic_gc_paused():
+        assert not gc.isenabled()
+        raise RuntimeError("a failure inside")
+    assert gc.isenabled()
+    gc.disable()
+    try:
+        with readiness_module.cyclic_gc_paused():
+            pass
+        assert not gc.isenabled()  # left as it was found
+    finally:
+        gc.enable()

@@ -20,9 +20,7 @@ from django.db.models import (
     QuerySet,
     Subquery,
     TimeField,
-    Window,
 )
-from django.db.models.functions import RowNumber
 from django.utils import timezone
 from django.utils.text import capfirst
 
@@ -114,27 +112,38 @@ def unit_deployments(*, unit: Transponder, pks: list[int] | None = None) -> list
     return list(deployments.select_related("site", "override_by"))
 
 
-def _newest_per_position(entries: QuerySet[_E]) -> dict[int, _E]:
-    """The newest of ``entries`` at each position, picked in SQL (a window numbering each
-    position's entries newest first), so only one row per position is read. One query."""
-    newest = entries.annotate(
-        newness=Window(
-            RowNumber(),
-            partition_by=[F("position_id")],
-            order_by=[F("record__opened_at").desc(), F("pk").desc()],
-        )
-    ).filter(newness=1)
-    return {entry.position_id: entry for entry in newest.select_related("record", "position")}
+def _newest_per_position(entries: QuerySet[_E], positions: QuerySet[Any]) -> dict[int, _E]:
+    """The newest of ``entries`` at each of ``positions``, picked in SQL: for each position,
+    the unit's visits are walked newest first (their index on unit and opening time) until
+    one holds an entry there, so the cost does not grow with the unit's history. The
+    position is matched as an expression (``position_id + 0``) so that SQLite's planner does
+    not take the position's index instead, which holds that position's entries across the
+    whole fleet. One query."""
+    newest = (
+        entries.alias(position_no=F("position_id") + 0)
+        .filter(position_no=OuterRef("pk"))
+        .order_by("-record__opened_at", "-pk")
+        .values("pk")[:1]
+    )
+    picked = positions.order_by().annotate(newest=Subquery(newest)).values("newest")
+    rows = entries.model._default_manager.filter(pk__in=picked)
+    return {entry.position_id: entry for entry in rows.select_related("record", "position")}
 
 
 def last_anode_readings(*, unit: Transponder) -> dict[int, AnodeReading]:
     """The newest reading at each anode position, by position id. One query."""
-    return _newest_per_position(AnodeReading.objects.filter(record__unit=unit))
+    return _newest_per_position(
+        AnodeReading.objects.filter(record__unit=unit),
+        AnodePosition.objects.filter(variant_id=unit.variant_id),
+    )
 
 
 def last_seal_changes(*, unit: Transponder) -> dict[int, SealChange]:
     """The newest seal change at each seal position, by position id. One query."""
-    return _newest_per_position(SealChange.objects.filter(record__unit=unit))
+    return _newest_per_position(
+        SealChange.objects.filter(record__unit=unit),
+        SealPosition.objects.filter(variant_id=unit.variant_id),
+    )
 
 
 def fitted_pack(*, unit: Transponder) -> BatteryInstall | None:

@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import bisect
 import datetime as dt
+import math
 from collections.abc import Iterable
 
 SECONDS_PER_DAY = 86400.0
@@ -122,5 +123,48 @@ def immersed_days_at_each(
         stop = at if end is None else min(end, at)
         if stop > start:
             total += (stop - start).total_seconds() / SECONDS_PER_DAY
+        result.append(total)
+    return result
+
+
+def immersed_days_at_each_seconds(
+    intervals: Iterable[tuple[float, float | None]], moments: Iterable[float]
+) -> list[float]:
+    """``immersed_days_at_each`` with every instant given as seconds since the Unix epoch
+    (UTC): for drawing many points, where the instants come from the database as numbers.
+    The same prefix sums and bisection; the values agree with ``immersed_days`` to float
+    rounding of the seconds (well under a second), not to the last bit.
+
+    Example: deployed 2025-01-01 (1735689600) to 2025-04-11 (1744329600); at 2025-03-02
+    (1740873600) the unit has 60 immersed days.
+    """
+    spans = []
+    for start, end in intervals:
+        if not math.isfinite(start) or (end is not None and not math.isfinite(end)):
+            raise ValueError("deployment instants must be finite")
+        if end is not None and end < start:
+            raise ValueError(f"recovered must be on or after over the side, got {end} < {start}")
+        spans.append((start, end))
+    spans.sort(key=lambda span: span[0])
+    starts = [start for start, _ in spans]
+    prefix = [0.0]
+    previous_end: float | None = None
+    for start, end in spans:
+        if previous_end is not None and start < previous_end:
+            raise ValueError(f"a deployment from {start} overlaps the one before it")
+        whole = 0.0 if end is None else (end - start) / SECONDS_PER_DAY
+        prefix.append(prefix[-1] + whole if whole > 0 else prefix[-1])
+        previous_end = end if end is not None else math.inf
+    result = []
+    for at in moments:
+        begun = bisect.bisect_left(starts, at)
+        if begun == 0:
+            result.append(0.0)
+            continue
+        start, end = spans[begun - 1]
+        stop = at if end is None else min(end, at)
+        total = prefix[begun - 1]
+        if stop > start:
+            total += (stop - start) / SECONDS_PER_DAY
         result.append(total)
     return result

@@ -6,13 +6,15 @@ wherever the unit sat dry in the workshop, which is the honest picture.
 
 from __future__ import annotations
 
+import bisect
 import datetime as dt
 from dataclasses import dataclass
 
 from django.utils import timezone
 
-from fleet.calc.exposure import immersed_days_at_each
-from fleet.models import Deployment
+from fleet.calc.exposure import immersed_days_at_each_seconds
+from fleet.models import Deployment, Transponder
+from fleet.models.functions import EpochSeconds
 
 from .engine import UnitEvaluation
 from .state import unit_readings
@@ -34,13 +36,13 @@ class AnodeHistory:
 RECENT_READINGS = 100
 
 
-def thin_readings(points: list[tuple[dt.date, float, bool]]) -> list[int]:
-    """Indices (oldest first) of the readings ``(day, percent, replaced)`` the chart draws."""
+def thin_readings(points: list[tuple[int, float, bool]]) -> list[int]:
+    """Indices (oldest first) of the readings ``(year, percent, replaced)`` the chart draws."""
     cut = max(0, len(points) - RECENT_READINGS)
     keep = set(range(cut, len(points)))
     by_year: dict[int, list[int]] = {}
     for i in range(cut):
-        by_year.setdefault(points[i][0].year, []).append(i)
+        by_year.setdefault(points[i][0], []).append(i)
         if points[i][2]:
             keep.add(i)
     for indices in by_year.values():
@@ -50,22 +52,41 @@ def thin_readings(points: list[tuple[dt.date, float, bool]]) -> list[int]:
     return sorted(keep)
 
 
-Row = tuple[float | None, float | None, bool, dt.datetime]
+@dataclass(frozen=True, slots=True, eq=False)  # one object per reading
+class _Reading:
+    at_s: float  # the visit's opening, seconds since the Unix epoch
+    percent: float | None  # % of new; None for a reading with no value
+    replaced: bool
 
 
-def _percents(rows: list[Row], new_g: float) -> tuple[list[tuple[dt.date, float, bool]], list[int]]:
-    """Each reading with a value as (local day, % of new, replaced), and its index in
-    ``rows``."""
+def _new_years(first_s: float, last_s: float) -> tuple[list[float], int]:
+    """Each local new year's midnight after ``first_s`` up to ``last_s`` (epoch seconds),
+    and the year ``first_s`` falls in."""
     tz = timezone.get_current_timezone()
-    every: list[tuple[dt.date, float, bool]] = []
-    at: list[int] = []
-    for index, (mass_g, remaining_percent, replaced, opened_at) in enumerate(rows):
+    first_year = dt.datetime.fromtimestamp(first_s, tz).year
+    last_year = dt.datetime.fromtimestamp(last_s, tz).year
+    bounds = [
+        dt.datetime(y, 1, 1, tzinfo=tz).timestamp() for y in range(first_year + 1, last_year + 1)
+    ]
+    return bounds, first_year
+
+
+def position_readings(unit: Transponder, position_id: int, new_g: float) -> list[_Reading]:
+    """Every reading at the position, oldest first, as plain numbers: the visit's opening
+    comes from the database as epoch seconds, so a long history costs no date conversion
+    in Python. One query."""
+    rows = (
+        unit_readings(unit, [position_id])
+        .order_by("record__opened_at", "pk")
+        .annotate(at_s=EpochSeconds("record__opened_at"))
+        .values_list("at_s", "mass_g", "remaining_percent", "replaced")
+    )
+    out = []
+    for at_s, mass_g, remaining_percent, replaced in rows:
         # As ``AnodeReading.effective_remaining_percent``.
         pct = remaining_percent if mass_g is None else 100.0 * mass_g / new_g
-        if pct is not None:
-            every.append((opened_at.astimezone(tz).date(), pct, replaced))
-            at.append(index)
-    return every, at
+        out.append(_Reading(at_s, pct, replaced))
+    return out
 
 
 def anode_history(ev: UnitEvaluation, position_id: int) -> AnodeHistory | None:
@@ -73,46 +94,58 @@ def anode_history(ev: UnitEvaluation, position_id: int) -> AnodeHistory | None:
     if projection is None:
         return None
     unit = ev.unit
-    intervals = list(
-        Deployment.objects.filter(unit=unit).values_list("over_side_at", "recovered_at")
-    )
-    # Plain values, oldest first.
-    rows = list(
-        unit_readings(unit, [position_id])
-        .order_by("record__opened_at", "pk")
-        .values_list("mass_g", "remaining_percent", "replaced", "record__opened_at")
-    )
     new_g = next(
         p.new_net_mass_g for p in unit.variant.anode_positions.all() if p.pk == position_id
     )
-    every, at = _percents(rows, new_g)
-    kept = thin_readings(every)
+    readings = position_readings(unit, position_id, new_g)
+    every = [r for r in readings if r.percent is not None]
+    years: list[int] = []
+    if every:
+        bounds, first_year = _new_years(every[0].at_s, every[-1].at_s)
+        years = [first_year + bisect.bisect_right(bounds, r.at_s) for r in every]
+    drawn = [
+        every[k]
+        for k in thin_readings(
+            [(y, r.percent or 0.0, r.replaced) for y, r in zip(years, every, strict=True)]
+        )
+    ]
     # The current anode's life starts at the last replacement.
-    last_replaced = max((i for i, row in enumerate(rows) if row[2]), default=None)
-    # Immersed days (one pass) at the drawn readings and the last replacement only.
-    wanted = {at[k] for k in kept}
-    if last_replaced is not None:
-        wanted.add(last_replaced)
-    needed = sorted(wanted)
-    moments = [rows[i][3] for i in needed]
-    xs = dict(zip(needed, immersed_days_at_each(intervals, moments), strict=True))
+    last_replaced = next((r for r in reversed(readings) if r.replaced), None)
+    # Immersed days at the drawn readings and the last replacement, from the deployments'
+    # instants read as plain numbers (one pass of prefix sums).
+    intervals = (
+        Deployment.objects.filter(unit=unit)
+        .annotate(start=EpochSeconds("over_side_at"), end=EpochSeconds("recovered_at"))
+        .values_list("start", "end")
+    )
+    needed = [*drawn, *([last_replaced] if last_replaced is not None else [])]
+    days = immersed_days_at_each_seconds(intervals, [r.at_s for r in needed])
+    xs = dict(zip(needed, days, strict=True))
+    tz = timezone.get_current_timezone()
+
+    def local_day(reading: _Reading) -> dt.date:
+        return dt.datetime.fromtimestamp(reading.at_s, tz).date()
+
     points = []
     fitted = []
     fit_from_x = 0.0
     wearing = projection.fit is not None and bool(projection.fit.rate_kg_per_day)
+    position_of = {r: i for i, r in enumerate(readings)}
+    replaced_at = -1
     if last_replaced is not None:
+        replaced_at = position_of[last_replaced]
         fit_from_x = xs[last_replaced]
         start_mass = projection.fit.mass_at_kg(0.0) if projection.fit and wearing else None
         if start_mass is not None:
-            day = timezone.localdate(rows[last_replaced][3])
-            fitted.append((day, 100.0 * start_mass / projection.new_kg))
-    for k in kept:
-        day, pct, _replaced = every[k]
-        index = at[k]
-        points.append((day, pct))
-        current_anode = last_replaced is None or index > last_replaced
+            fitted.append((local_day(last_replaced), 100.0 * start_mass / projection.new_kg))
+    position_of = {r: i for i, r in enumerate(readings)}
+    for reading in drawn:
+        assert reading.percent is not None
+        day = local_day(reading)
+        points.append((day, reading.percent))
+        current_anode = position_of[reading] > replaced_at
         if current_anode and wearing and projection.fit is not None:
-            mass = projection.fit.mass_at_kg(max(0.0, xs[index] - fit_from_x))
+            mass = projection.fit.mass_at_kg(max(0.0, xs[reading] - fit_from_x))
             if mass is not None:
                 fitted.append((day, 100.0 * mass / projection.new_kg))
     future: list[tuple[dt.date, float]] = []
@@ -123,9 +156,9 @@ def anode_history(ev: UnitEvaluation, position_id: int) -> AnodeHistory | None:
         if item is not None and item.due_on is not None and item.due_on > as_of:
             future.append((item.due_on, projection.replace_at_percent))
     shown = ""
-    if len(kept) < len(every):
+    if len(drawn) < len(every):
         shown = (
-            f"{len(kept):,} of {len(every):,} readings drawn: the newest {RECENT_READINGS}; "
+            f"{len(drawn):,} of {len(every):,} readings drawn: the newest {RECENT_READINGS}; "
             "before them each year's first, last, lowest, highest and replacements"
         )
     return AnodeHistory(

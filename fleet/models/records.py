@@ -81,7 +81,10 @@ class ServiceRecord(Stamped):
         indexes = [
             models.Index(
                 fields=["opened_at"], condition=Q(closed_at__isnull=True), name="record_open_by_age"
-            )
+            ),
+            # A unit's visits newest first (its latest reading at each position, the chart's
+            # newest readings), read without sorting the unit's whole history.
+            models.Index(fields=["unit", "opened_at"], name="record_by_unit_age"),
         ]
         constraints = [
             models.CheckConstraint(

@@ -4,7 +4,12 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from fleet.calc.exposure import immersed_days, immersed_days_at_each, overlap_days
+from fleet.calc.exposure import (
+    immersed_days,
+    immersed_days_at_each,
+    immersed_days_at_each_seconds,
+    overlap_days,
+)
 
 
 def t(*args: int) -> dt.datetime:
@@ -87,3 +92,36 @@ def test_it_gives_the_worked_example_for_each_moment():
 def test_it_rejects_overlaps_when_asked_for_many_moments():
     with pytest.raises(ValueError, match="over_side_at .* overlaps"):
         immersed_days_at_each([(t(2025, 1, 1), None), (t(2025, 2, 1), None)], [t(2025, 6, 1)])
+
+
+# The same days from epoch seconds, for the chart (the definition above, with Python's
+# datetime.timestamp() giving the seconds; common practice, no published source).
+@given(
+    gaps=st.lists(st.tuples(st.integers(1, 90 * 24), st.integers(0, 90 * 24)), max_size=12),
+    open_last=st.booleans(),
+    moments=st.lists(st.integers(-30 * 24, 3000 * 24), max_size=20),
+)
+def test_it_gives_the_same_days_from_epoch_seconds(gaps, open_last, moments):
+    intervals: list[tuple[dt.datetime, dt.datetime | None]] = []
+    at = t(2025, 1, 1)
+    for dry_h, wet_h in gaps:
+        start = at + dt.timedelta(hours=dry_h)
+        at = start + dt.timedelta(hours=wet_h)
+        intervals.append((start, at))
+    if open_last and intervals:
+        intervals[-1] = (intervals[-1][0], None)
+    asked = [t(2025, 1, 1) + dt.timedelta(hours=h) for h in moments]
+    seconds = [(s.timestamp(), e.timestamp() if e else None) for s, e in intervals[::-1]]
+    got = immersed_days_at_each_seconds(seconds, [m.timestamp() for m in asked])
+    assert got == pytest.approx([immersed_days(intervals, m) for m in asked], abs=1e-9)
+
+
+def test_it_gives_the_worked_example_from_epoch_seconds():
+    # 2025-01-01, 2025-04-11, 2025-06-01 (UTC) as Unix seconds, from Python's datetime.
+    spans = [(1735689600.0, 1744329600.0), (1748736000.0, None)]
+    march_2, june_11 = 1740873600.0, 1749600000.0
+    assert immersed_days_at_each_seconds(spans, [march_2, june_11]) == [60.0, 110.0]
+    with pytest.raises(ValueError, match="overlaps"):
+        immersed_days_at_each_seconds([(0.0, None), (86400.0, None)], [1e6])
+    with pytest.raises(ValueError, match="finite"):
+        immersed_days_at_each_seconds([(float("nan"), None)], [1e6])

@@ -1,6 +1,8 @@
 import datetime as dt
+from typing import Any
 
 import django_tables2 as tables
+from django.core.paginator import Paginator
 from django.db.models import F, QuerySet
 from django.urls import reverse
 from django.utils.formats import date_format
@@ -19,6 +21,19 @@ NOWRAP = {"th": {"class": "nowrap"}, "td": {"class": "nowrap"}}
 WIDE_ONLY = {"th": {"class": "wide-only"}, "td": {"class": "wide-only"}}
 NOWRAP_WIDE_ONLY = {"th": {"class": "nowrap wide-only"}, "td": {"class": "nowrap wide-only"}}
 STACK = {"th": {"class": "stack"}, "td": {"class": "stack"}}
+
+
+class CountedPaginator(Paginator):
+    """A paginator told how many rows there are (read with the page's totals), so paging
+    a table runs no count query of its own."""
+
+    def __init__(self, object_list: Any, per_page: int, *, count: int, **kwargs: Any) -> None:
+        super().__init__(object_list, per_page, **kwargs)
+        self._known_count = count
+
+    @property
+    def count(self) -> int:  # type: ignore[override]
+        return self._known_count
 
 
 def condition_badge(condition: Condition) -> str:
@@ -238,6 +253,7 @@ class DueItemTable(tables.Table):
     class Meta:
         attrs = {"class": "grid due-list"}
         per_page = 100
+        empty_text = "No maintenance item matches these filters."
 
     def render_due_state(self, value: int) -> str:
         state = DueState.from_rank(value)

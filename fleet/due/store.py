@@ -249,13 +249,47 @@ def state_rank(on: dt.date, soon_days: int) -> Case:
 def due_totals(
     *, on: dt.date, soon_days: int, units: QuerySet[Transponder] | None = None
 ) -> DueTotals:
+    return due_summary(on=on, soon_days=soon_days, units=units).totals
+
+
+@dataclass(frozen=True, slots=True)
+class DueSummary:
+    totals: DueTotals
+    listed: int  # rows ``due_queryset`` lists with the same arguments
+    listed_flagged: int  # of them, rows with a flag
+
+
+def _shown(show: str, on: dt.date, soon: dt.date) -> Q:
+    """The rows ``show`` lists: "attention" (overdue, due soon, or flagged), "overdue", or
+    "all"."""
+    if show == "overdue":
+        return Q(due_on__lte=on)
+    if show == "all":
+        return Q()
+    return Q(due_on__lte=soon) | ~Q(flags="")
+
+
+def due_summary(
+    *,
+    on: dt.date,
+    soon_days: int,
+    show: str = "attention",
+    units: QuerySet[Transponder] | None = None,
+    kind: str = "",
+) -> DueSummary:
+    """The totals, and how many rows ``due_queryset`` lists (and how many of them carry a
+    flag) with the same arguments, in one pass over the stored rows. One query."""
     soon = on + dt.timedelta(days=soon_days)
-    totals = active_rows(units).aggregate(
+    listed = _shown(show, on, soon) & (Q(kind=kind) if kind else Q())
+    counts = active_rows(units).aggregate(
         overdue=Count("pk", filter=Q(due_on__lte=on)),
         due_soon=Count("pk", filter=Q(due_on__gt=on, due_on__lte=soon)),
         units_overdue=Count("unit", filter=Q(due_on__lte=on), distinct=True),
+        listed=Count("pk", filter=listed),
+        listed_flagged=Count("pk", filter=listed & ~Q(flags="")),
     )
-    return DueTotals(totals["overdue"], totals["due_soon"], totals["units_overdue"])
+    totals = DueTotals(counts["overdue"], counts["due_soon"], counts["units_overdue"])
+    return DueSummary(totals, counts["listed"], counts["listed_flagged"])
 
 
 class StateRankColumn(TypedDict):
@@ -282,11 +316,7 @@ def due_queryset(
     ``show``: "attention" (overdue, due soon, or flagged), "overdue", or "all".
     """
     soon = on + dt.timedelta(days=soon_days)
-    rows = active_rows(units)
-    if show == "overdue":
-        rows = rows.filter(due_on__lte=on)
-    elif show != "all":
-        rows = rows.filter(Q(due_on__lte=soon) | ~Q(flags=""))
+    rows = active_rows(units).filter(_shown(show, on, soon))
     if kind:
         rows = rows.filter(kind=kind)
     return (

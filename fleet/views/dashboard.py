@@ -8,12 +8,12 @@ from django_tables2 import RequestConfig
 from fleet import roles
 from fleet.due.condition import Condition
 from fleet.due.items import ItemKind
-from fleet.due.store import due_queryset, due_totals, export_rows
+from fleet.due.store import due_queryset, due_summary, export_rows
 from fleet.exports import csv_rows_response
 from fleet.forms import DueFilterForm
 from fleet.models import Transponder
 from fleet.selectors import fleet_counts, open_records, units_in_water
-from fleet.tables import DueItemTable, condition_badge
+from fleet.tables import CountedPaginator, DueItemTable, condition_badge
 
 from .guards import require
 
@@ -36,14 +36,16 @@ def dashboard(request: HttpRequest) -> HttpResponse:
             )
         kind = form.cleaned_data["kind"]
     soon_days = settings.HOLDFAST["DUE_SOON_DAYS"]
-    due = due_totals(on=on, soon_days=soon_days, units=units)
     rows = due_queryset(on=on, soon_days=soon_days, show=show, units=units, kind=kind)
     if request.GET.get("export") == "csv":
         return csv_rows_response(export_rows(rows), f"holdfast-due-{on.isoformat()}.csv")
+    # The totals, the rows listed and whether any has a flag, in one pass over the rows.
+    summary = due_summary(on=on, soon_days=soon_days, show=show, units=units, kind=kind)
+    due = summary.totals
     # An empty column keeps its width: drop the flags column when no listed row has a flag.
-    has_flags = rows.exclude(flags="").exists()
-    table = DueItemTable(rows, exclude=() if has_flags else ("flags",))
-    RequestConfig(request, paginate={"per_page": 100}).configure(table)
+    table = DueItemTable(rows, exclude=() if summary.listed_flagged else ("flags",))
+    paginate = {"per_page": 100, "paginator_class": CountedPaginator, "count": summary.listed}
+    RequestConfig(request, paginate=paginate).configure(table)
 
     counts = fleet_counts(on=on)
     condition_rows = [

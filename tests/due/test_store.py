@@ -4,10 +4,13 @@ import datetime as dt
 
 import pytest
 from django.core.management import call_command
+from django.db import connection
+from django.test.utils import CaptureQueriesContext
+from django.urls import reverse
 from django.utils import timezone
 
 from fleet.due.engine import DueState, classify
-from fleet.due.store import due_items_stored, due_queryset, due_totals
+from fleet.due.store import due_items_stored, due_queryset, due_summary, due_totals
 from fleet.models import AnodeReading, DueRow, UnitHold
 from tests.builders import make_unit, pressure_test
 from tests.due.test_engine import t, visit
@@ -137,3 +140,43 @@ def test_a_variant_change_in_the_admin_reaches_the_units_rows(as_supervisor, uni
     response = as_supervisor.post(f"/admin/fleet/variant/{variant.pk}/change/", data)
     assert response.status_code == 302, response.content.decode()[:2000]
     assert DueRow.objects.get(unit=unit, item="Pressure test").due_on == dt.date(2026, 9, 1)
+
+
+def test_the_summary_counts_what_the_list_shows(variant, workshop, technician):
+    for i in range(6):
+        u = make_unit(serial=f"C-{i:03d}", acoustic_address=str(i), variant=variant, place=workshop)
+        visit(u, technician, t(2026, 2, 1))
+    DueRow.objects.filter(unit__serial="C-000").update(flags="wearing fast")
+    on = dt.date(2026, 12, 1)
+    for show in ("attention", "overdue", "all"):
+        for kind in ("", "anode", "seal"):
+            summary = due_summary(on=on, soon_days=30, show=show, kind=kind)
+            listed = list(due_queryset(on=on, soon_days=30, show=show, kind=kind))
+            assert summary.listed == len(listed)
+            assert summary.listed_flagged == sum(1 for row in listed if row.flags)
+            assert summary.totals == due_totals(on=on, soon_days=30)
+
+
+def test_the_overview_pages_its_rows_without_a_count_query_of_its_own(
+    as_viewer, variant, workshop, technician
+):
+    for i in range(3):
+        u = make_unit(serial=f"P-{i:03d}", acoustic_address=str(i), variant=variant, place=workshop)
+        visit(u, technician, t(2026, 2, 1))
+    with CaptureQueriesContext(connection) as captured:
+        page = as_viewer.get(reverse("dashboard"), {"show": "all", "per_page": 5, "page": 2})
+    assert page.status_code == 200
+    counted = [q["sql"] for q in captured.captured_queries if "COUNT(" in q["sql"]]
+    # The one aggregate (totals and the rows listed) and the units by condition and by place.
+    assert len(counted) == 3
+    # The pager knows the total: a link to the last page and none past it.
+    last = -(-DueRow.objects.count() // 5)
+    body = page.content.decode()
+    assert f"per_page=5&amp;page={last}" in body
+    assert f"per_page=5&amp;page={last + 1}" not in body
+
+
+def test_the_overview_says_when_no_item_matches(as_viewer, unit):
+    DueRow.objects.filter(unit=unit).update(due_on=dt.date(2099, 1, 1), flags="")
+    body = as_viewer.get(reverse("dashboard")).content.decode()
+    assert "No maintenance item matches these filters." in body

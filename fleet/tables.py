@@ -23,7 +23,7 @@ NOWRAP_WIDE_ONLY = {"th": {"class": "nowrap wide-only"}, "td": {"class": "nowrap
 STACK = {"th": {"class": "stack"}, "td": {"class": "stack"}}
 
 
-class CountedPaginator(Paginator):
+class CountedPaginator(Paginator):  # type: ignore[type-arg]
     """A paginator told how many rows there are (read with the page's totals), so paging
     a table runs no count query of its own."""
 
@@ -32,7 +32,7 @@ class CountedPaginator(Paginator):
         self._known_count = count
 
     @property
-    def count(self) -> int:  # type: ignore[override]
+    def count(self) -> int:
         return self._known_count
 
 

@@ -54,6 +54,10 @@ def test_it_builds_a_tiny_fleet_and_reports_every_scenario_against_the_goals(set
         "anode chart @60 under 30 ms",
     ):
         assert line in report
+    # What it ran on, at the start and at the end.
+    assert report.startswith("machine: ")
+    assert "at the end: machine: " in report
+    assert report.count("reference loop ") == 2
     # Everything the import wrote was rolled back.
     assert not Transponder.objects.filter(serial__startswith="BENCH-").exists()
 

@@ -19,6 +19,8 @@ DATABASE_URL=sqlite:////tmp/bench.sqlite3 python manage.py benchmark --quick
 
 import datetime as dt
 import json
+import os
+import platform
 import random
 import statistics
 import subprocess
@@ -94,6 +96,34 @@ def _timed(fn: Callable[[], object], timing: Timing) -> None:
     timing.queries = len(captured)
 
 
+def _machine() -> str:
+    """What the figures were taken on: processor, cores, load, Python, database, and the
+    time of a fixed pure-Python loop (ten million additions), so runs on different
+    machines can be set side by side (no goal)."""
+    model = platform.processor() or platform.machine()
+    cpuinfo = Path("/proc/cpuinfo")
+    if cpuinfo.exists():
+        names = [ln.split(":", 1)[1].strip() for ln in cpuinfo.read_text().splitlines()
+                 if ln.startswith("model name")]  # fmt: skip
+        model = names[0] if names else model
+    start = time.perf_counter()
+    total = 0
+    for i in range(10_000_000):
+        total += i
+    loop = time.perf_counter() - start
+    load = ", ".join(f"{x:.1f}" for x in os.getloadavg()) if hasattr(os, "getloadavg") else "?"
+    with connection.cursor() as cursor:
+        cursor.execute(
+            "SELECT sqlite_version()" if connection.vendor == "sqlite" else "SHOW server_version"
+        )
+        db_version = cursor.fetchone()[0]
+    return (
+        f"machine: {model}, {os.cpu_count()} cores, load average {load}; "
+        f"Python {platform.python_version()}; {connection.vendor} {db_version}; "
+        f"reference loop {loop:.2f} s"
+    )
+
+
 def _peak_mib(fn: Callable[[], object]) -> float:
     tracemalloc.start()
     try:
@@ -154,6 +184,7 @@ class Command(BaseCommand):
                 "This database already holds units. Point DATABASE_URL at an empty scratch "
                 "database and migrate it first."
             )
+        self.stdout.write(_machine())
         now = timezone.now().replace(microsecond=0)
         t0, cpu = time.perf_counter(), time.process_time()
         fleet = _Fleet(random.Random(options["seed"]), now)
@@ -178,6 +209,7 @@ class Command(BaseCommand):
             megapixels or (1.0 if quick else 20.0), megapixels or (1.0 if quick else 24.0)
         )
         missed = self._report(timings, other, sizes, repeat)
+        self.stdout.write(f"at the end: {_machine()}")
         if options["check"] and missed:
             raise CommandError(f"{len(missed)} goal(s) missed: {', '.join(missed)}")
 

@@ -41,6 +41,8 @@ def test_it_builds_a_tiny_fleet_and_reports_every_scenario_against_the_goals(set
         "rebuild_state --check",
         "planner peak MiB",
         "overview SQL read",
+        "overview queries",
+        "overview render ms per row",
         "planner SQL read",
         "fleet build s",
         "import s",

@@ -26,6 +26,7 @@ on the day the fault was recorded, so it reads overdue from then on.
 from __future__ import annotations
 
 import datetime as dt
+import functools
 import math
 from dataclasses import dataclass, field
 
@@ -122,14 +123,30 @@ class AnodeProjection:
         )
 
 
+@functools.lru_cache(maxsize=1024)
+def _position_figures(
+    new_net_mass_g: float, replace_at_percent: float, design_current_a: float | None, alloy: str
+) -> tuple[float, float, float | None]:
+    """An anode position's new mass and replace-at mass (kg) and design wear rate (kg per
+    immersed day, None without a design current): the same for every unit of a variant,
+    so worked out once per set of values."""
+    new_kg = new_net_mass_g / 1000.0
+    threshold = new_kg * replace_at_percent / 100.0
+    design_rate = None
+    if design_current_a:
+        capacity = calc_anodes.alloy(alloy).capacity_ah_per_kg
+        design_rate = calc_anodes.design_wear_rate_kg_per_day(design_current_a, capacity)
+    return new_kg, threshold, design_rate
+
+
 def anode_projection(row: AnodeState | AnodeRowFacts, rules: Rules, duty: Duty) -> AnodeProjection:
     position = row.position
-    new_kg = position.new_net_mass_g / 1000.0
-    threshold = new_kg * position.replace_at_remaining_percent / 100.0
-    design_rate = None
-    if position.design_current_a:
-        capacity = calc_anodes.alloy(position.calc_alloy_name).capacity_ah_per_kg
-        design_rate = calc_anodes.design_wear_rate_kg_per_day(position.design_current_a, capacity)
+    new_kg, threshold, design_rate = _position_figures(
+        position.new_net_mass_g,
+        position.replace_at_remaining_percent,
+        position.design_current_a,
+        position.calc_alloy_name,
+    )
     since_fit = max(0.0, duty.immersed_days - row.immersed_days_at_fit)
     fit = None
     mass_now = row.last_mass_kg

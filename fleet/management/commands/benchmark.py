@@ -22,6 +22,7 @@ import json
 import os
 import platform
 import random
+import re
 import statistics
 import subprocess
 import sys
@@ -377,12 +378,17 @@ def _goals(
     return goals
 
 
+_DECLARED = re.compile(r'^DECLARE "[^"]+" (?:(?:NO )?SCROLL )?CURSOR (?:WITH HOLD )?FOR ')
+
+
 def _replayed(fn: Callable[[], None]) -> Callable[[], None]:
     """The SQL ``fn`` runs (captured once, as the database received it), run again on a
     plain cursor with every row fetched."""
     with CaptureQueriesContext(connection) as captured:
         fn()
-    statements = [q["sql"] for q in captured.captured_queries]
+    # A read through a named (server-side) cursor is captured with its declaration: replay
+    # the query itself.
+    statements = [_DECLARED.sub("", q["sql"]) for q in captured.captured_queries]
 
     def replay() -> None:
         with connection.cursor() as cursor:

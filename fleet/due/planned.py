@@ -7,7 +7,7 @@ to readiness, the planner and the checklist, so its limits are stated in one pla
 from __future__ import annotations
 
 import datetime as dt
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 from fleet.models import Site
 from fleet.models.validators import PLANNING_HORIZON_DAYS
@@ -29,8 +29,6 @@ class PlannedDeployment:
     power_step: int | None = None  # None: the unit's own setting
     horizontal_offset_m: float | None = None  # farthest transceiver offset; None: default
     ping_interval_s: float | None = None  # interrogation cycle; None: the default
-    # The planned recovery day, worked out once (the planner reads it for every unit).
-    end: dt.date = field(init=False, compare=False, repr=False)
 
     def __post_init__(self) -> None:
         if not 1 <= self.days <= MAX_DAYS:
@@ -56,7 +54,10 @@ class PlannedDeployment:
                 f"interrogation interval must be between {PING_INTERVAL_S[0]:g} and "
                 f"{PING_INTERVAL_S[1]:g} s, not {interval}"
             )
-        object.__setattr__(self, "end", self.start + dt.timedelta(days=self.days))
+
+    @property
+    def end(self) -> dt.date:
+        return self.start + dt.timedelta(days=self.days)
 
     def check_start(self, today: dt.date) -> None:
         """Refuse a start in the past or beyond the planning horizon."""

@@ -115,6 +115,7 @@ def anode_history(ev: UnitEvaluation, position_id: int) -> AnodeHistory | None:
     # instants read as plain numbers (one pass of prefix sums).
     intervals = (
         Deployment.objects.filter(unit=unit)
+        .order_by()  # the prefix sums sort them
         .annotate(start=EpochSeconds("over_side_at"), end=EpochSeconds("recovered_at"))
         .values_list("start", "end")
     )

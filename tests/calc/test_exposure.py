@@ -63,14 +63,8 @@ def test_immersed_days_never_decrease_with_time(a, b):
     )
 
 
-# One pass over many moments: the same float as asking for each moment alone (the definition
-# above; common practice, no published source).
-@given(
-    gaps=st.lists(st.tuples(st.integers(1, 90 * 24), st.integers(0, 90 * 24)), max_size=12),
-    open_last=st.booleans(),
-    moments=st.lists(st.integers(-30 * 24, 3000 * 24), max_size=20),
-)
-def test_it_gives_each_moment_the_same_days_as_one_at_a_time(gaps, open_last, moments):
+def _intervals(gaps, open_last) -> list[tuple[dt.datetime, dt.datetime | None]]:
+    """Deployments from (dry hours, wet hours) pairs from 2025-01-01; the last left open."""
     intervals: list[tuple[dt.datetime, dt.datetime | None]] = []
     at = t(2025, 1, 1)
     for dry_h, wet_h in gaps:
@@ -79,6 +73,18 @@ def test_it_gives_each_moment_the_same_days_as_one_at_a_time(gaps, open_last, mo
         intervals.append((start, at))
     if open_last and intervals:
         intervals[-1] = (intervals[-1][0], None)
+    return intervals
+
+
+# One pass over many moments: the same float as asking for each moment alone (the definition
+# above; common practice, no published source).
+@given(
+    gaps=st.lists(st.tuples(st.integers(1, 90 * 24), st.integers(0, 90 * 24)), max_size=12),
+    open_last=st.booleans(),
+    moments=st.lists(st.integers(-30 * 24, 3000 * 24), max_size=20),
+)
+def test_it_gives_each_moment_the_same_days_as_one_at_a_time(gaps, open_last, moments):
+    intervals = _intervals(gaps, open_last)
     asked = [t(2025, 1, 1) + dt.timedelta(hours=h) for h in moments]
     shuffled = intervals[::-1]  # the order given does not matter
     assert immersed_days_at_each(shuffled, asked) == [immersed_days(intervals, m) for m in asked]
@@ -102,14 +108,7 @@ def test_it_rejects_overlaps_when_asked_for_many_moments():
     moments=st.lists(st.integers(-30 * 24, 3000 * 24), max_size=20),
 )
 def test_it_gives_the_same_days_from_epoch_seconds(gaps, open_last, moments):
-    intervals: list[tuple[dt.datetime, dt.datetime | None]] = []
-    at = t(2025, 1, 1)
-    for dry_h, wet_h in gaps:
-        start = at + dt.timedelta(hours=dry_h)
-        at = start + dt.timedelta(hours=wet_h)
-        intervals.append((start, at))
-    if open_last and intervals:
-        intervals[-1] = (intervals[-1][0], None)
+    intervals = _intervals(gaps, open_last)
     asked = [t(2025, 1, 1) + dt.timedelta(hours=h) for h in moments]
     seconds = [(s.timestamp(), e.timestamp() if e else None) for s, e in intervals[::-1]]
     got = immersed_days_at_each_seconds(seconds, [m.timestamp() for m in asked])

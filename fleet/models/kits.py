@@ -148,3 +148,29 @@ class Stamped(models.Model):
         # database whether it is taken would cost a query for every row a service or an
         # import checks. The unique index stays the backstop.
         super().validate_unique(exclude={*(exclude or ()), "uid"})
+
+    def clean_fields(self, exclude: Collection[str] | None = None) -> None:
+        # A relation given as a row read from the database (held on this one) is known to
+        # exist: Django would ask the database again, a query for every relation of every
+        # row a service saves. The foreign key constraint stays the backstop.
+        super().clean_fields(exclude={*(exclude or ()), *loaded_relations(self)})
+
+
+def loaded_relations(row: models.Model) -> set[str]:
+    """The names of ``row``'s foreign keys whose target is held on it as a saved row with the
+    same key (set by assigning the object, not its id), and with no ``limit_choices_to``
+    (whose filter only the database can answer)."""
+    names = set()
+    for field in row._meta.concrete_fields:
+        if not isinstance(field, models.ForeignKey) or field.remote_field.limit_choices_to:
+            continue
+        if not field.is_cached(row):
+            continue
+        target = field.get_cached_value(row)
+        if (
+            target is not None
+            and not target._state.adding
+            and getattr(target, field.target_field.attname) == getattr(row, field.attname)
+        ):
+            names.add(field.name)
+    return names

@@ -145,3 +145,21 @@ def test_no_template_carries_inline_script_or_style():
                 found.append(f"{path.relative_to(templates)}: {what}")
     assert len(list(templates.rglob("*.html"))) > 10
     assert found == []
+
+
+def _database_options(url: str) -> dict:
+    env = {**os.environ, "SECRET_KEY": "k", "DATABASE_URL": url}
+    code = "import json, fleet.settings as s; print(json.dumps(s.DATABASES['default']['OPTIONS']))"
+    result = subprocess.run(
+        [sys.executable, "-c", code], env=env, capture_output=True, text=True, check=False
+    )
+    assert result.returncode == 0, result.stderr
+    return json.loads(result.stdout)
+
+
+def test_postgresql_connections_turn_just_in_time_compilation_off():
+    # Any libpq options given in the address are kept beside it.
+    assert _database_options("postgres://u@db/holdfast")["options"] == "-c jit=off"
+    given = _database_options("postgres://u@db/holdfast?options=-c%20work_mem%3D8MB")
+    assert given["options"] == "-c work_mem=8MB -c jit=off"
+    assert "options" not in _database_options("sqlite:////tmp/x.sqlite3")

@@ -43,7 +43,9 @@ def dashboard(request: HttpRequest) -> HttpResponse:
     summary = due_summary(on=on, soon_days=soon_days, show=show, units=units, kind=kind)
     due = summary.totals
     # An empty column keeps its width: drop the flags column when no listed row has a flag.
-    table = DueItemTable(rows, exclude=() if summary.listed_flagged else ("flags",))
+    table = DueItemTable(
+        rows.only(*DueItemTable.READS), exclude=() if summary.listed_flagged else ("flags",)
+    )
     paginate = {"per_page": 100, "paginator_class": CountedPaginator, "count": summary.listed}
     RequestConfig(request, paginate=paginate).configure(table)
 

@@ -37,6 +37,8 @@ from fleet.calc import battery as calc_battery
 from fleet.calc import seals as calc_seals
 from fleet.formatting import clauses, quantity
 from fleet.models import (
+    AnodeAlloy,
+    AnodePosition,
     AnodeState,
     PressureTest,
     SealState,
@@ -128,13 +130,14 @@ def _position_figures(
     new_net_mass_g: float, replace_at_percent: float, design_current_a: float | None, alloy: str
 ) -> tuple[float, float, float | None]:
     """An anode position's new mass and replace-at mass (kg) and design wear rate (kg per
-    immersed day, None without a design current): the same for every unit of a variant,
-    so worked out once per set of values."""
+    immersed day, None without a design current), from its stored columns (``alloy``: the
+    stored code): the same for every unit of a variant, so worked out once per set of
+    values."""
     new_kg = new_net_mass_g / 1000.0
     threshold = new_kg * replace_at_percent / 100.0
     design_rate = None
     if design_current_a:
-        capacity = calc_anodes.alloy(alloy).capacity_ah_per_kg
+        capacity = calc_anodes.alloy(AnodeAlloy(alloy).calc_name).capacity_ah_per_kg
         design_rate = calc_anodes.design_wear_rate_kg_per_day(design_current_a, capacity)
     return new_kg, threshold, design_rate
 
@@ -145,7 +148,7 @@ def anode_projection(row: AnodeState | AnodeRowFacts, rules: Rules, duty: Duty) 
         position.new_net_mass_g,
         position.replace_at_remaining_percent,
         position.design_current_a,
-        position.calc_alloy_name,
+        position.alloy,
     )
     since_fit = max(0.0, duty.immersed_days - row.immersed_days_at_fit)
     fit = None
@@ -260,6 +263,14 @@ class BatteryProjection:
         return (self.remaining_ah - self.reserve_ah) / per_day
 
 
+# Pure functions of a pack's kind, temperatures, age and load: a fleet's packs come in few
+# kinds and batches, so a whole-fleet plan meets the same arguments again and again.
+_usable_capacity_ah = functools.lru_cache(maxsize=4096)(calc_battery.usable_capacity_ah)
+_self_discharge_ah_per_day = functools.lru_cache(maxsize=1024)(
+    calc_battery.self_discharge_ah_per_day
+)
+
+
 def _pack_spec(
     unit: Transponder | UnitFacts, state: UnitState | StateFacts
 ) -> tuple[str, calc_battery.PackSpec]:
@@ -318,7 +329,7 @@ def battery_projection(
     daily = calc_battery.charge_used_ah(24.0, variant.listen_current_a, round(rate), q_reply)
     # Capacity at the working temperature and at the mean current of the duty (the rate
     # curve matters for high-drain duty); shelf loss since manufacture at the store's.
-    usable = calc_battery.usable_capacity_ah(
+    usable = _usable_capacity_ah(
         spec,
         temperature,
         min(age, 50.0),
@@ -345,8 +356,8 @@ def battery_projection(
         remaining_ah=usable - used,
         reserve_ah=usable * rules.battery_reserve_fraction,
         daily_in_water_ah=daily,
-        self_discharge_daily_ah=calc_battery.self_discharge_ah_per_day(spec, temperature),
-        store_self_discharge_daily_ah=calc_battery.self_discharge_ah_per_day(spec, store_t),
+        self_discharge_daily_ah=_self_discharge_ah_per_day(spec, temperature),
+        store_self_discharge_daily_ah=_self_discharge_ah_per_day(spec, store_t),
         temperature_c=temperature,
         age_years=age,
         replies_per_day=rate,
@@ -529,6 +540,51 @@ def fleet_queryset(
     return base.select_related("variant", *related).prefetch_related(
         "anode_states", "seal_states", *(f"variant__{name}" for name in VARIANT_PREFETCH)
     )
+
+
+@dataclass(frozen=True, slots=True)
+class AnodeOutlook:
+    """One anode position of a unit as its chart draws it: the projection from the stored
+    state row and the unit's duty, the day the replace-at mass is due (``anode_outcome``,
+    as the unit's due item), and the unit's last event."""
+
+    unit: Transponder
+    position: AnodePosition
+    projection: AnodeProjection
+    as_of: dt.datetime | None
+    due_on: dt.date | None
+
+
+def anode_outlook_of(ev: UnitEvaluation, position_id: int) -> AnodeOutlook | None:
+    """The outlook of ``position_id`` from a whole evaluation (None: not the unit's)."""
+    projection = next((p for p in ev.anodes if p.position_id == position_id), None)
+    if projection is None:
+        return None
+    position = next(p for p in ev.unit.variant.anode_positions.all() if p.pk == position_id)
+    item = ev.item(f"anode:{position_id}")
+    due_on = item.due_on if item is not None else None
+    return AnodeOutlook(ev.unit, position, projection, ev.duty.as_of, due_on)
+
+
+def anode_outlook(unit_id: int, position_id: int) -> AnodeOutlook | None:
+    """The outlook of one position without evaluating the unit's other items: the unit with
+    its variant and the state its duty reads (1 query), the position (1) and its state row
+    (1). The same projection and due date as ``evaluate_unit``'s for that position."""
+    loaded = Transponder.objects.select_related(
+        "variant", "place", "state__open_deployment", "state__duty_deployment", "state__duty_site"
+    ).get(pk=unit_id)
+    position = AnodePosition.objects.filter(pk=position_id, variant_id=loaded.variant_id).first()
+    if position is None:
+        return None
+    rules = rules_for(loaded.variant)
+    duty = duty_of(loaded, state_of(loaded), rules)
+    row = AnodeState.objects.filter(unit=loaded, position=position).first() or AnodeState(
+        unit=loaded, position=position
+    )
+    row.position = position
+    projection = anode_projection(row, rules, duty)
+    due_on = anode_outcome(projection, rules, duty).due_on
+    return AnodeOutlook(loaded, position, projection, duty.as_of, due_on)
 
 
 def sensor_key(sensor: str) -> str:

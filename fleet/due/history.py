@@ -16,7 +16,7 @@ from fleet.calc.exposure import immersed_days_at_each_seconds
 from fleet.models import Deployment, Transponder
 from fleet.models.functions import EpochSeconds
 
-from .engine import UnitEvaluation
+from .engine import AnodeOutlook, UnitEvaluation, anode_outlook_of
 from .state import unit_readings
 
 
@@ -90,13 +90,17 @@ def position_readings(unit: Transponder, position_id: int, new_g: float) -> list
 
 
 def anode_history(ev: UnitEvaluation, position_id: int) -> AnodeHistory | None:
-    projection = next((p for p in ev.anodes if p.position_id == position_id), None)
-    if projection is None:
-        return None
-    unit = ev.unit
-    new_g = next(
-        p.new_net_mass_g for p in unit.variant.anode_positions.all() if p.pk == position_id
-    )
+    """The chart of ``position_id`` from a whole evaluation (the unit report's)."""
+    outlook = anode_outlook_of(ev, position_id)
+    return None if outlook is None else anode_history_of(outlook)
+
+
+def anode_history_of(outlook: AnodeOutlook) -> AnodeHistory:
+    """The chart of one anode position: its readings (thinned, ``thin_readings``), the wear
+    fit through the current anode's and the projection to the replace-at mass. Two queries
+    (the readings, the unit's deployments) whatever the history."""
+    projection, unit = outlook.projection, outlook.unit
+    position_id, new_g = outlook.position.pk, outlook.position.new_net_mass_g
     readings = position_readings(unit, position_id, new_g)
     every = [r for r in readings if r.percent is not None]
     years: list[int] = []
@@ -150,12 +154,11 @@ def anode_history(ev: UnitEvaluation, position_id: int) -> AnodeHistory | None:
             if mass is not None:
                 fitted.append((day, 100.0 * mass / projection.new_kg))
     future: list[tuple[dt.date, float]] = []
-    item = ev.item(f"anode:{position_id}")
-    if projection.mass_now_kg is not None and ev.duty.as_of is not None:
-        as_of = timezone.localdate(ev.duty.as_of)
+    if projection.mass_now_kg is not None and outlook.as_of is not None:
+        as_of = timezone.localdate(outlook.as_of)
         future.append((as_of, 100.0 * projection.mass_now_kg / projection.new_kg))
-        if item is not None and item.due_on is not None and item.due_on > as_of:
-            future.append((item.due_on, projection.replace_at_percent))
+        if outlook.due_on is not None and outlook.due_on > as_of:
+            future.append((outlook.due_on, projection.replace_at_percent))
     shown = ""
     if len(drawn) < len(every):
         shown = (

@@ -7,8 +7,8 @@ from django.shortcuts import render
 from django.utils import timezone
 
 from fleet import charts, roles
-from fleet.due.engine import UnitEvaluation, evaluate_unit, fleet_queryset
-from fleet.due.history import anode_history, battery_history
+from fleet.due.engine import UnitEvaluation, anode_outlook, evaluate_unit, fleet_queryset
+from fleet.due.history import anode_history_of, battery_history
 from fleet.due.readiness import Plan, RejectedGroup, plan_campaign, readiness_for
 from fleet.forms import PlanForm, PlannedDeploymentForm
 from fleet.models import Transponder
@@ -95,11 +95,13 @@ def _svg(body: str) -> HttpResponse:
 
 
 def anode_chart(request: HttpRequest, serial: str, position_id: int) -> HttpResponse:
-    ev, on = _evaluation(request, serial)
-    history = anode_history(ev, position_id)
-    if history is None:
+    # One position's projection from its stored state row, not the unit's every item.
+    unit = get_unit_for_user(request, serial)
+    outlook = anode_outlook(unit.pk, position_id)
+    if outlook is None:
         raise Http404("No such anode position on this unit.")
-    return _svg(charts.anode_chart_svg(history, serial=ev.unit.serial, today=on))
+    history = anode_history_of(outlook)
+    return _svg(charts.anode_chart_svg(history, serial=unit.serial, today=_today()))
 
 
 def battery_chart(request: HttpRequest, serial: str) -> HttpResponse:

@@ -12,8 +12,8 @@ from django.test.utils import CaptureQueriesContext
 from django.utils import timezone
 
 from fleet.calc.exposure import immersed_days
-from fleet.due.engine import evaluate_unit, fleet_queryset
-from fleet.due.history import anode_history, thin_readings
+from fleet.due.engine import anode_outlook, anode_outlook_of, evaluate_unit, fleet_queryset
+from fleet.due.history import anode_history, anode_history_of, thin_readings
 from fleet.due.store import refresh_unit
 from fleet.models import AnodeReading, Deployment, ServiceRecord, Transponder
 from fleet.models.functions import EpochSeconds
@@ -157,3 +157,41 @@ def test_epoch_seconds_match_pythons_timestamps(unit, technician, site):
     for d in rows:
         assert d.s == pytest.approx(d.over_side_at.timestamp(), abs=1e-3)
         assert d.e == pytest.approx(d.recovered_at.timestamp(), abs=1e-3)
+
+
+@pytest.mark.parametrize("visits, seed", [(0, 7), (12, 8), (90, 9)])
+def test_one_positions_outlook_equals_the_whole_evaluations(unit, technician, site, visits, seed):
+    # The chart reads one position's stored state row, not the unit's every item: the same
+    # projection, due date and last event as ``evaluate_unit`` gives for that position.
+    position = (
+        _history(unit, technician, site, visits=visits, seed=seed)
+        if visits
+        else unit.variant.anode_positions.order_by("pk").first()
+    )
+    ev, history = _chart(unit, position)
+    for p in unit.variant.anode_positions.all():
+        alone = anode_outlook(unit.pk, p.pk)
+        whole = anode_outlook_of(ev, p.pk)
+        assert alone is not None and whole is not None
+        assert (alone.projection, alone.due_on, alone.as_of) == (
+            whole.projection,
+            whole.due_on,
+            whole.as_of,
+        )
+        assert alone.position == whole.position == p
+    assert anode_history_of(anode_outlook(unit.pk, position.pk)) == history
+
+
+def test_no_outlook_for_a_position_of_another_variant(unit, variant):
+    other = variant.anode_positions.order_by("pk").first()
+    other.pk = None
+    other.variant = type(variant).objects.create(
+        **{
+            f.name: getattr(variant, f.name)
+            for f in variant._meta.concrete_fields
+            if not f.primary_key and f.name != "name"
+        },
+        name="Another variant",
+    )
+    other.save()
+    assert anode_outlook(unit.pk, other.pk) is None

@@ -26,6 +26,7 @@ reading at a time; ``fit_wear_from_sums`` turns them into the same ``WearFit``.
 
 from __future__ import annotations
 
+import functools
 import math
 from collections.abc import Iterable
 from dataclasses import dataclass
@@ -447,6 +448,7 @@ def _check_point(x: float, y: float) -> tuple[float, float]:
     )
 
 
+@functools.lru_cache(maxsize=256)  # a fleet has few positions: the same pair again and again
 def _design_and_flag(
     design_rate_kg_per_day: float | None, flag_factor: float
 ) -> tuple[float | None, float]:

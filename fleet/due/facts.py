@@ -101,7 +101,7 @@ class UnitFacts:
 
     @property
     def variant_id(self) -> int:
-        return self.variant.pk
+        return self.variant.id  # the column itself (``pk`` resolves its name on every read)
 
 
 # The columns of one unit's row, in order (``unit_facts_from_values``), read by the planner

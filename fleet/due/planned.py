@@ -7,7 +7,7 @@ to readiness, the planner and the checklist, so its limits are stated in one pla
 from __future__ import annotations
 
 import datetime as dt
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 from fleet.models import Site
 from fleet.models.validators import PLANNING_HORIZON_DAYS
@@ -29,6 +29,9 @@ class PlannedDeployment:
     power_step: int | None = None  # None: the unit's own setting
     horizontal_offset_m: float | None = None  # farthest transceiver offset; None: default
     ping_interval_s: float | None = None  # interrogation cycle; None: the default
+    # ``end``, worked out on first reading (a whole-fleet plan reads it for every dated item
+    # of every unit; computed here it would refuse a start near year 9999 on construction).
+    _end: dt.date | None = field(default=None, init=False, repr=False, compare=False)
 
     def __post_init__(self) -> None:
         if not 1 <= self.days <= MAX_DAYS:
@@ -57,7 +60,11 @@ class PlannedDeployment:
 
     @property
     def end(self) -> dt.date:
-        return self.start + dt.timedelta(days=self.days)
+        end = self._end
+        if end is None:
+            end = self.start + dt.timedelta(days=self.days)
+            object.__setattr__(self, "_end", end)
+        return end
 
     def check_start(self, today: dt.date) -> None:
         """Refuse a start in the past or beyond the planning horizon."""

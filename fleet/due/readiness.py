@@ -723,21 +723,20 @@ def check_unit(
         unit, rules, duty, anodes, items, steps, planned, rate, step, memo.pressure_dbar, memo
     )
     r = Readiness(unit, planned, round(rate), step)
-    checks: tuple[Callable[[], list[CheckResult]], ...] = (
-        lambda: check_status(c),
-        lambda: check_depth(c, r.margins),
-        lambda: check_pressure_test(c),
-        lambda: check_battery(c, r.margins),
-        lambda: check_anodes(c, r.margins),
-        lambda: check_seals(c),
-        lambda: check_release(c),
-        lambda: check_sensors(c),
-        lambda: check_buoyancy(c),
-        lambda: check_ranging(c),
-        lambda: check_address(c, address_clashes or []),
-    )
-    for check in checks:
-        r.checks.extend(check())
+    margins = r.margins
+    r.checks = [
+        *check_status(c),
+        *check_depth(c, margins),
+        *check_pressure_test(c),
+        *check_battery(c, margins),
+        *check_anodes(c, margins),
+        *check_seals(c),
+        *check_release(c),
+        *check_sensors(c),
+        *check_buoyancy(c),
+        *check_ranging(c),
+        *check_address(c, address_clashes or []),
+    ]
     return r
 
 

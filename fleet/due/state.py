@@ -52,6 +52,7 @@ from fleet.models import (
     Transponder,
     UnitState,
 )
+from fleet.models.bulk import insert_instances
 
 from .days import OPEN_END, start_of
 from .duty import charge_per_reply_as, replies_in, replies_per_day
@@ -89,6 +90,8 @@ def _mass_kg(new_kg: float, mass_g: float | None, remaining_percent: float | Non
 _READING_FIELDS = (
     "position_id", "mass_g", "remaining_percent", "bond_resistance_ohm", "replaced", "record_id",
 )  # fmt: skip
+
+
 # The anode row's derived fields; the base copy carries the same names after "base_".
 _ANODE_FIELDS = (
     "fitted_at", "immersed_days_at_fit", "n", "sum_x", "sum_y", "sum_xx", "sum_xy", "sum_yy",
@@ -388,7 +391,7 @@ def _seal_rows(
 
 def _write_seals(unit: Transponder, rows: list[SealState]) -> None:
     SealState.objects.filter(unit=unit).delete()
-    SealState.objects.bulk_create(rows)
+    insert_instances(rows)
 
 
 def _pack_tally(
@@ -518,9 +521,9 @@ def write_derived(unit_ids: list[int], derived: list[Derived]) -> None:
     """Replace the state rows of ``unit_ids`` with ``derived``, in bulk."""
     for model in (UnitState, AnodeState, SealState):
         model.objects.filter(unit_id__in=unit_ids).delete()
-    UnitState.objects.bulk_create([d.state for d in derived], batch_size=500)
-    AnodeState.objects.bulk_create([r for d in derived for r in d.anodes], batch_size=500)
-    SealState.objects.bulk_create([r for d in derived for r in d.seals], batch_size=500)
+    insert_instances([d.state for d in derived])
+    insert_instances([r for d in derived for r in d.anodes])
+    insert_instances([r for d in derived for r in d.seals])
 
 
 def refresh_states(units: list[Transponder], *, at: dt.datetime) -> None:

@@ -34,6 +34,7 @@ from django.db.models import (
 from django.utils import timezone
 
 from fleet.models import DueRow, ServiceRecord, Transponder, Variant
+from fleet.models.bulk import insert_instances
 
 from .engine import (
     INACTIVE,
@@ -90,7 +91,7 @@ def store_due_rows(unit: Transponder) -> None:
     state rows are read here, after they were written."""
     prefetch_related_objects([unit], *UNIT_STATE_PREFETCH)
     DueRow.objects.filter(unit_id=unit.pk).delete()
-    DueRow.objects.bulk_create(_rows_of(unit, on=timezone.localdate(), rules_cache={}))
+    insert_instances(_rows_of(unit, on=timezone.localdate(), rules_cache={}))
 
 
 # Units whose refresh is put off to the end of ``refreshing_once`` (None: refresh at once).
@@ -205,7 +206,7 @@ def _rebuild_chunk(unit_ids: list[int], *, at: dt.datetime) -> None:
     )
     refresh_states(units, at=at)
     DueRow.objects.filter(unit_id__in=unit_ids).delete()
-    DueRow.objects.bulk_create(derived_rows(unit_ids), batch_size=1000)
+    insert_instances(list(derived_rows(unit_ids)))
 
 
 def due_rows_snapshot() -> dict[tuple[int, str], tuple[object, ...]]:

@@ -533,13 +533,34 @@ def write_derived(unit_ids: list[int], derived: list[Derived]) -> None:
     insert_instances([r for d in derived for r in d.seals])
 
 
-def refresh_states(units: list[Transponder], *, at: dt.datetime) -> None:
+def refresh_states(units: list[Transponder], *, at: dt.datetime) -> list[Derived]:
     """Derive every unit's state rows again from its whole history and write them: the
     inputs read for all of ``units`` at once, each unit derived alone (``derive``, as for
-    one unit), the rows written in bulk. Run inside a transaction that locks the units."""
+    one unit), the rows written in bulk. Run inside a transaction that locks the units.
+    The rows written, in the order of ``units``."""
     inputs = read_inputs(units)
     derived = [derive(unit, inputs[unit.pk], at=at) for unit in units]
     write_derived([unit.pk for unit in units], derived)
+    return derived
+
+
+def attach_named_records(derived: list[Derived]) -> None:
+    """Give each state row the tests and checks it names, as records (three queries for
+    any number of rows; its deployments, site and pack are records already), so that the
+    rows can be evaluated as derived, with no read back (``engine.evaluate_unit``)."""
+    states = [d.state for d in derived]
+    tests = PressureTest.objects.in_bulk([s.last_pressure_test_id for s in states])
+    releases = ReleaseTest.objects.in_bulk([s.last_release_test_id for s in states])
+    check_ids = [getattr(s, f"{name}_id") for s in states for name in _CHECK_NAMES]
+    checks = SensorCheck.objects.in_bulk([pk for pk in check_ids if pk is not None])
+    for s in states:
+        s.last_pressure_test = tests.get(s.last_pressure_test_id)
+        s.last_release_test = releases.get(s.last_release_test_id)
+        for name in _CHECK_NAMES:
+            setattr(s, name, checks.get(getattr(s, f"{name}_id")))
+
+
+_CHECK_NAMES = ("last_temperature_check", "last_pressure_check", "last_tilt_check")
 
 
 # --- a save at the end of the history -----------------------------------------------------

@@ -28,6 +28,7 @@ from __future__ import annotations
 import datetime as dt
 import functools
 import math
+from collections.abc import Iterable
 from dataclasses import dataclass, field
 
 from django.db.models import Prefetch, QuerySet
@@ -60,6 +61,7 @@ from .duty import Duty, charge_per_reply_as, duty_of
 from .facts import AnodeRowFacts, PressureTestFacts, StateFacts, UnitFacts
 from .items import DueItem, DueState, ItemKind, classify
 from .rules import Rules, rules_for
+from .state import Derived
 
 CHEMISTRY_KEY = {
     "alkaline": "alkaline_zn_mno2",
@@ -592,14 +594,26 @@ def sensor_key(sensor: str) -> str:
 
 
 def evaluate_unit(
-    unit: Transponder, *, on: dt.date, rules_cache: dict[int, Rules] | None = None
+    unit: Transponder,
+    *,
+    on: dt.date,
+    rules_cache: dict[int, Rules] | None = None,
+    derived: Derived | None = None,
 ) -> UnitEvaluation:
-    """Every due item of ``unit`` (loaded with ``fleet_queryset``), classified on ``on``."""
+    """Every due item of ``unit`` (loaded with ``fleet_queryset``), classified on ``on``.
+    ``derived``: the unit's state rows as just derived (``state.derive``, with the records
+    they name attached), evaluated as they are instead of read back after their write; the
+    unit then needs only its variant (with its positions and steps) and place loaded."""
     cache = rules_cache if rules_cache is not None else {}
     rules = cache.get(unit.variant_id)
     if rules is None:
         rules = cache[unit.variant_id] = rules_for(unit.variant)
-    state = state_of(unit)
+    if derived is None:
+        state = state_of(unit)
+        anode_states: Iterable[AnodeState] = unit.anode_states.all()
+        seal_states: Iterable[SealState] = unit.seal_states.all()
+    else:
+        state, anode_states, seal_states = derived.state, derived.anodes, derived.seals
     duty = duty_of(unit, state, rules)
     ev = UnitEvaluation(unit=unit, rules=rules, duty=duty, on=on)
     place = unit.place.name if unit.place else ""
@@ -614,7 +628,7 @@ def evaluate_unit(
         )  # fmt: skip
 
     # Positions come from the variant; a position with no state row yet has no data.
-    anode_rows = {r.position_id: r for r in unit.anode_states.all()}
+    anode_rows = {r.position_id: r for r in anode_states}
     for position in unit.variant.anode_positions.all():
         row = anode_rows.get(position.pk) or AnodeState(unit=unit, position=position)
         row.position = position
@@ -626,7 +640,7 @@ def evaluate_unit(
             f"Anode: {position.name}",
             anode_outcome(projection, rules, duty),
         )
-    seal_rows = {r.position_id: r for r in unit.seal_states.all()}
+    seal_rows = {r.position_id: r for r in seal_states}
     for seal in unit.variant.seal_positions.all():
         seal_row = seal_rows.get(seal.pk) or SealState(unit=unit, position=seal)
         seal_row.position = seal

@@ -2,8 +2,12 @@
 the running rows against a rebuild."""
 
 import datetime as dt
+from collections.abc import Iterator
+
+from django.db.models import Model
 
 from fleet.models import AnodeState, DueRow, SealState, UnitState
+from fleet.models.functions import Instant
 
 _UNIT_FIELDS = (
     "as_of",
@@ -59,23 +63,41 @@ _DUE_FIELDS = ("kind", "item", "due_on", "basis", "flags", "failed", "position")
 Snapshot = dict[tuple[object, ...], tuple[object, ...]]
 
 
-def _norm(value: object) -> object:
-    return float(f"{value:.9g}") if isinstance(value, float) else value
+def _rows(
+    model: type[Model], keys: tuple[str, ...], fields: tuple[str, ...], *, norm: bool = True
+) -> Iterator[tuple[tuple[object, ...], tuple[object, ...]]]:
+    """Every row of ``model`` as (its key columns, its ``fields``), read as tuples, its
+    date-times as ``Instant`` reads them (the values Django reads, at less cost a row) and,
+    with ``norm``, its floats to nine significant digits (only the float columns are
+    looked at)."""
+    stored = {f.attname: f for f in model._meta.concrete_fields}
+    kinds = [stored[name].get_internal_type() for name in fields]
+    columns = [
+        Instant(name) if kind == "DateTimeField" else name
+        for name, kind in zip(fields, kinds, strict=True)
+    ]
+    floats = [i for i, kind in enumerate(kinds) if kind == "FloatField"] if norm else []
+    n = len(keys)
+    for row in model._default_manager.values_list(*keys, *columns):
+        values = list(row[n:])
+        for i in floats:
+            value = values[i]
+            if value is not None:
+                values[i] = float(f"{value:.9g}")
+        yield row[:n], tuple(values)
 
 
 def state_snapshot() -> Snapshot:
     snapshot: Snapshot = {}
-    for row in UnitState.objects.values("unit_id", *_UNIT_FIELDS):
-        snapshot[("unit", row["unit_id"])] = tuple(_norm(row[f]) for f in _UNIT_FIELDS)
+    for (unit_id,), values in _rows(UnitState, ("unit_id",), _UNIT_FIELDS):
+        snapshot[("unit", unit_id)] = values
     anode_fields = (*_ANODE_FIELDS, *_ANODE_KEYS)
-    for row in AnodeState.objects.values("unit_id", "position_id", *anode_fields):
-        key = ("anode", row["unit_id"], row["position_id"])
-        snapshot[key] = tuple(_norm(row[f]) for f in anode_fields)
-    for row in SealState.objects.values("unit_id", "position_id", *_SEAL_FIELDS):
-        key = ("seal", row["unit_id"], row["position_id"])
-        snapshot[key] = tuple(_norm(row[f]) for f in _SEAL_FIELDS)
-    for row in DueRow.objects.values("unit_id", "key", *_DUE_FIELDS):
-        snapshot[("due", row["unit_id"], row["key"])] = tuple(row[f] for f in _DUE_FIELDS)
+    for key, values in _rows(AnodeState, ("unit_id", "position_id"), anode_fields):
+        snapshot[("anode", *key)] = values
+    for key, values in _rows(SealState, ("unit_id", "position_id"), _SEAL_FIELDS):
+        snapshot[("seal", *key)] = values
+    for key, values in _rows(DueRow, ("unit_id", "key"), _DUE_FIELDS, norm=False):
+        snapshot[("due", *key)] = values
     return snapshot
 
 

@@ -52,6 +52,8 @@ from fleet.models import (
     Transponder,
     UnitState,
 )
+from fleet.models.bulk import insert_instances
+from fleet.models.functions import AsStored, Instant
 
 from .days import OPEN_END, start_of
 from .duty import charge_per_reply_as, replies_in, replies_per_day
@@ -89,6 +91,14 @@ def _mass_kg(new_kg: float, mass_g: float | None, remaining_percent: float | Non
 _READING_FIELDS = (
     "position_id", "mass_g", "remaining_percent", "bond_resistance_ohm", "replaced", "record_id",
 )  # fmt: skip
+
+
+def _reading_columns() -> tuple[str | AsStored, ...]:
+    """``_READING_FIELDS`` as read: ``replaced`` is only tested, so it is read as stored
+    (0 or 1 on SQLite), with no conversion per reading (a million in a rebuild)."""
+    return tuple(AsStored(f) if f == "replaced" else f for f in _READING_FIELDS)
+
+
 # The anode row's derived fields; the base copy carries the same names after "base_".
 _ANODE_FIELDS = (
     "fitted_at", "immersed_days_at_fit", "n", "sum_x", "sum_y", "sum_xx", "sum_xy", "sum_yy",
@@ -268,9 +278,9 @@ def _read_deployments(inputs: dict[int, UnitInputs]) -> None:
     for unit_id, *span in (
         Deployment.objects.filter(unit_id__in=unit_ids)
         .order_by("unit_id", "over_side_at", "pk")
-        .values_list("unit_id", "pk", "over_side_at", "recovered_at")
+        .values_list("unit_id", "pk", Instant("over_side_at"), Instant("recovered_at"))
     ):
-        inputs[unit_id].spans.append(tuple(span))  # type: ignore[arg-type]
+        inputs[unit_id].spans.append(tuple(span))
     wanted = [pk for i in inputs.values() for pk in _needed(i.spans, i.pack)]
     for batch in _in_batches(wanted):
         for deployment in (
@@ -287,7 +297,7 @@ def _read_visits(inputs: dict[int, UnitInputs], positions: list[int]) -> None:
     for unit_id, pk, opened in (
         ServiceRecord.objects.filter(unit_id__in=unit_ids)
         .order_by("unit_id", "pk")
-        .values_list("unit_id", "pk", "opened_at")
+        .values_list("unit_id", "pk", Instant("opened_at"))
     ):
         inputs[unit_id].visits[pk] = opened
     for unit_id, *reading in (
@@ -295,7 +305,7 @@ def _read_visits(inputs: dict[int, UnitInputs], positions: list[int]) -> None:
         .alias(position_no=F("position_id") + 0)  # as ``unit_readings``: through the visits
         .filter(position_no__in=positions)
         .order_by("record__unit_id", "record__opened_at", "pk")
-        .values_list("record__unit_id", *_READING_FIELDS)
+        .values_list("record__unit_id", *_reading_columns())
     ):
         inputs[unit_id].readings.append(tuple(reading))
     for unit_id, changes in _seal_changes(unit_ids).items():
@@ -388,7 +398,7 @@ def _seal_rows(
 
 def _write_seals(unit: Transponder, rows: list[SealState]) -> None:
     SealState.objects.filter(unit=unit).delete()
-    SealState.objects.bulk_create(rows)
+    insert_instances(rows)
 
 
 def _pack_tally(
@@ -518,18 +528,39 @@ def write_derived(unit_ids: list[int], derived: list[Derived]) -> None:
     """Replace the state rows of ``unit_ids`` with ``derived``, in bulk."""
     for model in (UnitState, AnodeState, SealState):
         model.objects.filter(unit_id__in=unit_ids).delete()
-    UnitState.objects.bulk_create([d.state for d in derived], batch_size=500)
-    AnodeState.objects.bulk_create([r for d in derived for r in d.anodes], batch_size=500)
-    SealState.objects.bulk_create([r for d in derived for r in d.seals], batch_size=500)
+    insert_instances([d.state for d in derived])
+    insert_instances([r for d in derived for r in d.anodes])
+    insert_instances([r for d in derived for r in d.seals])
 
 
-def refresh_states(units: list[Transponder], *, at: dt.datetime) -> None:
+def refresh_states(units: list[Transponder], *, at: dt.datetime) -> list[Derived]:
     """Derive every unit's state rows again from its whole history and write them: the
     inputs read for all of ``units`` at once, each unit derived alone (``derive``, as for
-    one unit), the rows written in bulk. Run inside a transaction that locks the units."""
+    one unit), the rows written in bulk. Run inside a transaction that locks the units.
+    The rows written, in the order of ``units``."""
     inputs = read_inputs(units)
     derived = [derive(unit, inputs[unit.pk], at=at) for unit in units]
     write_derived([unit.pk for unit in units], derived)
+    return derived
+
+
+def attach_named_records(derived: list[Derived]) -> None:
+    """Give each state row the tests and checks it names, as records (three queries for
+    any number of rows; its deployments, site and pack are records already), so that the
+    rows can be evaluated as derived, with no read back (``engine.evaluate_unit``)."""
+    states = [d.state for d in derived]
+    tests = PressureTest.objects.in_bulk([s.last_pressure_test_id for s in states])
+    releases = ReleaseTest.objects.in_bulk([s.last_release_test_id for s in states])
+    check_ids = [getattr(s, f"{name}_id") for s in states for name in _CHECK_NAMES]
+    checks = SensorCheck.objects.in_bulk([pk for pk in check_ids if pk is not None])
+    for s in states:
+        s.last_pressure_test = tests.get(s.last_pressure_test_id)
+        s.last_release_test = releases.get(s.last_release_test_id)
+        for name in _CHECK_NAMES:
+            setattr(s, name, checks.get(getattr(s, f"{name}_id")))
+
+
+_CHECK_NAMES = ("last_temperature_check", "last_pressure_check", "last_tilt_check")
 
 
 # --- a save at the end of the history -----------------------------------------------------
@@ -570,7 +601,7 @@ def _anodes_after_visit(
     readings = list(
         AnodeReading.objects.filter(record=visit, position_id__in=list(new_kg))
         .order_by("pk")
-        .values_list(*_READING_FIELDS)
+        .values_list(*_reading_columns())
     )
     for row in rows:
         base = _Anode.read(row, new_kg[row.position_id], "" if new_visit else "base_")

@@ -34,6 +34,7 @@ from django.db.models import (
 from django.utils import timezone
 
 from fleet.models import DueRow, ServiceRecord, Transponder, Variant
+from fleet.models.bulk import insert_instances, insert_values
 
 from .engine import (
     INACTIVE,
@@ -44,7 +45,7 @@ from .engine import (
 )
 from .items import DueItem, DueState, ItemKind, classify
 from .rules import Rules
-from .state import refresh_states, refresh_unit_state
+from .state import Derived, attach_named_records, refresh_states, refresh_unit_state
 
 if TYPE_CHECKING:
     from django_stubs_ext import WithAnnotations
@@ -52,22 +53,37 @@ if TYPE_CHECKING:
 _ROW_FIELDS = ("unit_id", "kind", "key", "item", "due_on", "basis", "flags", "failed", "position")
 
 
-def _rows_of(unit: Transponder, *, on: dt.date, rules_cache: dict[int, Rules]) -> list[DueRow]:
-    """The unit's due rows (``unit`` loaded as ``fleet_queryset`` loads it), unsaved."""
-    evaluation = evaluate_unit(unit, on=on, rules_cache=rules_cache)
+def _row_values(
+    unit: Transponder,
+    *,
+    on: dt.date,
+    rules_cache: dict[int, Rules],
+    derived: Derived | None = None,
+) -> list[tuple[object, ...]]:
+    """The unit's due rows as the values of ``_ROW_FIELDS``: ``unit`` loaded as
+    ``fleet_queryset`` loads it, or with its state rows as just derived (``derived``)."""
+    evaluation = evaluate_unit(unit, on=on, rules_cache=rules_cache, derived=derived)
     return [
-        DueRow(
-            unit_id=unit.pk,
-            kind=item.kind.value,
-            key=item.key,
-            item=item.item,
-            due_on=item.due_on,
-            basis=item.basis,
-            flags="\n".join(item.flags),
-            failed=item.failed,
-            position=index,
+        (
+            unit.pk,
+            item.kind.value,
+            item.key,
+            item.item,
+            item.due_on,
+            item.basis,
+            "\n".join(item.flags),
+            item.failed,
+            index,
         )
         for index, item in enumerate(evaluation.items)
+    ]
+
+
+def _rows_of(unit: Transponder, *, on: dt.date, rules_cache: dict[int, Rules]) -> list[DueRow]:
+    """The unit's due rows (``unit`` loaded as ``fleet_queryset`` loads it), unsaved."""
+    return [
+        DueRow(**dict(zip(_ROW_FIELDS, values, strict=True)))
+        for values in _row_values(unit, on=on, rules_cache=rules_cache)
     ]
 
 
@@ -90,7 +106,7 @@ def store_due_rows(unit: Transponder) -> None:
     state rows are read here, after they were written."""
     prefetch_related_objects([unit], *UNIT_STATE_PREFETCH)
     DueRow.objects.filter(unit_id=unit.pk).delete()
-    DueRow.objects.bulk_create(_rows_of(unit, on=timezone.localdate(), rules_cache={}))
+    insert_instances(_rows_of(unit, on=timezone.localdate(), rules_cache={}))
 
 
 # Units whose refresh is put off to the end of ``refreshing_once`` (None: refresh at once).
@@ -114,7 +130,7 @@ def refreshing_once(*, at: dt.datetime) -> Iterator[set[int]]:
     finally:
         _deferred.reset(token)
     # As ``rebuild_all`` does, by chunks of units: each unit's state rows, then the chunk's
-    # due rows read through one set of prefetches; the same rows as ``refresh_unit`` on each.
+    # due rows from them; the same rows as ``refresh_unit`` on each.
     unit_ids = sorted(pending)
     for first in range(0, len(unit_ids), REBUILD_CHUNK):
         _rebuild_chunk(unit_ids[first : first + REBUILD_CHUNK], at=at)
@@ -171,8 +187,9 @@ def rebuild_all(*, at: dt.datetime) -> int:
     In chunks of units, each in its own transaction with its units locked, in a constant
     number of queries per chunk: every input of the chunk's units read at once and each
     unit's state rows derived from them by the derivation a write runs (``refresh_states``),
-    then the chunk's due rows read through one set of prefetches (``derived_rows``); both
-    deleted and written in bulk."""
+    then each unit's due rows evaluated by the engine from those rows as derived (with the
+    tests and checks they name read in three queries, not the rows read back); both
+    deleted and written in bulk (``fleet/models/bulk.py``)."""
     unit_ids = list(Transponder.objects.order_by("pk").values_list("pk", flat=True))
     for first in range(0, len(unit_ids), REBUILD_CHUNK):
         _rebuild_chunk(unit_ids[first : first + REBUILD_CHUNK], at=at)
@@ -200,12 +217,25 @@ def _rebuild_chunk(unit_ids: list[int], *, at: dt.datetime) -> None:
     units = list(
         Transponder.objects.select_for_update(of=("self",))
         .filter(pk__in=unit_ids)
+        .select_related("place")
         .prefetch_related(Prefetch("variant", queryset=variants))
         .order_by("pk")
     )
-    refresh_states(units, at=at)
+    derived = refresh_states(units, at=at)
+    # The due rows from the state rows as derived, not read back after their write.
+    attach_named_records(derived)
     DueRow.objects.filter(unit_id__in=unit_ids).delete()
-    DueRow.objects.bulk_create(derived_rows(unit_ids), batch_size=1000)
+    today = timezone.localdate()
+    cache: dict[int, Rules] = {}
+    insert_values(
+        DueRow,
+        _ROW_FIELDS,
+        (
+            row
+            for unit, rows in zip(units, derived, strict=True)
+            for row in _row_values(unit, on=today, rules_cache=cache, derived=rows)
+        ),
+    )
 
 
 def due_rows_snapshot() -> dict[tuple[int, str], tuple[object, ...]]:

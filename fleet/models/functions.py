@@ -2,9 +2,10 @@
 
 from __future__ import annotations
 
+import datetime as dt
 from typing import Any
 
-from django.db.models import FloatField, Func
+from django.db.models import Field, FloatField, Func
 
 
 class EpochSeconds(Func):
@@ -35,3 +36,56 @@ class EpochSeconds(Func):
             template="(EXTRACT(EPOCH FROM %(expressions)s)::double precision)",
             **extra,
         )
+
+
+class AsStored(Func):
+    """A column as the driver gives it, with no conversion in Python: for reads of many rows
+    whose values are used as they come (a boolean read as 0 or 1 on SQLite, True or False
+    on PostgreSQL, is only tested). On SQLite the column is read as an expression
+    (``+column``), which the driver does not decode by its declared type either."""
+
+    template = "%(expressions)s"
+    arity = 1
+    output_field: Field[Any, Any] = Field()  # no converter of the backend's
+
+    def as_sqlite(self, compiler: Any, connection: Any, **extra: Any) -> Any:
+        return self.as_sql(compiler, connection, template="+%(expressions)s", **extra)
+
+    def get_db_converters(self, connection: Any) -> list[Any]:
+        return []
+
+
+class Instant(AsStored):
+    """A date-time column read with the least conversion per row, the same value Django
+    gives, for reads of a whole history (a third of a million visits): as ISO 8601 text
+    with its offset, parsed by ``datetime.fromisoformat`` alone. On SQLite the stored text
+    itself (in UTC, as Django writes it unless the database names another time zone),
+    where Django would convert twice; on PostgreSQL the instant written out in UTC by the
+    server (``to_char``, to the microsecond), where the driver's date-time loader is
+    Python code (some 20 µs a value)."""
+
+    def as_sqlite(self, compiler: Any, connection: Any, **extra: Any) -> Any:
+        # Stored in the connection's time zone: its offset is written only for UTC, and
+        # any other zone is set on the parsed value (``_instant``).
+        utc = connection.timezone_name == "UTC"
+        template = "(+%(expressions)s || '+00:00')" if utc else "+%(expressions)s"
+        return self.as_sql(compiler, connection, template=template, **extra)
+
+    def as_postgresql(self, compiler: Any, connection: Any, **extra: Any) -> Any:
+        template = (
+            "to_char(%(expressions)s AT TIME ZONE 'UTC', 'YYYY-MM-DD\"T\"HH24:MI:SS.US\"+00:00\"')"
+        )
+        return self.as_sql(compiler, connection, template=template, **extra)
+
+    def get_db_converters(self, connection: Any) -> list[Any]:
+        return [_instant]
+
+
+def _instant(value: Any, expression: Any, connection: Any) -> Any:
+    """The text read as an aware date-time (None stays None)."""
+    if value is None:
+        return None
+    parsed = dt.datetime.fromisoformat(value)
+    if parsed.tzinfo is None:
+        return parsed.replace(tzinfo=connection.timezone)
+    return parsed

@@ -11,7 +11,8 @@ primary key, ``None`` for a nullable field other than a key).
 
 Same rows as ``bulk_create``: each object's related objects are checked as it checks them
 (``_prepare_related_fields_for_save``: an unsaved one refuses the write), each field's
-``pre_save`` runs where the field defines one (``auto_now`` stamps, files), and the primary
+``pre_save`` runs where the field defines one (``auto_now`` stamps, files), the rows go in
+as Django sends them (VALUES rows; on PostgreSQL one array a column, ``UNNEST``), and the primary
 keys come back from the INSERT (``RETURNING``) and are set on the objects. A model or a
 database this does not cover (no ``RETURNING`` on a multi-row INSERT, a key set by hand, a
 field with its own placeholder or a database default) goes through ``bulk_create``.
@@ -109,6 +110,33 @@ def _covered(model: type[models.Model], objs: Sequence[models.Model], connection
     return True
 
 
+def _by_columns(connection: BaseDatabaseWrapper, fields: list[models.Field[Any, Any]]) -> bool:
+    """PostgreSQL: Django's bulk insert sends one array a column (``INSERT ... SELECT * FROM
+    UNNEST(...)``, planned once instead of a VALUES row per object) where every field's type
+    is one of the database's own; so does this."""
+    return connection.vendor == "postgresql" and all(
+        (f.target_field if isinstance(f, models.ForeignKey) else f).get_internal_type()
+        in connection.data_types
+        for f in fields
+    )
+
+
+def _statement(
+    connection: BaseDatabaseWrapper, model: type[models.Model], fields: list[Any], size: int
+) -> str:
+    """The INSERT of ``size`` rows, the new keys returned (in the rows' order)."""
+    meta = model._meta
+    quote = connection.ops.quote_name
+    head = f"INSERT INTO {quote(meta.db_table)} ({', '.join(quote(f.column) for f in fields)})"
+    tail = f"RETURNING {quote(meta.db_table)}.{quote(str(meta.pk.column))}"
+    if size > 1 and _by_columns(connection, fields):
+        # As Django writes it: each array cast to the column's type without its size.
+        arrays = ", ".join(f"(%s)::{f.db_type(connection).split('(')[0]}[]" for f in fields)
+        return f"{head} SELECT * FROM UNNEST({arrays}) {tail}"
+    row = f"({', '.join(['%s'] * len(fields))})"
+    return f"{head} VALUES {', '.join([row] * size)} {tail}"
+
+
 def insert_new(objs: Sequence[M], *, batch_size: int) -> None:
     """Insert ``objs`` (new objects of one model, no primary key set) as ``bulk_create`` with
     ``batch_size`` would, setting each object's primary key."""
@@ -119,31 +147,27 @@ def insert_new(objs: Sequence[M], *, batch_size: int) -> None:
     if not _covered(model, objs, connection):
         model._default_manager.bulk_create(objs, batch_size=batch_size)
         return
-    meta = model._meta
-    pk = meta.pk
-    fields = [f for f in meta.concrete_fields if f is not pk]
-    readers = [_reader(f) for f in fields]
-    converters = [_converter(f, connection) for f in fields]
-    quote = connection.ops.quote_name
-    head = (
-        f"INSERT INTO {quote(meta.db_table)} ({', '.join(quote(f.column) for f in fields)}) VALUES "
-    )
-    row = f"({', '.join(['%s'] * len(fields))})"
-    tail = f" RETURNING {quote(meta.db_table)}.{quote(pk.column)}"
+    pk = model._meta.pk
+    fields = [f for f in model._meta.concrete_fields if f is not pk]
+    pairs = [(_reader(f), _converter(f, connection)) for f in fields]
+    by_columns = _by_columns(connection, fields)
     statements: dict[int, str] = {}
-    pairs = list(zip(readers, converters, strict=True))
     # As ``bulk_create`` bounds a batch (SQLite: at most 999 parameters a statement).
     batch_size = max(1, min(batch_size, connection.ops.bulk_batch_size(fields, objs)))
     for start in range(0, len(objs), batch_size):
         batch = objs[start : start + batch_size]
-        params: list[Any] = []
+        rows: list[list[Any]] = []
         for obj in batch:
             # Django's own check before a bulk insert (not in the type stubs).
             obj._prepare_related_fields_for_save(operation_name="bulk_create")  # type: ignore[attr-defined]
-            params.extend(convert(read(obj)) for read, convert in pairs)
+            rows.append([convert(read(obj)) for read, convert in pairs])
         size = len(batch)
         if size not in statements:
-            statements[size] = head + ", ".join([row] * size) + tail
+            statements[size] = _statement(connection, model, fields, size)
+        if by_columns and size > 1:
+            params: list[Any] = [list(column) for column in zip(*rows, strict=True)]
+        else:
+            params = [value for row in rows for value in row]
         with connection.cursor() as cursor:
             cursor.execute(statements[size], params)
             keys = [found[0] for found in cursor.fetchall()]
@@ -151,3 +175,25 @@ def insert_new(objs: Sequence[M], *, batch_size: int) -> None:
             obj.pk = key
             obj._state.adding = False
             obj._state.db = connection.alias
+
+
+def insert_plain(
+    model: type[models.Model], names: Sequence[str], rows: Sequence[Sequence[Any]]
+) -> None:
+    """Insert plain parameter rows (values ready for the database, in the order of ``names``,
+    no key wanted back), ``len(rows)`` at a time: one array a column on PostgreSQL (``UNNEST``,
+    as Django's bulk insert sends them), else one statement run for each row (``executemany``)."""
+    if not rows:
+        return
+    connection = transaction.get_connection()
+    meta = model._meta
+    fields: list[Any] = [meta.get_field(name) for name in names]
+    quote = connection.ops.quote_name
+    head = f"INSERT INTO {quote(meta.db_table)} ({', '.join(quote(f.column) for f in fields)})"
+    with connection.cursor() as cursor:
+        if len(rows) > 1 and _by_columns(connection, fields):
+            arrays = ", ".join(f"(%s)::{f.db_type(connection).split('(')[0]}[]" for f in fields)
+            columns = [list(column) for column in zip(*rows, strict=True)]
+            cursor.execute(f"{head} SELECT * FROM UNNEST({arrays})", columns)
+        else:
+            cursor.executemany(f"{head} VALUES ({', '.join(['%s'] * len(fields))})", rows)

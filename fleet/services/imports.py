@@ -51,6 +51,7 @@ from fleet.models import (
 from fleet.models.records import Entry, PackRemoval
 from fleet.models.validators import DATE_VALIDATORS
 from fleet.selectors import previous_anode_mass
+from fleet.services.bulk import insert_plain
 from fleet.services.deployments import backfill_refusal, deployment_backfill
 from fleet.services.records import PastVisit, check_can_open_record, service_records_import
 from fleet.services.reference import site_save, unit_save
@@ -739,26 +740,19 @@ def _record_batch(outcome: Outcome, run: _Run) -> None:
 
 def _insert_links(batch: ImportBatch, links: list[tuple[int, int, int]]) -> None:
     """One ``ImportedRow`` per record written: a large file has 100,000s of these rows of four
-    whole numbers, so they go in as plain parameter rows (``executemany``, in slices) rather
+    whole numbers, so they go in as plain parameter rows (``insert_plain``, in slices) rather
     than as model instances; none needs its primary key back, and every value is a key or a
     row number the import itself produced."""
-    meta = ImportedRow._meta
-    connection = transaction.get_connection()
-    quote = connection.ops.quote_name
     fields = ("batch", "row", "target_type", "target_id")
-    columns = ", ".join(
-        quote(cast("models.Field[Any, Any]", meta.get_field(name)).column) for name in fields
-    )
-    sql = f"INSERT INTO {quote(meta.db_table)} ({columns}) VALUES (%s, %s, %s, %s)"
-    with connection.cursor() as cursor:
-        for start in range(0, len(links), LINK_BATCH):
-            cursor.executemany(
-                sql,
-                [
-                    (batch.pk, row, type_id, pk)
-                    for type_id, pk, row in links[start : start + LINK_BATCH]
-                ],
-            )
+    for start in range(0, len(links), LINK_BATCH):
+        insert_plain(
+            ImportedRow,
+            fields,
+            [
+                (batch.pk, row, type_id, pk)
+                for type_id, pk, row in links[start : start + LINK_BATCH]
+            ],
+        )
 
 
 def import_preview(*, kind: str, data: bytes, file_name: str, by: User) -> Outcome:

@@ -101,3 +101,28 @@ def test_an_unsaved_related_object_is_refused_as_bulk_create_refuses_it(unit, te
     with pytest.raises(ValueError, match="unsaved related object 'record'"):
         insert_new([entries[0]], batch_size=10)
     assert not type(entries[0])._default_manager.filter(record=record).exists()
+
+
+@pytest.mark.parametrize("count", [1, 3])
+def test_plain_rows_go_in_as_given(count, unit, technician):
+    from django.contrib.contenttypes.models import ContentType
+    from django.utils import timezone
+
+    from fleet.models import ImportBatch, ImportedRow
+    from fleet.services.bulk import insert_plain
+
+    batch = ImportBatch.objects.create(
+        kind="visits",
+        file_name="f.csv",
+        checksum="c" * 64,
+        rows=count,
+        imported_by=technician,
+        imported_at=timezone.now(),
+    )
+    type_id = ContentType.objects.get_for_model(ServiceRecord).pk
+    rows = [(batch.pk, n + 2, type_id, 2**40 + n) for n in range(count)]
+    insert_plain(ImportedRow, ("batch", "row", "target_type", "target_id"), rows)
+    stored = ImportedRow.objects.order_by("row").values_list(
+        "batch_id", "row", "target_type_id", "target_id"
+    )
+    assert list(stored) == rows

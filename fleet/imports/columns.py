@@ -10,6 +10,7 @@ holds that record's own name: ``unit`` a serial, ``variant``, ``place`` and ``si
 from __future__ import annotations
 
 import datetime as dt
+from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Any, cast
 from zoneinfo import ZoneInfo
@@ -73,19 +74,49 @@ def field_column(model: type[models.Model], name: str, column: str = "") -> Colu
 def convert(field: models.Field[Any, Any], text: str, zone: ZoneInfo) -> object:
     """The cell as the field's value (a key stays text: the caller looks it up). Blank is
     None, or the empty string for text, or False for a yes/no. Raises ``parsing.CellError``."""
-    if not text:
-        if isinstance(field, models.BooleanField):
-            return False
-        if field.null or isinstance(field, models.ForeignKey):
-            return None
-        if field.has_default():
-            return field.get_default()
-        if field.choices or not isinstance(field, models.CharField | models.TextField):
-            raise parsing.CellError("This column needs a value.")
-        return ""
+    return cell_reader(field, zone)(text)
+
+
+def cell_reader(field: models.Field[Any, Any], zone: ZoneInfo) -> Callable[[str], object]:
+    """``convert`` for one field, its rules looked up once: a file's rows call it per cell."""
+    blank = _blank_reader(field)
+    read: Callable[[str], object]
     if field.choices:
-        return parsing.choice(text, [(str(v), str(label)) for v, label in field.flatchoices])
-    converters: list[tuple[type[models.Field[Any, Any]], Any]] = [
+        allowed = [(str(v), str(label)) for v, label in field.flatchoices]
+
+        def read_choice(text: str) -> object:
+            return parsing.choice(text, allowed)
+
+        read = read_choice
+    else:
+        read = _text_reader(field, zone)
+
+    def reader(text: str) -> object:
+        return read(text) if text else blank()
+
+    return reader
+
+
+def _blank_reader(field: models.Field[Any, Any]) -> Callable[[], object]:
+    """What a blank cell gives the field (or the error it raises)."""
+    if isinstance(field, models.BooleanField):
+        return lambda: False
+    if field.null or isinstance(field, models.ForeignKey):
+        return lambda: None
+    if field.has_default():
+        return field.get_default
+    if field.choices or not isinstance(field, models.CharField | models.TextField):
+
+        def needed() -> object:
+            raise parsing.CellError("This column needs a value.")
+
+        return needed
+    return lambda: ""
+
+
+def _text_reader(field: models.Field[Any, Any], zone: ZoneInfo) -> Callable[[str], object]:
+    """How a filled cell is read for a field without choices."""
+    converters: list[tuple[type[models.Field[Any, Any]], Callable[[str], object]]] = [
         (models.ForeignKey, str),
         (models.BooleanField, parsing.parse_bool),
         (models.DateTimeField, lambda t: parsing.parse_moment(t, zone)),
@@ -96,8 +127,8 @@ def convert(field: models.Field[Any, Any], text: str, zone: ZoneInfo) -> object:
     ]
     for cls, read in converters:
         if isinstance(field, cls):
-            return cast(object, read(text))
-    return text
+            return read
+    return lambda text: text
 
 
 UNIT_FIELDS = (

@@ -51,6 +51,7 @@ from fleet.models import (
 from fleet.models.records import Entry, PackRemoval
 from fleet.models.validators import DATE_VALIDATORS
 from fleet.selectors import previous_anode_mass
+from fleet.services.bulk import insert_plain
 from fleet.services.deployments import backfill_refusal, deployment_backfill
 from fleet.services.records import PastVisit, check_can_open_record, service_records_import
 from fleet.services.reference import site_save, unit_save
@@ -141,6 +142,10 @@ class _Run:
         self.visit_columns = _visit_columns()
         self.entry_columns: dict[type[Entry], list[cols.Column]] = {}
         self.fields: dict[tuple[type[models.Model], str], models.Field[Any, Any]] = {}
+        self.readers: dict[tuple[type[models.Model], str], Callable[[str], object]] = {}
+        self.kinds: dict[str, type[Entry]] = {}
+        self.references: dict[tuple[type[models.Model], str, int | None], models.Model | None] = {}
+        self.own_columns: dict[type[Entry], frozenset[str]] = {}
         self.type_ids: dict[type[models.Model], int] = {}
 
     def columns_of(self, kind: type[Entry]) -> list[cols.Column]:
@@ -153,6 +158,26 @@ class _Run:
         if key not in self.fields:
             self.fields[key] = cast("models.Field[Any, Any]", model._meta.get_field(name))
         return self.fields[key]
+
+    def reader(self, model: type[models.Model], name: str) -> Callable[[str], object]:
+        """``cols.convert`` for the field, its rules looked up once a run."""
+        key = (model, name)
+        if key not in self.readers:
+            self.readers[key] = cols.cell_reader(self.field(model, name), self.zone)
+        return self.readers[key]
+
+    def entry_kind(self, text: str) -> type[Entry]:
+        """The entry kind the ``entry`` cell names (``cols.entry_kind_named``, once a text)."""
+        if text not in self.kinds:
+            self.kinds[text] = cols.entry_kind_named(text)
+        return self.kinds[text]
+
+    def own(self, kind: type[Entry]) -> frozenset[str]:
+        """The columns a row of ``kind`` may fill: its own, the visit's and ``entry``."""
+        if kind not in self.own_columns:
+            names = {c.name for c in self.columns_of(kind)}
+            self.own_columns[kind] = frozenset(names | set(_VISIT_COLUMN) | {cols.ENTRY_COLUMN})
+        return self.own_columns[kind]
 
     @property
     def writing(self) -> bool:
@@ -194,7 +219,18 @@ class _Run:
 def _reference(
     run: _Run, model: type[models.Model], text: str, unit: Transponder | None
 ) -> models.Model | None:
-    """The record a key cell names, or None."""
+    """The record a key cell names, or None (looked up once a run, a pack apart)."""
+    if model is BatteryInstall:
+        return _reference_of(run, model, text, unit)
+    key = (model, text, unit.variant_id if unit is not None else None)
+    if key not in run.references:
+        run.references[key] = _reference_of(run, model, text, unit)
+    return run.references[key]
+
+
+def _reference_of(
+    run: _Run, model: type[models.Model], text: str, unit: Transponder | None
+) -> models.Model | None:
     if model is Transponder:
         return run.find(Transponder, serial=text.upper())
     if model is User:
@@ -243,7 +279,7 @@ def _values(
             bad.append(column.field)
             continue
         try:
-            value = cols.convert(field, text, run.zone)
+            value = run.reader(model, column.field)(text)
         except parsing.CellError as exc:
             run.problem(row, column.name, str(exc))
             good = False
@@ -391,12 +427,12 @@ def _visit_columns() -> list[cols.Column]:
 
 def _entry(run: _Run, row: int, cells: Mapping[str, str], record: ServiceRecord) -> Entry | None:
     try:
-        kind = cols.entry_kind_named(cells.get(cols.ENTRY_COLUMN, ""))
+        kind = run.entry_kind(cells.get(cols.ENTRY_COLUMN, ""))
     except parsing.CellError as exc:
         run.problem(row, cols.ENTRY_COLUMN, str(exc))
         return None
     columns = run.columns_of(kind)
-    own = {c.name for c in columns} | set(_VISIT_COLUMN) | {cols.ENTRY_COLUMN}
+    own = run.own(kind)
     stray = [name for name, text in cells.items() if text and name not in own]
     for name in stray:
         article = "an" if kind.kind_label[:1] in "aeiou" else "a"
@@ -481,6 +517,7 @@ def _flag_heavier(run: _Run, visit: _Visit) -> None:
     misread or another anode, as the bench-visit form asks. One query per unit and position
     the file names, the first time."""
     record = visit.record
+    on = timezone.localdate(record.opened_at)
     for row, entry in visit.entries:
         if not isinstance(entry, AnodeReading):
             continue
@@ -504,7 +541,7 @@ def _flag_heavier(run: _Run, visit: _Visit) -> None:
         if entry.replaced:
             run.anode_mass[key] = None
         elif entry.mass_g is not None:
-            run.anode_mass[key] = (entry.mass_g, timezone.localdate(record.opened_at))
+            run.anode_mass[key] = (entry.mass_g, on)
 
 
 def _forget_keys(instance: models.Model) -> None:
@@ -703,26 +740,19 @@ def _record_batch(outcome: Outcome, run: _Run) -> None:
 
 def _insert_links(batch: ImportBatch, links: list[tuple[int, int, int]]) -> None:
     """One ``ImportedRow`` per record written: a large file has 100,000s of these rows of four
-    whole numbers, so they go in as plain parameter rows (``executemany``, in slices) rather
+    whole numbers, so they go in as plain parameter rows (``insert_plain``, in slices) rather
     than as model instances; none needs its primary key back, and every value is a key or a
     row number the import itself produced."""
-    meta = ImportedRow._meta
-    connection = transaction.get_connection()
-    quote = connection.ops.quote_name
     fields = ("batch", "row", "target_type", "target_id")
-    columns = ", ".join(
-        quote(cast("models.Field[Any, Any]", meta.get_field(name)).column) for name in fields
-    )
-    sql = f"INSERT INTO {quote(meta.db_table)} ({columns}) VALUES (%s, %s, %s, %s)"
-    with connection.cursor() as cursor:
-        for start in range(0, len(links), LINK_BATCH):
-            cursor.executemany(
-                sql,
-                [
-                    (batch.pk, row, type_id, pk)
-                    for type_id, pk, row in links[start : start + LINK_BATCH]
-                ],
-            )
+    for start in range(0, len(links), LINK_BATCH):
+        insert_plain(
+            ImportedRow,
+            fields,
+            [
+                (batch.pk, row, type_id, pk)
+                for type_id, pk, row in links[start : start + LINK_BATCH]
+            ],
+        )
 
 
 def import_preview(*, kind: str, data: bytes, file_name: str, by: User) -> Outcome:

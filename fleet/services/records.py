@@ -8,8 +8,10 @@ are refused, naming who changed the record and when, if it moved on.
 """
 
 import datetime as dt
+import functools
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
+from typing import Any
 
 from django.contrib.auth.models import User
 from django.contrib.contenttypes.models import ContentType
@@ -35,6 +37,7 @@ from fleet.models import (
     UnitHold,
 )
 from fleet.models.records import Entry, amendable_field, entry_kinds
+from fleet.services.bulk import insert_new
 
 # The record's own field an amendment may correct; each entry kind lists its own
 # (``Entry.amendable_fields``).
@@ -341,13 +344,19 @@ def service_record_close(
         setattr(record, name, getattr(current, name))
 
 
+@functools.cache
+def _keys_of(model: type[Model]) -> tuple[ForeignKey[Any, Any], ...]:
+    """The model's foreign keys (read off it once, not once an object)."""
+    return tuple(f for f in model._meta.concrete_fields if isinstance(f, ForeignKey))
+
+
 def _loaded_keys(instance: Model) -> list[str]:
     """The foreign keys of ``instance`` that hold a row read from the database (so the
     existence query ``full_clean`` would send for each can be spared: the insert's own foreign
     key constraint still refuses a row that went away)."""
     names = []
-    for field in instance._meta.concrete_fields:
-        if isinstance(field, ForeignKey) and field.is_cached(instance):
+    for field in _keys_of(type(instance)):
+        if field.is_cached(instance):
             related = getattr(instance, field.name)
             if related is not None and related.pk is not None and not related._state.adding:
                 names.append(field.name)
@@ -357,8 +366,8 @@ def _loaded_keys(instance: Model) -> list[str]:
 def _take_saved_keys(instance: Model) -> None:
     """Point the keys of ``instance`` at related objects saved since they were attached (a pack
     removal's install, fitted by an earlier visit of the same import)."""
-    for field in instance._meta.concrete_fields:
-        if isinstance(field, ForeignKey) and field.is_cached(instance):
+    for field in _keys_of(type(instance)):
+        if field.is_cached(instance):
             related = getattr(instance, field.name)
             if related is not None and related.pk is not None:
                 setattr(instance, field.attname, related.pk)
@@ -448,12 +457,12 @@ def service_records_import(*, unit_id: int, visits: Sequence[PastVisit], by: Use
     records = [_past_record(unit, visit, by) for visit in visits]
     # The records' primary keys come back from the INSERT (RETURNING, on SQLite >= 3.35 and
     # PostgreSQL), which the entries need.
-    ServiceRecord.objects.bulk_create(records, batch_size=IMPORT_BATCH)
+    insert_new(records, batch_size=IMPORT_BATCH)
     plain: dict[type[Entry], list[Entry]] = {}
     for visit in visits:
         _past_entries(visit, plain)
-    for kind, rows in plain.items():
-        kind._default_manager.bulk_create(rows, batch_size=IMPORT_BATCH)
+    for rows in plain.values():
+        insert_new(rows, batch_size=IMPORT_BATCH)
     if fitted_packs(unit.pk).count() > 1:
         serials = ", ".join(fitted_packs(unit.pk).values_list("pack_serial", flat=True))
         raise ValidationError(

@@ -1,0 +1,199 @@
+"""New rows of one model in a few INSERTs, the statement written once: ``insert_new``.
+
+``QuerySet.bulk_create`` compiles its INSERT again for every batch and, in doing so, passes
+every value of every row through the compiler (expression checks, a placeholder per value,
+the field's conversion); for a bulk import of 100,000 entries that is most of the write's
+time. Here the statement for a batch size is written once and each value is converted by its
+field's own ``get_db_prep_save``, as the compiler converts it, skipping only the call where
+that conversion returns the value as it is (a ``float`` for a ``FloatField``, a ``bool`` for a
+``BooleanField``, a ``str`` for a text field, an ``int`` for a key to an auto-increment
+primary key, ``None`` for a nullable field other than a key).
+
+Same rows as ``bulk_create``: each object's related objects are checked as it checks them
+(``_prepare_related_fields_for_save``: an unsaved one refuses the write), each field's
+``pre_save`` runs where the field defines one (``auto_now`` stamps, files), the rows go in
+as Django sends them (VALUES rows; on PostgreSQL one array a column, ``UNNEST``), and the primary
+keys come back from the INSERT (``RETURNING``) and are set on the objects. A model or a
+database this does not cover (no ``RETURNING`` on a multi-row INSERT, a key set by hand, a
+field with its own placeholder or a database default) goes through ``bulk_create``.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Sequence
+from typing import Any, TypeVar
+
+from django.db import models, transaction
+from django.db.backends.base.base import BaseDatabaseWrapper
+from django.db.backends.base.operations import BaseDatabaseOperations
+
+M = TypeVar("M", bound=models.Model)
+
+# Field classes whose conversion for the database returns a value of this exact type as it is
+# (``get_prep_value``: ``float(value)``, ``to_python`` of a bool or a str); neither class, nor
+# any subclass below, overrides ``get_db_prep_value``.
+_AS_IS: tuple[tuple[type[models.Field[Any, Any]], type], ...] = (
+    (models.FloatField, float),
+    (models.BooleanField, bool),
+    (models.CharField, str),
+    (models.TextField, str),
+)
+
+Convert = Callable[[Any], Any]
+
+
+def _as_is_type(field: models.Field[Any, Any]) -> type | None:
+    for cls, kind in _AS_IS:
+        if type(field) is cls or (
+            isinstance(field, cls) and "get_db_prep_value" not in vars(type(field))
+        ):
+            return kind
+    return None
+
+
+def _serial_key(field: models.Field[Any, Any], connection: BaseDatabaseWrapper) -> bool:
+    """A foreign key to an auto-increment primary key: an ``int`` goes in as it is
+    (``ForeignKey.get_db_prep_save`` hands it to the key, whose ``get_prep_value`` is
+    ``int(value)`` and whose database check, on these databases, returns it unchanged)."""
+    target = getattr(field, "target_field", None)
+    return (
+        isinstance(field, models.ForeignKey)
+        and isinstance(target, models.AutoField | models.BigAutoField | models.SmallAutoField)
+        and type(connection.ops).validate_autopk_value
+        is BaseDatabaseOperations.validate_autopk_value
+    )
+
+
+def _converter(field: models.Field[Any, Any], connection: BaseDatabaseWrapper) -> Convert:
+    """The field's conversion of a value for the INSERT, as the compiler applies it."""
+    prep = field.get_db_prep_save
+    kind = int if _serial_key(field, connection) else _as_is_type(field)
+    keep_none = field.null and not field.is_relation and kind is not None
+
+    def convert(value: Any) -> Any:
+        if type(value) is kind or (value is None and keep_none):
+            return value
+        return prep(value, connection)
+
+    return convert
+
+
+def _reader(field: models.Field[Any, Any]) -> Callable[[models.Model], Any]:
+    """The value an INSERT takes from an object: the field's ``pre_save`` where its class
+    defines one that may change it, else the attribute."""
+    attname = field.attname
+    own = type(field).pre_save
+    stamps = getattr(field, "auto_now", False) or getattr(field, "auto_now_add", False)
+    plain = own is models.Field.pre_save or (
+        own in (models.DateField.pre_save, models.DateTimeField.pre_save, models.TimeField.pre_save)
+        and not stamps
+    )
+    if plain:
+        return lambda obj: getattr(obj, attname)
+    return lambda obj: field.pre_save(obj, True)
+
+
+def _covered(model: type[models.Model], objs: Sequence[models.Model], connection: Any) -> bool:
+    meta = model._meta
+    pk = meta.pk
+    if not connection.features.can_return_rows_from_bulk_insert:
+        return False
+    if not isinstance(pk, models.AutoField | models.BigAutoField | models.SmallAutoField):
+        return False
+    if meta.parents or any(type(obj) is not model or obj.pk is not None for obj in objs):
+        return False
+    for field in meta.concrete_fields:
+        if field.generated or field.has_db_default() or hasattr(field, "get_placeholder"):
+            return False
+        if field is not pk and field.db_returning:
+            return False
+    return True
+
+
+def _by_columns(connection: BaseDatabaseWrapper, fields: list[models.Field[Any, Any]]) -> bool:
+    """PostgreSQL: Django's bulk insert sends one array a column (``INSERT ... SELECT * FROM
+    UNNEST(...)``, planned once instead of a VALUES row per object) where every field's type
+    is one of the database's own; so does this."""
+    return connection.vendor == "postgresql" and all(
+        (f.target_field if isinstance(f, models.ForeignKey) else f).get_internal_type()
+        in connection.data_types
+        for f in fields
+    )
+
+
+def _statement(
+    connection: BaseDatabaseWrapper, model: type[models.Model], fields: list[Any], size: int
+) -> str:
+    """The INSERT of ``size`` rows, the new keys returned (in the rows' order)."""
+    meta = model._meta
+    quote = connection.ops.quote_name
+    head = f"INSERT INTO {quote(meta.db_table)} ({', '.join(quote(f.column) for f in fields)})"
+    tail = f"RETURNING {quote(meta.db_table)}.{quote(str(meta.pk.column))}"
+    if size > 1 and _by_columns(connection, fields):
+        # As Django writes it: each array cast to the column's type without its size.
+        arrays = ", ".join(f"(%s)::{f.db_type(connection).split('(')[0]}[]" for f in fields)
+        return f"{head} SELECT * FROM UNNEST({arrays}) {tail}"
+    row = f"({', '.join(['%s'] * len(fields))})"
+    return f"{head} VALUES {', '.join([row] * size)} {tail}"
+
+
+def insert_new(objs: Sequence[M], *, batch_size: int) -> None:
+    """Insert ``objs`` (new objects of one model, no primary key set) as ``bulk_create`` with
+    ``batch_size`` would, setting each object's primary key."""
+    if not objs:
+        return
+    model = type(objs[0])
+    connection = transaction.get_connection()
+    if not _covered(model, objs, connection):
+        model._default_manager.bulk_create(objs, batch_size=batch_size)
+        return
+    pk = model._meta.pk
+    fields = [f for f in model._meta.concrete_fields if f is not pk]
+    pairs = [(_reader(f), _converter(f, connection)) for f in fields]
+    by_columns = _by_columns(connection, fields)
+    statements: dict[int, str] = {}
+    # As ``bulk_create`` bounds a batch (SQLite: at most 999 parameters a statement).
+    batch_size = max(1, min(batch_size, connection.ops.bulk_batch_size(fields, objs)))
+    for start in range(0, len(objs), batch_size):
+        batch = objs[start : start + batch_size]
+        rows: list[list[Any]] = []
+        for obj in batch:
+            # Django's own check before a bulk insert (not in the type stubs).
+            obj._prepare_related_fields_for_save(operation_name="bulk_create")  # type: ignore[attr-defined]
+            rows.append([convert(read(obj)) for read, convert in pairs])
+        size = len(batch)
+        if size not in statements:
+            statements[size] = _statement(connection, model, fields, size)
+        if by_columns and size > 1:
+            params: list[Any] = [list(column) for column in zip(*rows, strict=True)]
+        else:
+            params = [value for row in rows for value in row]
+        with connection.cursor() as cursor:
+            cursor.execute(statements[size], params)
+            keys = [found[0] for found in cursor.fetchall()]
+        for obj, key in zip(batch, keys, strict=True):
+            obj.pk = key
+            obj._state.adding = False
+            obj._state.db = connection.alias
+
+
+def insert_plain(
+    model: type[models.Model], names: Sequence[str], rows: Sequence[Sequence[Any]]
+) -> None:
+    """Insert plain parameter rows (values ready for the database, in the order of ``names``,
+    no key wanted back), ``len(rows)`` at a time: one array a column on PostgreSQL (``UNNEST``,
+    as Django's bulk insert sends them), else one statement run for each row (``executemany``)."""
+    if not rows:
+        return
+    connection = transaction.get_connection()
+    meta = model._meta
+    fields: list[Any] = [meta.get_field(name) for name in names]
+    quote = connection.ops.quote_name
+    head = f"INSERT INTO {quote(meta.db_table)} ({', '.join(quote(f.column) for f in fields)})"
+    with connection.cursor() as cursor:
+        if len(rows) > 1 and _by_columns(connection, fields):
+            arrays = ", ".join(f"(%s)::{f.db_type(connection).split('(')[0]}[]" for f in fields)
+            columns = [list(column) for column in zip(*rows, strict=True)]
+            cursor.execute(f"{head} SELECT * FROM UNNEST({arrays})", columns)
+        else:
+            cursor.executemany(f"{head} VALUES ({', '.join(['%s'] * len(fields))})", rows)

@@ -250,19 +250,6 @@ class DueItemTable(tables.Table):
     # The view drops this column when no row of the list has a flag.
     flags = tables.Column(verbose_name="Flags", orderable=False, default="", attrs=STACK)
 
-    # The columns the table reads (for ``only``): every sorted row carries just these, a
-    # third of the width of the rows with every column of the unit, variant and place.
-    READS = (
-        "unit__serial",
-        "unit__variant__name",
-        "unit__place__name",
-        "kind",
-        "item",
-        "due_on",
-        "basis",
-        "flags",
-    )
-
     class Meta:
         attrs = {"class": "grid due-list"}
         per_page = 100

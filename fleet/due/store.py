@@ -404,21 +404,25 @@ def unit_due_items(unit: Transponder, *, on: dt.date, soon_days: int) -> list[Du
 EXPORT_HEADER = ("State", "Unit", "Variant", "Place", "Kind", "Item", "Due", "Basis", "Flags")
 
 
+# What a list of due rows shows of each (the overview's table and the CSV export, beside
+# ``state_rank``): a listing reads only these.
+LISTED_COLUMNS = (
+    "unit__serial",
+    "unit__variant__name",
+    "unit__place__name",
+    "kind",
+    "item",
+    "due_on",
+    "basis",
+    "flags",
+)
+
+
 def export_rows(rows: QuerySet[RankedDueRow]) -> Iterator[tuple[object, ...]]:
     """The rows of ``due_queryset`` as plain cells for a CSV export, header first; reads the
     values straight from the query (no model instances), so a whole fleet exports quickly."""
     yield EXPORT_HEADER
-    values = rows.values_list(
-        "state_rank",
-        "unit__serial",
-        "unit__variant__name",
-        "unit__place__name",
-        "kind",
-        "item",
-        "due_on",
-        "basis",
-        "flags",
-    )
+    values = rows.values_list("state_rank", *LISTED_COLUMNS)
     for rank, serial, variant, place, kind, item, due_on, basis, flags in values.iterator():
         yield (
             DueState.from_rank(rank).label,

@@ -8,7 +8,7 @@ from django_tables2 import RequestConfig
 from fleet import roles
 from fleet.due.condition import Condition
 from fleet.due.items import ItemKind
-from fleet.due.store import due_queryset, due_summary, export_rows
+from fleet.due.store import LISTED_COLUMNS, due_queryset, due_summary, export_rows
 from fleet.exports import csv_rows_response
 from fleet.forms import DueFilterForm
 from fleet.models import Transponder
@@ -44,7 +44,7 @@ def dashboard(request: HttpRequest) -> HttpResponse:
     due = summary.totals
     # An empty column keeps its width: drop the flags column when no listed row has a flag.
     table = DueItemTable(
-        rows.only(*DueItemTable.READS), exclude=() if summary.listed_flagged else ("flags",)
+        rows.only(*LISTED_COLUMNS), exclude=() if summary.listed_flagged else ("flags",)
     )
     paginate = {"per_page": 100, "paginator_class": CountedPaginator, "count": summary.listed}
     RequestConfig(request, paginate=paginate).configure(table)

@@ -10,11 +10,12 @@ import bisect
 import datetime as dt
 from dataclasses import dataclass
 
+from django.db.models import Q
 from django.utils import timezone
 
 from fleet.calc.exposure import immersed_days_at_each_seconds
 from fleet.models import Deployment, Transponder
-from fleet.models.functions import EpochSeconds
+from fleet.models.functions import AsStored, EpochSeconds
 
 from .engine import AnodeOutlook, UnitEvaluation, anode_outlook_of
 from .state import unit_readings
@@ -79,13 +80,14 @@ def position_readings(unit: Transponder, position_id: int, new_g: float) -> list
         unit_readings(unit, [position_id])
         .order_by("record__opened_at", "pk")
         .annotate(at_s=EpochSeconds("record__opened_at"))
-        .values_list("at_s", "mass_g", "remaining_percent", "replaced")
+        .annotate(replaced_as_stored=AsStored("replaced"))
+        .values_list("at_s", "mass_g", "remaining_percent", "replaced_as_stored")
     )
     out = []
     for at_s, mass_g, remaining_percent, replaced in rows:
         # As ``AnodeReading.effective_remaining_percent``.
         pct = remaining_percent if mass_g is None else 100.0 * mass_g / new_g
-        out.append(_Reading(at_s, pct, replaced))
+        out.append(_Reading(at_s, pct, bool(replaced)))
     return out
 
 
@@ -98,7 +100,8 @@ def anode_history(ev: UnitEvaluation, position_id: int) -> AnodeHistory | None:
 def anode_history_of(outlook: AnodeOutlook) -> AnodeHistory:
     """The chart of one anode position: its readings (thinned, ``thin_readings``), the wear
     fit through the current anode's and the projection to the replace-at mass. Two queries
-    (the readings, the unit's deployments) whatever the history."""
+    whatever the history: the readings, and the unit's deployments when a wear line is
+    drawn."""
     projection, unit = outlook.projection, outlook.unit
     position_id, new_g = outlook.position.pk, outlook.position.new_net_mass_g
     readings = position_readings(unit, position_id, new_g)
@@ -114,45 +117,43 @@ def anode_history_of(outlook: AnodeOutlook) -> AnodeHistory:
         )
     ]
     # The current anode's life starts at the last replacement.
-    last_replaced = next((r for r in reversed(readings) if r.replaced), None)
-    # Immersed days at the drawn readings and the last replacement, from the deployments'
-    # instants read as plain numbers (one pass of prefix sums).
-    intervals = (
-        Deployment.objects.filter(unit=unit)
-        .order_by()  # the prefix sums sort them
-        .annotate(start=EpochSeconds("over_side_at"), end=EpochSeconds("recovered_at"))
-        .values_list("start", "end")
-    )
-    needed = [*drawn, *([last_replaced] if last_replaced is not None else [])]
-    days = immersed_days_at_each_seconds(intervals, [r.at_s for r in needed])
-    xs = dict(zip(needed, days, strict=True))
+    replaced_at = max((i for i, r in enumerate(readings) if r.replaced), default=-1)
+    last_replaced = readings[replaced_at] if replaced_at >= 0 else None
     tz = timezone.get_current_timezone()
 
     def local_day(reading: _Reading) -> dt.date:
         return dt.datetime.fromtimestamp(reading.at_s, tz).date()
 
-    points = []
+    points = [(local_day(r), r.percent) for r in drawn if r.percent is not None]
     fitted = []
-    fit_from_x = 0.0
-    wearing = projection.fit is not None and bool(projection.fit.rate_kg_per_day)
-    position_of = {r: i for i, r in enumerate(readings)}
-    replaced_at = -1
-    if last_replaced is not None:
-        replaced_at = position_of[last_replaced]
-        fit_from_x = xs[last_replaced]
-        start_mass = projection.fit.mass_at_kg(0.0) if projection.fit and wearing else None
-        if start_mass is not None:
+    fit = projection.fit
+    if fit is not None and fit.rate_kg_per_day:
+        # The fit's x is immersed days since the last replacement, at it and at each drawn
+        # reading of the current anode: from the deployments' instants read as plain
+        # numbers (one pass of prefix sums), only those running at or recovered after the
+        # replacement (an earlier one adds the same days to both ends).
+        position_of = {r: i for i, r in enumerate(readings)}
+        current = [r for r in drawn if position_of[r] > replaced_at]
+        since = [*([last_replaced] if last_replaced is not None else []), *current]
+        intervals = (
+            Deployment.objects.filter(unit=unit)
+            .order_by()  # the prefix sums sort them
+            .annotate(start=EpochSeconds("over_side_at"), end=EpochSeconds("recovered_at"))
+        )
+        if last_replaced is not None:
+            intervals = intervals.filter(Q(end__isnull=True) | Q(end__gt=last_replaced.at_s))
+        days = immersed_days_at_each_seconds(
+            intervals.values_list("start", "end"), [r.at_s for r in since]
+        )
+        fit_from_x = days[0] if last_replaced is not None else 0.0
+        start_mass = fit.mass_at_kg(0.0)
+        if last_replaced is not None and start_mass is not None:
             fitted.append((local_day(last_replaced), 100.0 * start_mass / projection.new_kg))
-    position_of = {r: i for i, r in enumerate(readings)}
-    for reading in drawn:
-        assert reading.percent is not None
-        day = local_day(reading)
-        points.append((day, reading.percent))
-        current_anode = position_of[reading] > replaced_at
-        if current_anode and wearing and projection.fit is not None:
-            mass = projection.fit.mass_at_kg(max(0.0, xs[reading] - fit_from_x))
-            if mass is not None:
-                fitted.append((day, 100.0 * mass / projection.new_kg))
+        for reading, x in zip(since, days, strict=True):
+            if reading is not last_replaced:
+                mass = fit.mass_at_kg(max(0.0, x - fit_from_x))
+                if mass is not None:
+                    fitted.append((local_day(reading), 100.0 * mass / projection.new_kg))
     future: list[tuple[dt.date, float]] = []
     if projection.mass_now_kg is not None and outlook.as_of is not None:
         as_of = timezone.localdate(outlook.as_of)

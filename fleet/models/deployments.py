@@ -78,6 +78,15 @@ class Deployment(Stamped):
                 name="one_open_deployment_per_unit",
             ),
         ]
+        indexes = [
+            # The units in the water at a site (the acoustic address check): a few rows,
+            # where the site's index holds every deployment there ever was.
+            models.Index(
+                fields=["site"],
+                condition=Q(recovered_at__isnull=True),
+                name="open_deployment_by_site",
+            ),
+        ]
 
     def __str__(self) -> str:
         return f"{self.unit} at {self.site} from {self.over_side_at:%Y-%m-%d}"

@@ -145,9 +145,10 @@ class QrCode(Flowable):
 
 
 def qr_drawing(value: str, size: float) -> Drawing:
-    widget = QrCodeWidget(value, barLevel="M", barBorder=2)
-    x0, y0, x1, y1 = widget.getBounds()
-    drawing = Drawing(size, size, transform=[size / (x1 - x0), 0, 0, size / (y1 - y0), -x0, -y0])
+    # The widget drawn at ``size`` itself: asking it for its bounds to scale it would
+    # encode the value a second time (the encoding tries every mask pattern).
+    widget = QrCodeWidget(value, barLevel="M", barBorder=2, barWidth=size, barHeight=size)
+    drawing = Drawing(size, size)
     drawing.add(widget)
     return drawing
 

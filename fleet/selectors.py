@@ -38,6 +38,7 @@ from fleet.models import (
     Kit,
     SealChange,
     SealPosition,
+    SealState,
     ServiceRecord,
     Transponder,
     UnitHold,
@@ -112,20 +113,24 @@ def unit_deployments(*, unit: Transponder, pks: list[int] | None = None) -> list
     return list(deployments.select_related("site", "override_by"))
 
 
-def _newest_per_position(entries: QuerySet[_E], positions: QuerySet[Any]) -> dict[int, _E]:
-    """The newest of ``entries`` at each of ``positions``, picked in SQL: for each position,
-    the unit's visits are walked newest first (their index on unit and opening time) until
-    one holds an entry there, so the cost does not grow with the unit's history. The
-    position is matched as an expression (``position_id + 0``) so that SQLite's planner does
-    not take the position's index instead, which holds that position's entries across the
-    whole fleet. One query."""
-    newest = (
+def _newest_walk(entries: QuerySet[_E]) -> QuerySet[_E]:
+    """The newest of ``entries`` at the position ``OuterRef("pk")``, as a subquery: the
+    unit's visits are walked newest first (their index on unit and opening time) until one
+    holds an entry there. The position is matched as an expression (``position_id + 0``) so
+    that SQLite's planner does not take the position's index instead, which holds that
+    position's entries across the whole fleet."""
+    return (
         entries.alias(position_no=F("position_id") + 0)
         .filter(position_no=OuterRef("pk"))
         .order_by("-record__opened_at", "-pk")
         .values("pk")[:1]
     )
-    picked = positions.order_by().annotate(newest=Subquery(newest)).values("newest")
+
+
+def _newest_per_position(entries: QuerySet[_E], positions: QuerySet[Any]) -> dict[int, _E]:
+    """The newest of ``entries`` at each of ``positions``, picked in SQL (``_newest_walk``),
+    so the cost grows only with the visits since the newest entry. One query."""
+    picked = positions.order_by().annotate(newest=Subquery(_newest_walk(entries))).values("newest")
     rows = entries.model._default_manager.filter(pk__in=picked)
     return {entry.position_id: entry for entry in rows.select_related("record", "position")}
 
@@ -139,11 +144,30 @@ def last_anode_readings(*, unit: Transponder) -> dict[int, AnodeReading]:
 
 
 def last_seal_changes(*, unit: Transponder) -> dict[int, SealChange]:
-    """The newest seal change at each seal position, by position id. One query."""
-    return _newest_per_position(
-        SealChange.objects.filter(record__unit=unit),
-        SealPosition.objects.filter(variant_id=unit.variant_id),
+    """The newest seal change at each seal position, by position id. One query.
+
+    Rings are changed every year or two and the unit is opened far more often, so a walk of
+    the visits newest first would read every visit since the last change. The unit's seal
+    state (derived by every write of a visit or a change) holds the opening time of the
+    visit that fitted the ring now in (``fitted_at``): the change is looked up in that visit
+    alone, the newest there, as the state derives it. A unit never written has neither."""
+    fitted = SealState.objects.filter(unit=unit, position_id=OuterRef("pk")).values("fitted_at")[:1]
+    at_fitting = (
+        SealChange.objects.filter(record__unit=unit)
+        .alias(position_no=F("position_id") + 0)
+        .filter(position_no=OuterRef("pk"), record__opened_at=OuterRef("fitted"))
+        .order_by("-pk")
+        .values("pk")[:1]
     )
+    picked = (
+        SealPosition.objects.filter(variant_id=unit.variant_id)
+        .order_by()
+        .annotate(fitted=Subquery(fitted))
+        .annotate(newest=Subquery(at_fitting))
+        .values("newest")
+    )
+    rows = SealChange.objects.filter(pk__in=picked).select_related("record", "position")
+    return {change.position_id: change for change in rows}
 
 
 def fitted_pack(*, unit: Transponder) -> BatteryInstall | None:

@@ -2,6 +2,7 @@
 and how many queries it makes (the count does not grow with the records)."""
 
 import datetime as dt
+import random
 
 import pytest
 from django.utils import timezone
@@ -108,6 +109,30 @@ def test_it_gives_the_last_seal_change_at_each_position(unit, story, django_asse
         latest = last_seal_changes(unit=unit)
     assert list(latest) == [seal1.pk]
     assert latest[seal1.pk].record == story["records"][0]
+
+
+@pytest.mark.parametrize("seed", [1, 2, 3])
+def test_the_last_seal_change_is_the_newest_by_visit_whatever_the_order_written(
+    unit, technician, seed, django_assert_num_queries
+):
+    # The page looks the change up in the visit the unit's seal state names; a plain
+    # recomputation from the records (the newest by visit opening, then by entry) agrees
+    # after visits written out of order and several changes at a position in one visit.
+    rng = random.Random(seed)
+    seals = list(unit.variant.seal_positions.order_by("name"))
+    days = rng.sample(range(1, 300), 8)  # written in this (random) order
+    for day in days:
+        chosen = [p for p in seals if rng.random() < 0.6] or [seals[0]]
+        changes = [seal_change(p) for p in chosen]
+        if rng.random() < 0.3:
+            changes.append(seal_change(chosen[0]))  # the same position twice in one visit
+        visit(unit, technician, t(2025, 1, 1) + dt.timedelta(days=day), *changes)
+    expected = {}
+    for change in SealChange.objects.filter(record__unit=unit).order_by("record__opened_at", "pk"):
+        expected[change.position_id] = change.pk
+    with django_assert_num_queries(1):
+        latest = last_seal_changes(unit=unit)
+    assert {pk: change.pk for pk, change in latest.items()} == expected
 
 
 def test_it_loads_records_with_every_entry_in_a_fixed_number_of_queries(

@@ -79,6 +79,8 @@ class Deployment(Stamped):
             ),
         ]
         indexes = [
+            # A unit's deployments newest first (its history page), as its visits are.
+            models.Index(fields=["unit", "over_side_at"], name="deployment_by_unit_age"),
             # The units in the water at a site (the acoustic address check): a few rows,
             # where the site's index holds every deployment there ever was.
             models.Index(

@@ -37,6 +37,11 @@ class EpochSeconds(Func):
             **extra,
         )
 
+    def get_db_converters(self, connection: Any) -> list[Any]:
+        # Both templates give a double (or NULL), which the drivers read as a float: no
+        # ``float()`` call a row, which a query with no converter left skips entirely.
+        return []
+
 
 class AsStored(Func):
     """A column as the driver gives it, with no conversion in Python: for reads of many rows

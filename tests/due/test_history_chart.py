@@ -157,6 +157,11 @@ def test_epoch_seconds_match_pythons_timestamps(unit, technician, site):
     for d in rows:
         assert d.s == pytest.approx(d.over_side_at.timestamp(), abs=1e-3)
         assert d.e == pytest.approx(d.recovered_at.timestamp(), abs=1e-3)
+        # Read as the driver gives them, with no converter: floats, as the prefix sums need.
+        assert type(d.s) is float and type(d.e) is float
+    open_one = Deployment.objects.filter(pk=rows[0].pk)
+    open_one.update(recovered_at=None)
+    assert open_one.values_list(EpochSeconds("recovered_at"), flat=True).get() is None
 
 
 @pytest.mark.parametrize("visits, seed", [(0, 7), (12, 8), (90, 9)])

@@ -113,24 +113,20 @@ def unit_deployments(*, unit: Transponder, pks: list[int] | None = None) -> list
     return list(deployments.select_related("site", "override_by"))
 
 
-def _newest_walk(entries: QuerySet[_E]) -> QuerySet[_E]:
-    """The newest of ``entries`` at the position ``OuterRef("pk")``, as a subquery: the
-    unit's visits are walked newest first (their index on unit and opening time) until one
-    holds an entry there. The position is matched as an expression (``position_id + 0``) so
-    that SQLite's planner does not take the position's index instead, which holds that
-    position's entries across the whole fleet."""
-    return (
+def _newest_per_position(entries: QuerySet[_E], positions: QuerySet[Any]) -> dict[int, _E]:
+    """The newest of ``entries`` at each of ``positions``, picked in SQL: for each position,
+    the unit's visits are walked newest first (their index on unit and opening time) until
+    one holds an entry there, so the cost does not grow with the unit's history. The
+    position is matched as an expression (``position_id + 0``) so that SQLite's planner does
+    not take the position's index instead, which holds that position's entries across the
+    whole fleet. One query."""
+    newest = (
         entries.alias(position_no=F("position_id") + 0)
         .filter(position_no=OuterRef("pk"))
         .order_by("-record__opened_at", "-pk")
         .values("pk")[:1]
     )
-
-
-def _newest_per_position(entries: QuerySet[_E], positions: QuerySet[Any]) -> dict[int, _E]:
-    """The newest of ``entries`` at each of ``positions``, picked in SQL (``_newest_walk``),
-    so the cost grows only with the visits since the newest entry. One query."""
-    picked = positions.order_by().annotate(newest=Subquery(_newest_walk(entries))).values("newest")
+    picked = positions.order_by().annotate(newest=Subquery(newest)).values("newest")
     rows = entries.model._default_manager.filter(pk__in=picked)
     return {entry.position_id: entry for entry in rows.select_related("record", "position")}
 

@@ -53,11 +53,9 @@ def thin_readings(points: list[tuple[int, float, bool]]) -> list[int]:
     return sorted(keep)
 
 
-@dataclass(frozen=True, slots=True, eq=False)  # one object per reading
-class _Reading:
-    at_s: float  # the visit's opening, seconds since the Unix epoch
-    percent: float | None  # % of new; None for a reading with no value
-    replaced: bool
+# One reading as plain values: the visit's opening in seconds since the Unix epoch, the
+# percent of new (None for a reading with no value), whether it replaced the anode.
+_Reading = tuple[float, float | None, bool]
 
 
 def _new_years(first_s: float, last_s: float) -> tuple[list[float], int]:
@@ -83,12 +81,11 @@ def position_readings(unit: Transponder, position_id: int, new_g: float) -> list
         .annotate(replaced_as_stored=AsStored("replaced"))
         .values_list("at_s", "mass_g", "remaining_percent", "replaced_as_stored")
     )
-    out = []
-    for at_s, mass_g, remaining_percent, replaced in rows:
-        # As ``AnodeReading.effective_remaining_percent``.
-        pct = remaining_percent if mass_g is None else 100.0 * mass_g / new_g
-        out.append(_Reading(at_s, pct, bool(replaced)))
-    return out
+    # The percent as ``AnodeReading.effective_remaining_percent`` gives it.
+    return [
+        (at_s, remaining_percent if mass_g is None else 100.0 * mass_g / new_g, bool(replaced))
+        for at_s, mass_g, remaining_percent, replaced in rows
+    ]
 
 
 def anode_history(ev: UnitEvaluation, position_id: int) -> AnodeHistory | None:
@@ -105,26 +102,25 @@ def anode_history_of(outlook: AnodeOutlook) -> AnodeHistory:
     projection, unit = outlook.projection, outlook.unit
     position_id, new_g = outlook.position.pk, outlook.position.new_net_mass_g
     readings = position_readings(unit, position_id, new_g)
-    every = [r for r in readings if r.percent is not None]
+    every = [i for i, r in enumerate(readings) if r[1] is not None]  # indices of valued ones
     years: list[int] = []
     if every:
-        bounds, first_year = _new_years(every[0].at_s, every[-1].at_s)
-        years = [first_year + bisect.bisect_right(bounds, r.at_s) for r in every]
+        bounds, first_year = _new_years(readings[every[0]][0], readings[every[-1]][0])
+        years = [first_year + bisect.bisect_right(bounds, readings[i][0]) for i in every]
     drawn = [
         every[k]
         for k in thin_readings(
-            [(y, r.percent or 0.0, r.replaced) for y, r in zip(years, every, strict=True)]
+            [(y, readings[i][1] or 0.0, readings[i][2]) for y, i in zip(years, every, strict=True)]
         )
     ]
     # The current anode's life starts at the last replacement.
-    replaced_at = max((i for i, r in enumerate(readings) if r.replaced), default=-1)
-    last_replaced = readings[replaced_at] if replaced_at >= 0 else None
+    replaced_at = max((i for i, r in enumerate(readings) if r[2]), default=-1)
     tz = timezone.get_current_timezone()
 
-    def local_day(reading: _Reading) -> dt.date:
-        return dt.datetime.fromtimestamp(reading.at_s, tz).date()
+    def local_day(i: int) -> dt.date:
+        return dt.datetime.fromtimestamp(readings[i][0], tz).date()
 
-    points = [(local_day(r), r.percent) for r in drawn if r.percent is not None]
+    points = [(local_day(i), pct) for i in drawn if (pct := readings[i][1]) is not None]
     fitted = []
     fit = projection.fit
     if fit is not None and fit.rate_kg_per_day:
@@ -132,28 +128,30 @@ def anode_history_of(outlook: AnodeOutlook) -> AnodeHistory:
         # reading of the current anode: from the deployments' instants read as plain
         # numbers (one pass of prefix sums), only those running at or recovered after the
         # replacement (an earlier one adds the same days to both ends).
-        position_of = {r: i for i, r in enumerate(readings)}
-        current = [r for r in drawn if position_of[r] > replaced_at]
-        since = [*([last_replaced] if last_replaced is not None else []), *current]
+        since = [
+            *([replaced_at] if replaced_at >= 0 else []),
+            *(i for i in drawn if i > replaced_at),
+        ]
         intervals = (
             Deployment.objects.filter(unit=unit)
             .order_by()  # the prefix sums sort them
             .annotate(start=EpochSeconds("over_side_at"), end=EpochSeconds("recovered_at"))
         )
-        if last_replaced is not None:
-            intervals = intervals.filter(Q(end__isnull=True) | Q(end__gt=last_replaced.at_s))
+        if replaced_at >= 0:
+            replaced_s = readings[replaced_at][0]
+            intervals = intervals.filter(Q(end__isnull=True) | Q(end__gt=replaced_s))
         days = immersed_days_at_each_seconds(
-            intervals.values_list("start", "end"), [r.at_s for r in since]
+            intervals.values_list("start", "end"), [readings[i][0] for i in since]
         )
-        fit_from_x = days[0] if last_replaced is not None else 0.0
+        fit_from_x = days[0] if replaced_at >= 0 else 0.0
         start_mass = fit.mass_at_kg(0.0)
-        if last_replaced is not None and start_mass is not None:
-            fitted.append((local_day(last_replaced), 100.0 * start_mass / projection.new_kg))
-        for reading, x in zip(since, days, strict=True):
-            if reading is not last_replaced:
+        if replaced_at >= 0 and start_mass is not None:
+            fitted.append((local_day(replaced_at), 100.0 * start_mass / projection.new_kg))
+        for i, x in zip(since, days, strict=True):
+            if i != replaced_at:
                 mass = fit.mass_at_kg(max(0.0, x - fit_from_x))
                 if mass is not None:
-                    fitted.append((local_day(reading), 100.0 * mass / projection.new_kg))
+                    fitted.append((local_day(i), 100.0 * mass / projection.new_kg))
     future: list[tuple[dt.date, float]] = []
     if projection.mass_now_kg is not None and outlook.as_of is not None:
         as_of = timezone.localdate(outlook.as_of)

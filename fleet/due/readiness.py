@@ -57,6 +57,7 @@ from fleet.models import (
     Transponder,
     Variant,
 )
+from fleet.models.functions import plain_columns
 
 from .condition import Condition, annotate_condition, condition_of
 from .duty import Duty, duty_of
@@ -830,16 +831,16 @@ def chunk_rows(
     ids: list[int],
 ) -> tuple[dict[int, dict[int, AnodeValues]], dict[int, dict[str, Dated]]]:
     """The anode state rows and the dated due rows of the units ``ids``, as plain values
-    (two queries)."""
+    (two queries; dates and date-times read as ``plain_columns`` reads them)."""
     anodes: dict[int, dict[int, AnodeValues]] = {}
     for unit_id, position_id, *values in AnodeState.objects.filter(unit_id__in=ids).values_list(
-        *ANODE_COLUMNS
+        *plain_columns(AnodeState, ANODE_COLUMNS)
     ):
         anodes.setdefault(unit_id, {})[position_id] = tuple(values)
     dated: dict[int, dict[str, Dated]] = {}
     rows = DueRow.objects.filter(unit_id__in=ids, kind__in=DATED_KINDS)
     for unit_id, key, due_on, failed, basis in rows.values_list(
-        "unit_id", "key", "due_on", "failed", "basis"
+        *plain_columns(DueRow, ("unit_id", "key", "due_on", "failed", "basis"))
     ):
         dated.setdefault(unit_id, {})[key] = Dated(due_on, failed, basis)
     return anodes, dated
@@ -882,7 +883,11 @@ def _plan_campaign(planned: PlannedDeployment, *, wanted: int, on: dt.date) -> P
     rules = {pk: rules_for(v) for pk, v in variants.items()}
     positions = {pk: list(v.anode_positions.all()) for pk, v in variants.items()}
     active = Transponder.objects.exclude(hold__in=INACTIVE)
-    units = annotate_condition(active, on).order_by("pk").values_list(*UNIT_COLUMNS)
+    units = (
+        annotate_condition(active, on)
+        .order_by("pk")
+        .values_list(*plain_columns(Transponder, UNIT_COLUMNS))
+    )
     results = []
     chunk: list[tuple[object, ...]] = []
     stateless: list[int] = []

@@ -72,6 +72,7 @@ from fleet.models import (
     Transponder,
     Variant,
 )
+from fleet.models.functions import plain_columns
 from fleet.services.imports import import_commit
 from fleet.services.records import service_record_save
 
@@ -422,7 +423,7 @@ def _planner_rows() -> None:
     active = Transponder.objects.exclude(hold__in=INACTIVE)
     units = annotate_condition(active, timezone.localdate()).order_by("pk")
     chunk: list[int] = []
-    for row in units.values_list(*UNIT_COLUMNS).iterator(PLAN_CHUNK):
+    for row in units.values_list(*plain_columns(Transponder, UNIT_COLUMNS)).iterator(PLAN_CHUNK):
         chunk.append(row[0])
         if len(chunk) == PLAN_CHUNK:
             chunk_rows(chunk)

@@ -26,8 +26,10 @@ whole-fleet evaluation then reads one row per item.
 """
 
 import datetime as dt
-from collections.abc import Callable
+from collections.abc import Callable, Iterable, Iterator
 from dataclasses import dataclass, field, replace
+from itertools import groupby
+from operator import itemgetter
 from typing import Any
 
 from django.db import transaction
@@ -195,6 +197,7 @@ _IN_BATCH = 900
 class UnitInputs:
     """Everything the state of one unit is derived from (``derive``)."""
 
+    pack_pk: int | None = None  # the fitted pack, as read first
     pack: BatteryInstall | None = None
     spans: list[Span] = field(default_factory=list)  # every deployment, in time order
     # As records, only those the state names or charges to the pack (``_needed``).
@@ -217,26 +220,150 @@ def fitted_pack(unit: Transponder) -> BatteryInstall | None:
     )
 
 
-def _seal_changes(unit_ids: list[int]) -> dict[int, list[SealChangeRow]]:
-    by_unit: dict[int, list[SealChangeRow]] = {}
-    for unit_id, *row in (
-        SealChange.objects.filter(record__unit_id__in=unit_ids)
+# A reader's rows, each (unit id, *values), ordered by unit id first.
+Rows = QuerySet[Any, tuple[Any, ...]]
+
+
+def _packs(units: Q) -> Rows:
+    installs = BatteryInstall.objects.filter(units, removal__isnull=True)
+    return installs.order_by("unit_id", *_FITTED_PACK_ORDER).values_list("unit_id", "pk")
+
+
+def _spans(units: Q) -> Rows:
+    return (
+        Deployment.objects.filter(units)
+        .order_by("unit_id", "over_side_at", "pk")
+        .values_list("unit_id", "pk", Instant("over_side_at"), Instant("recovered_at"))
+    )
+
+
+def _visits(units: Q) -> Rows:
+    return (
+        ServiceRecord.objects.filter(units)
+        .order_by("unit_id", "pk")
+        .values_list("unit_id", "pk", Instant("opened_at"))
+    )
+
+
+def _readings(units: Q) -> Rows:
+    """Every anode reading of the units (``_anode_rows`` keeps those at the positions of the
+    unit's variant: a reading is only ever taken at one of them)."""
+    return (
+        AnodeReading.objects.filter(units)
+        .order_by("record__unit_id", "record__opened_at", "pk")
+        .values_list("record__unit_id", *_reading_columns())
+    )
+
+
+def _seal_change_rows(units: Q) -> Rows:
+    return (
+        SealChange.objects.filter(units)
         .order_by("record__unit_id", "record__opened_at", "pk")
         .values_list("record__unit_id", "position_id", "record__opened_at", "cure_date", "material")
-    ):
-        by_unit.setdefault(unit_id, []).append(tuple(row))  # type: ignore[arg-type]
-    return by_unit
+    )
+
+
+def _openings(units: Q) -> Rows:
+    return (
+        HousingOpening.objects.filter(units)
+        .order_by("record__unit_id", "opened_at", "pk")
+        .values_list("record__unit_id", "opened_at", "record__opened_at")
+    )
+
+
+def _release_tests(units: Q) -> Rows:
+    return (
+        ReleaseTest.objects.filter(units)
+        .order_by("record__unit_id", *_RELEASE_ORDER)
+        .values_list("record__unit_id", "pk", "tested_on")
+    )
+
+
+def _pressure_tests(units: Q) -> Rows:
+    return (
+        PressureTest.objects.filter(units)
+        .order_by("record__unit_id", *_PRESSURE_ORDER)
+        .values_list("record__unit_id", "pk", "tested_on", "hold_ended_at", "record__opened_at")
+    )
+
+
+def _check_rows(units: Q) -> Rows:
+    return (
+        SensorCheck.objects.filter(units)
+        .order_by("record__unit_id", "checked_on", "pk")
+        .values_list("record__unit_id", "sensor", "pk")
+    )
+
+
+def _values(rows: Iterator[tuple[Any, ...]]) -> list[Any]:
+    """A unit's rows without their unit id."""
+    return [row[1:] for row in rows]
+
+
+def _set_pack(inputs: UnitInputs, rows: Iterator[tuple[Any, ...]]) -> None:
+    inputs.pack_pk = next(rows)[1]  # the latest fitted, should there be more
+
+
+def _set_spans(inputs: UnitInputs, rows: Iterator[tuple[Any, ...]]) -> None:
+    inputs.spans = _values(rows)
+
+
+def _set_visits(inputs: UnitInputs, rows: Iterator[tuple[Any, ...]]) -> None:
+    inputs.visits = {pk: opened for _, pk, opened in rows}
+
+
+def _set_readings(inputs: UnitInputs, rows: Iterator[tuple[Any, ...]]) -> None:
+    inputs.readings = _values(rows)
+
+
+def _set_seal_changes(inputs: UnitInputs, rows: Iterator[tuple[Any, ...]]) -> None:
+    inputs.seal_changes = _values(rows)
+
+
+def _set_openings(inputs: UnitInputs, rows: Iterator[tuple[Any, ...]]) -> None:
+    inputs.openings = _values(rows)
+
+
+def _set_release_tests(inputs: UnitInputs, rows: Iterator[tuple[Any, ...]]) -> None:
+    inputs.release_tests = _values(rows)
+
+
+def _set_pressure_test(inputs: UnitInputs, rows: Iterator[tuple[Any, ...]]) -> None:
+    inputs.last_pressure_test = next(rows)[1:]  # the latest
+
+
+def _set_checks(inputs: UnitInputs, rows: Iterator[tuple[Any, ...]]) -> None:
+    inputs.checks = _values(rows)
+
+
+# Every kind of record the state reads: its rows for the units a filter selects, where a
+# unit's rows go in its inputs, and the path of the unit id the filter names.
+_Reader = tuple[Callable[[Q], Rows], Callable[[UnitInputs, Iterator[tuple[Any, ...]]], None], str]
+_READERS: tuple[_Reader, ...] = (
+    (_packs, _set_pack, "unit_id"),
+    (_spans, _set_spans, "unit_id"),
+    (_visits, _set_visits, "unit_id"),
+    (_readings, _set_readings, "record__unit_id"),
+    (_seal_change_rows, _set_seal_changes, "record__unit_id"),
+    (_openings, _set_openings, "record__unit_id"),
+    (_release_tests, _set_release_tests, "record__unit_id"),
+    (_pressure_tests, _set_pressure_test, "record__unit_id"),
+    (_check_rows, _set_checks, "record__unit_id"),
+)
+
+
+def _by_unit(rows: Iterable[tuple[Any, ...]]) -> Iterator[tuple[int, Iterator[tuple[Any, ...]]]]:
+    return groupby(rows, key=itemgetter(0))
+
+
+def _seal_changes(unit_ids: list[int]) -> dict[int, list[SealChangeRow]]:
+    rows = _seal_change_rows(Q(record__unit_id__in=unit_ids))
+    return {unit_id: _values(group) for unit_id, group in _by_unit(rows)}
 
 
 def _checks(unit_ids: list[int]) -> dict[int, list[tuple[str, int]]]:
-    by_unit: dict[int, list[tuple[str, int]]] = {}
-    for unit_id, sensor, pk in (
-        SensorCheck.objects.filter(record__unit_id__in=unit_ids)
-        .order_by("record__unit_id", "checked_on", "pk")
-        .values_list("record__unit_id", "sensor", "pk")
-    ):
-        by_unit.setdefault(unit_id, []).append((sensor, pk))
-    return by_unit
+    rows = _check_rows(Q(record__unit_id__in=unit_ids))
+    return {unit_id: _values(group) for unit_id, group in _by_unit(rows)}
 
 
 def _needed(spans: list[Span], pack: BatteryInstall | None) -> list[int]:
@@ -257,30 +384,71 @@ def _in_batches(ids: list[int]) -> list[list[int]]:
 
 def read_inputs(units: list[Transponder]) -> dict[int, UnitInputs]:
     """The inputs of ``units`` (their variants' positions loaded or shared), by unit id, in
-    a constant number of queries (one per kind of record, more only past 900 deployments
-    to read as records): every record read as plain values except the few the state names."""
+    a constant number of queries (one per kind of record, more only past 900 packs or
+    deployments to read as records): every record read as plain values except the few the
+    state names."""
     inputs = {unit.pk: UnitInputs() for unit in units}
-    _read_deployments(inputs)
-    positions = {p.pk for unit in units for p in unit.variant.anode_positions.all()}
-    _read_visits(inputs, sorted(positions))
-    _read_tests(inputs)
+    ids = list(inputs)
+    for rows, put, unit_path in _READERS:
+        for unit_id, group in _by_unit(rows(Q(**{f"{unit_path}__in": ids}))):
+            put(inputs[unit_id], group)
+    _read_records(inputs)
     return inputs
 
 
-def _read_deployments(inputs: dict[int, UnitInputs]) -> None:
-    """The fitted pack, every deployment's span, and the deployments the state needs."""
-    unit_ids = list(inputs)
-    for install in BatteryInstall.objects.filter(
-        unit_id__in=unit_ids, removal__isnull=True
-    ).order_by("unit_id", *_FITTED_PACK_ORDER):
-        if inputs[install.unit_id].pack is None:
+@dataclass(slots=True)
+class _Pass:
+    """One kind of record read in one ordered pass: its rows grouped by unit, and the next
+    unit's group, not yet handed out."""
+
+    groups: Iterator[tuple[int, Iterator[tuple[Any, ...]]]]
+    put: Callable[[UnitInputs, Iterator[tuple[Any, ...]]], None]
+    head: tuple[int, Iterator[tuple[Any, ...]]] | None = None
+
+    def __post_init__(self) -> None:
+        self.head = next(self.groups, None)
+
+    def give(self, inputs: dict[int, UnitInputs], last: int) -> None:
+        """Put the rows of every unit up to ``last`` (by id) in ``inputs``."""
+        while self.head is not None and self.head[0] <= last:
+            unit_inputs = inputs.get(self.head[0])
+            if unit_inputs is not None:  # else a unit not asked for (added since the pass began)
+                self.put(unit_inputs, self.head[1])
+            self.head = next(self.groups, None)
+
+
+class FleetInputs:
+    """The inputs of every unit, read in one ordered pass per kind of record (each query run
+    once for the whole fleet, its rows fetched a batch at a time: a server-side cursor on
+    PostgreSQL) and handed out by chunks of units in increasing id order (``read``: the same
+    inputs as ``read_inputs`` gives for the chunk). Open it inside the transaction that has
+    locked the units: its reads see the records as they are then."""
+
+    FETCH = 2000  # rows fetched at a time from each pass
+
+    def __init__(self) -> None:
+        self._passes = [
+            _Pass(_by_unit(rows(Q()).iterator(chunk_size=self.FETCH)), put)
+            for rows, put, _ in _READERS
+        ]
+
+    def read(self, units: list[Transponder]) -> dict[int, UnitInputs]:
+        """The inputs of ``units``, which come after every unit read before (by id)."""
+        inputs = {unit.pk: UnitInputs() for unit in units}
+        if inputs:
+            last = max(inputs)
+            for one_pass in self._passes:
+                one_pass.give(inputs, last)
+        _read_records(inputs)
+        return inputs
+
+
+def _read_records(inputs: dict[int, UnitInputs]) -> None:
+    """The records the state names: the fitted pack, and the deployments it needs."""
+    packs = [i.pack_pk for i in inputs.values() if i.pack_pk is not None]
+    for batch in _in_batches(packs):
+        for install in BatteryInstall.objects.filter(pk__in=batch):
             inputs[install.unit_id].pack = install
-    for unit_id, *span in (
-        Deployment.objects.filter(unit_id__in=unit_ids)
-        .order_by("unit_id", "over_side_at", "pk")
-        .values_list("unit_id", "pk", Instant("over_side_at"), Instant("recovered_at"))
-    ):
-        inputs[unit_id].spans.append(tuple(span))
     wanted = [pk for i in inputs.values() for pk in _needed(i.spans, i.pack)]
     for batch in _in_batches(wanted):
         for deployment in (
@@ -289,53 +457,6 @@ def _read_deployments(inputs: dict[int, UnitInputs]) -> None:
             .order_by("unit_id", "over_side_at", "pk")
         ):
             inputs[deployment.unit_id].deployments.append(deployment)
-
-
-def _read_visits(inputs: dict[int, UnitInputs], positions: list[int]) -> None:
-    """The visits, the anode readings at ``positions``, seal changes and housing openings."""
-    unit_ids = list(inputs)
-    for unit_id, pk, opened in (
-        ServiceRecord.objects.filter(unit_id__in=unit_ids)
-        .order_by("unit_id", "pk")
-        .values_list("unit_id", "pk", Instant("opened_at"))
-    ):
-        inputs[unit_id].visits[pk] = opened
-    for unit_id, *reading in (
-        AnodeReading.objects.filter(record__unit_id__in=unit_ids)
-        .alias(position_no=F("position_id") + 0)  # as ``unit_readings``: through the visits
-        .filter(position_no__in=positions)
-        .order_by("record__unit_id", "record__opened_at", "pk")
-        .values_list("record__unit_id", *_reading_columns())
-    ):
-        inputs[unit_id].readings.append(tuple(reading))
-    for unit_id, changes in _seal_changes(unit_ids).items():
-        inputs[unit_id].seal_changes = changes
-    for unit_id, *opening in (
-        HousingOpening.objects.filter(record__unit_id__in=unit_ids)
-        .order_by("record__unit_id", "opened_at", "pk")
-        .values_list("record__unit_id", "opened_at", "record__opened_at")
-    ):
-        inputs[unit_id].openings.append(tuple(opening))  # type: ignore[arg-type]
-
-
-def _read_tests(inputs: dict[int, UnitInputs]) -> None:
-    """Release tests (latest first), the last pressure test, and sensor checks."""
-    unit_ids = list(inputs)
-    for unit_id, pk, tested_on in (
-        ReleaseTest.objects.filter(record__unit_id__in=unit_ids)
-        .order_by("record__unit_id", *_RELEASE_ORDER)
-        .values_list("record__unit_id", "pk", "tested_on")
-    ):
-        inputs[unit_id].release_tests.append((pk, tested_on))
-    for unit_id, *test in (
-        PressureTest.objects.filter(record__unit_id__in=unit_ids)
-        .order_by("record__unit_id", *_PRESSURE_ORDER)
-        .values_list("record__unit_id", "pk", "tested_on", "hold_ended_at", "record__opened_at")
-    ):
-        if inputs[unit_id].last_pressure_test is None:
-            inputs[unit_id].last_pressure_test = tuple(test)  # type: ignore[assignment]
-    for unit_id, checks in _checks(unit_ids).items():
-        inputs[unit_id].checks = checks
 
 
 # --- the derivation -----------------------------------------------------------------------
@@ -533,12 +654,18 @@ def write_derived(unit_ids: list[int], derived: list[Derived]) -> None:
     insert_instances([r for d in derived for r in d.seals])
 
 
-def refresh_states(units: list[Transponder], *, at: dt.datetime) -> list[Derived]:
+def refresh_states(
+    units: list[Transponder],
+    *,
+    at: dt.datetime,
+    read: Callable[[list[Transponder]], dict[int, UnitInputs]] = read_inputs,
+) -> list[Derived]:
     """Derive every unit's state rows again from its whole history and write them: the
     inputs read for all of ``units`` at once, each unit derived alone (``derive``, as for
     one unit), the rows written in bulk. Run inside a transaction that locks the units.
-    The rows written, in the order of ``units``."""
-    inputs = read_inputs(units)
+    The rows written, in the order of ``units``. ``read``: ``read_inputs``, or a whole
+    fleet's ``FleetInputs.read``."""
+    inputs = read(units)
     derived = [derive(unit, inputs[unit.pk], at=at) for unit in units]
     write_derived([unit.pk for unit in units], derived)
     return derived

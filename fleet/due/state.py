@@ -82,14 +82,6 @@ def unit_readings(unit: Transponder, position_ids: list[int]) -> QuerySet[AnodeR
     )
 
 
-def _mass_kg(new_kg: float, mass_g: float | None, remaining_percent: float | None) -> float | None:
-    if mass_g is not None:
-        return mass_g / 1000.0
-    if remaining_percent is not None:
-        return new_kg * remaining_percent / 100.0
-    return None
-
-
 _READING_FIELDS = (
     "position_id", "mass_g", "remaining_percent", "bond_resistance_ohm", "replaced", "record_id",
 )  # fmt: skip
@@ -122,23 +114,13 @@ class _Anode:
     last_mass_kg: float | None = None
     last_bond: float | None = None
 
-    def take(self, reading: tuple[Any, ...], opened_at: dt.datetime, x: float) -> None:
-        _, mass_g, percent, bond, replaced, _ = reading
-        mass_kg = _mass_kg(self.new_kg, mass_g, percent)
-        if mass_kg is None:
-            return
-        self.points.append((max(0.0, x - self.at_fit), mass_kg))
-        self.last_read_at, self.last_mass_kg, self.last_bond = opened_at, mass_kg, bond
-        if replaced:
-            self.fitted_at, self.at_fit, self.last_mass_kg = opened_at, x, self.new_kg
-            # The bond measured at this visit was the old anode's; the new one has none yet.
-            self.last_bond = None
-            self.sums, self.points = WearSums.empty(), [(0.0, self.new_kg)]
-
     def settled(self) -> "_Anode":
         """The points added to the sums; a copy that can be walked on independently."""
         self.sums, self.points = self.sums.extend(self.points), []
-        return replace(self, points=[])
+        return _Anode(
+            self.new_kg, self.fitted_at, self.at_fit, self.sums, [],
+            self.last_read_at, self.last_mass_kg, self.last_bond,
+        )  # fmt: skip
 
     def values(self) -> tuple[object, ...]:
         s = self.settled().sums
@@ -167,9 +149,27 @@ def _walk(
     visits: dict[int, dt.datetime],
     x_at: dict[int, float],
 ) -> None:
-    for reading in readings:
-        record_id = reading[5]
-        anodes[reading[0]].take(reading, visits[record_id], x_at[record_id])
+    """Each reading (``_READING_FIELDS``), oldest first, taken by its position's anode: a
+    point (immersed days since the anode was fitted, mass kg) and the last reading. A
+    reading marked *replaced* ends that anode: the sums restart from (0, new mass) there."""
+    for position_id, mass_g, percent, bond, replaced, record_id in readings:
+        anode = anodes[position_id]
+        if mass_g is not None:
+            mass_kg = mass_g / 1000.0
+        elif percent is not None:
+            mass_kg = anode.new_kg * percent / 100.0
+        else:
+            continue
+        opened_at = visits[record_id]
+        x = x_at[record_id]
+        since_fit = x - anode.at_fit
+        anode.points.append((since_fit if since_fit > 0.0 else 0.0, mass_kg))
+        anode.last_read_at, anode.last_mass_kg, anode.last_bond = opened_at, mass_kg, bond
+        if replaced:
+            anode.fitted_at, anode.at_fit, anode.last_mass_kg = opened_at, x, anode.new_kg
+            # The bond measured at this visit was the old anode's; the new one has none yet.
+            anode.last_bond = None
+            anode.sums, anode.points = WearSums.empty(), [(0.0, anode.new_kg)]
 
 
 # --- the inputs ---------------------------------------------------------------------------
@@ -473,11 +473,17 @@ def _anode_rows(
     immersed days found in one pass. Each row also keeps its base: the same over every
     visit but the latest, from which a save of that visit starts."""
     new_kg = _new_kg(unit)
-    readings = [r for r in all_readings if r[0] in new_kg]
     x_at = dict(zip(visits, immersed_days_at_each(intervals, visits.values()), strict=True))
     latest = max(visits, key=lambda pk: (visits[pk], pk), default=None)
+    readings: list[tuple[Any, ...]] = []
+    earlier: list[tuple[Any, ...]] = []  # the readings of every visit but the latest
+    at_latest: list[tuple[Any, ...]] = []
+    for r in all_readings:
+        if r[0] in new_kg:
+            readings.append(r)
+            (at_latest if r[5] == latest else earlier).append(r)
     anodes = {pk: _Anode(kg) for pk, kg in new_kg.items()}
-    _walk(anodes, [r for r in readings if r[5] != latest], visits, x_at)
+    _walk(anodes, earlier, visits, x_at)
     bases = {pk: anode.settled() for pk, anode in anodes.items()}
     latest_at = visits.get(latest) if latest is not None else None
     if any(at == latest_at for pk, at in visits.items() if pk != latest):
@@ -486,7 +492,7 @@ def _anode_rows(
         anodes = {pk: _Anode(kg) for pk, kg in new_kg.items()}
         _walk(anodes, readings, visits, x_at)
     else:
-        _walk(anodes, [r for r in readings if r[5] == latest], visits, x_at)
+        _walk(anodes, at_latest, visits, x_at)
     rows = []
     for pk, anode in anodes.items():
         row = AnodeState(unit=unit, position_id=pk, base_visit_pk=latest)

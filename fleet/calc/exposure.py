@@ -19,6 +19,8 @@ SECONDS_PER_DAY = 86400.0
 
 
 def _aware(name: str, value: dt.datetime) -> dt.datetime:
+    if value.__class__ is dt.datetime and value.tzinfo is dt.UTC:
+        return value  # the common case, checked at once (a rebuild checks millions)
     if not isinstance(value, dt.datetime):
         raise TypeError(f"{name} must be a datetime, got {type(value).__name__}")
     if value.tzinfo is None or value.utcoffset() is None:

@@ -26,8 +26,10 @@ whole-fleet evaluation then reads one row per item.
 """
 
 import datetime as dt
-from collections.abc import Callable
+from collections.abc import Callable, Iterable, Iterator
 from dataclasses import dataclass, field, replace
+from itertools import groupby
+from operator import itemgetter
 from typing import Any
 
 from django.db import transaction
@@ -80,14 +82,6 @@ def unit_readings(unit: Transponder, position_ids: list[int]) -> QuerySet[AnodeR
     )
 
 
-def _mass_kg(new_kg: float, mass_g: float | None, remaining_percent: float | None) -> float | None:
-    if mass_g is not None:
-        return mass_g / 1000.0
-    if remaining_percent is not None:
-        return new_kg * remaining_percent / 100.0
-    return None
-
-
 _READING_FIELDS = (
     "position_id", "mass_g", "remaining_percent", "bond_resistance_ohm", "replaced", "record_id",
 )  # fmt: skip
@@ -120,23 +114,13 @@ class _Anode:
     last_mass_kg: float | None = None
     last_bond: float | None = None
 
-    def take(self, reading: tuple[Any, ...], opened_at: dt.datetime, x: float) -> None:
-        _, mass_g, percent, bond, replaced, _ = reading
-        mass_kg = _mass_kg(self.new_kg, mass_g, percent)
-        if mass_kg is None:
-            return
-        self.points.append((max(0.0, x - self.at_fit), mass_kg))
-        self.last_read_at, self.last_mass_kg, self.last_bond = opened_at, mass_kg, bond
-        if replaced:
-            self.fitted_at, self.at_fit, self.last_mass_kg = opened_at, x, self.new_kg
-            # The bond measured at this visit was the old anode's; the new one has none yet.
-            self.last_bond = None
-            self.sums, self.points = WearSums.empty(), [(0.0, self.new_kg)]
-
     def settled(self) -> "_Anode":
         """The points added to the sums; a copy that can be walked on independently."""
         self.sums, self.points = self.sums.extend(self.points), []
-        return replace(self, points=[])
+        return _Anode(
+            self.new_kg, self.fitted_at, self.at_fit, self.sums, [],
+            self.last_read_at, self.last_mass_kg, self.last_bond,
+        )  # fmt: skip
 
     def values(self) -> tuple[object, ...]:
         s = self.settled().sums
@@ -165,9 +149,27 @@ def _walk(
     visits: dict[int, dt.datetime],
     x_at: dict[int, float],
 ) -> None:
-    for reading in readings:
-        record_id = reading[5]
-        anodes[reading[0]].take(reading, visits[record_id], x_at[record_id])
+    """Each reading (``_READING_FIELDS``), oldest first, taken by its position's anode: a
+    point (immersed days since the anode was fitted, mass kg) and the last reading. A
+    reading marked *replaced* ends that anode: the sums restart from (0, new mass) there."""
+    for position_id, mass_g, percent, bond, replaced, record_id in readings:
+        anode = anodes[position_id]
+        if mass_g is not None:
+            mass_kg = mass_g / 1000.0
+        elif percent is not None:
+            mass_kg = anode.new_kg * percent / 100.0
+        else:
+            continue
+        opened_at = visits[record_id]
+        x = x_at[record_id]
+        since_fit = x - anode.at_fit
+        anode.points.append((since_fit if since_fit > 0.0 else 0.0, mass_kg))
+        anode.last_read_at, anode.last_mass_kg, anode.last_bond = opened_at, mass_kg, bond
+        if replaced:
+            anode.fitted_at, anode.at_fit, anode.last_mass_kg = opened_at, x, anode.new_kg
+            # The bond measured at this visit was the old anode's; the new one has none yet.
+            anode.last_bond = None
+            anode.sums, anode.points = WearSums.empty(), [(0.0, anode.new_kg)]
 
 
 # --- the inputs ---------------------------------------------------------------------------
@@ -195,6 +197,7 @@ _IN_BATCH = 900
 class UnitInputs:
     """Everything the state of one unit is derived from (``derive``)."""
 
+    pack_pk: int | None = None  # the fitted pack, as read first
     pack: BatteryInstall | None = None
     spans: list[Span] = field(default_factory=list)  # every deployment, in time order
     # As records, only those the state names or charges to the pack (``_needed``).
@@ -217,26 +220,150 @@ def fitted_pack(unit: Transponder) -> BatteryInstall | None:
     )
 
 
-def _seal_changes(unit_ids: list[int]) -> dict[int, list[SealChangeRow]]:
-    by_unit: dict[int, list[SealChangeRow]] = {}
-    for unit_id, *row in (
-        SealChange.objects.filter(record__unit_id__in=unit_ids)
+# A reader's rows, each (unit id, *values), ordered by unit id first.
+Rows = QuerySet[Any, tuple[Any, ...]]
+
+
+def _packs(units: Q) -> Rows:
+    installs = BatteryInstall.objects.filter(units, removal__isnull=True)
+    return installs.order_by("unit_id", *_FITTED_PACK_ORDER).values_list("unit_id", "pk")
+
+
+def _spans(units: Q) -> Rows:
+    return (
+        Deployment.objects.filter(units)
+        .order_by("unit_id", "over_side_at", "pk")
+        .values_list("unit_id", "pk", Instant("over_side_at"), Instant("recovered_at"))
+    )
+
+
+def _visits(units: Q) -> Rows:
+    return (
+        ServiceRecord.objects.filter(units)
+        .order_by("unit_id", "pk")
+        .values_list("unit_id", "pk", Instant("opened_at"))
+    )
+
+
+def _readings(units: Q) -> Rows:
+    """Every anode reading of the units (``_anode_rows`` keeps those at the positions of the
+    unit's variant: a reading is only ever taken at one of them)."""
+    return (
+        AnodeReading.objects.filter(units)
+        .order_by("record__unit_id", "record__opened_at", "pk")
+        .values_list("record__unit_id", *_reading_columns())
+    )
+
+
+def _seal_change_rows(units: Q) -> Rows:
+    return (
+        SealChange.objects.filter(units)
         .order_by("record__unit_id", "record__opened_at", "pk")
         .values_list("record__unit_id", "position_id", "record__opened_at", "cure_date", "material")
-    ):
-        by_unit.setdefault(unit_id, []).append(tuple(row))  # type: ignore[arg-type]
-    return by_unit
+    )
+
+
+def _openings(units: Q) -> Rows:
+    return (
+        HousingOpening.objects.filter(units)
+        .order_by("record__unit_id", "opened_at", "pk")
+        .values_list("record__unit_id", "opened_at", "record__opened_at")
+    )
+
+
+def _release_tests(units: Q) -> Rows:
+    return (
+        ReleaseTest.objects.filter(units)
+        .order_by("record__unit_id", *_RELEASE_ORDER)
+        .values_list("record__unit_id", "pk", "tested_on")
+    )
+
+
+def _pressure_tests(units: Q) -> Rows:
+    return (
+        PressureTest.objects.filter(units)
+        .order_by("record__unit_id", *_PRESSURE_ORDER)
+        .values_list("record__unit_id", "pk", "tested_on", "hold_ended_at", "record__opened_at")
+    )
+
+
+def _check_rows(units: Q) -> Rows:
+    return (
+        SensorCheck.objects.filter(units)
+        .order_by("record__unit_id", "checked_on", "pk")
+        .values_list("record__unit_id", "sensor", "pk")
+    )
+
+
+def _values(rows: Iterator[tuple[Any, ...]]) -> list[Any]:
+    """A unit's rows without their unit id."""
+    return [row[1:] for row in rows]
+
+
+def _set_pack(inputs: UnitInputs, rows: Iterator[tuple[Any, ...]]) -> None:
+    inputs.pack_pk = next(rows)[1]  # the latest fitted, should there be more
+
+
+def _set_spans(inputs: UnitInputs, rows: Iterator[tuple[Any, ...]]) -> None:
+    inputs.spans = _values(rows)
+
+
+def _set_visits(inputs: UnitInputs, rows: Iterator[tuple[Any, ...]]) -> None:
+    inputs.visits = {pk: opened for _, pk, opened in rows}
+
+
+def _set_readings(inputs: UnitInputs, rows: Iterator[tuple[Any, ...]]) -> None:
+    inputs.readings = _values(rows)
+
+
+def _set_seal_changes(inputs: UnitInputs, rows: Iterator[tuple[Any, ...]]) -> None:
+    inputs.seal_changes = _values(rows)
+
+
+def _set_openings(inputs: UnitInputs, rows: Iterator[tuple[Any, ...]]) -> None:
+    inputs.openings = _values(rows)
+
+
+def _set_release_tests(inputs: UnitInputs, rows: Iterator[tuple[Any, ...]]) -> None:
+    inputs.release_tests = _values(rows)
+
+
+def _set_pressure_test(inputs: UnitInputs, rows: Iterator[tuple[Any, ...]]) -> None:
+    inputs.last_pressure_test = next(rows)[1:]  # the latest
+
+
+def _set_checks(inputs: UnitInputs, rows: Iterator[tuple[Any, ...]]) -> None:
+    inputs.checks = _values(rows)
+
+
+# Every kind of record the state reads: its rows for the units a filter selects, where a
+# unit's rows go in its inputs, and the path of the unit id the filter names.
+_Reader = tuple[Callable[[Q], Rows], Callable[[UnitInputs, Iterator[tuple[Any, ...]]], None], str]
+_READERS: tuple[_Reader, ...] = (
+    (_packs, _set_pack, "unit_id"),
+    (_spans, _set_spans, "unit_id"),
+    (_visits, _set_visits, "unit_id"),
+    (_readings, _set_readings, "record__unit_id"),
+    (_seal_change_rows, _set_seal_changes, "record__unit_id"),
+    (_openings, _set_openings, "record__unit_id"),
+    (_release_tests, _set_release_tests, "record__unit_id"),
+    (_pressure_tests, _set_pressure_test, "record__unit_id"),
+    (_check_rows, _set_checks, "record__unit_id"),
+)
+
+
+def _by_unit(rows: Iterable[tuple[Any, ...]]) -> Iterator[tuple[int, Iterator[tuple[Any, ...]]]]:
+    return groupby(rows, key=itemgetter(0))
+
+
+def _seal_changes(unit_ids: list[int]) -> dict[int, list[SealChangeRow]]:
+    rows = _seal_change_rows(Q(record__unit_id__in=unit_ids))
+    return {unit_id: _values(group) for unit_id, group in _by_unit(rows)}
 
 
 def _checks(unit_ids: list[int]) -> dict[int, list[tuple[str, int]]]:
-    by_unit: dict[int, list[tuple[str, int]]] = {}
-    for unit_id, sensor, pk in (
-        SensorCheck.objects.filter(record__unit_id__in=unit_ids)
-        .order_by("record__unit_id", "checked_on", "pk")
-        .values_list("record__unit_id", "sensor", "pk")
-    ):
-        by_unit.setdefault(unit_id, []).append((sensor, pk))
-    return by_unit
+    rows = _check_rows(Q(record__unit_id__in=unit_ids))
+    return {unit_id: _values(group) for unit_id, group in _by_unit(rows)}
 
 
 def _needed(spans: list[Span], pack: BatteryInstall | None) -> list[int]:
@@ -257,30 +384,71 @@ def _in_batches(ids: list[int]) -> list[list[int]]:
 
 def read_inputs(units: list[Transponder]) -> dict[int, UnitInputs]:
     """The inputs of ``units`` (their variants' positions loaded or shared), by unit id, in
-    a constant number of queries (one per kind of record, more only past 900 deployments
-    to read as records): every record read as plain values except the few the state names."""
+    a constant number of queries (one per kind of record, more only past 900 packs or
+    deployments to read as records): every record read as plain values except the few the
+    state names."""
     inputs = {unit.pk: UnitInputs() for unit in units}
-    _read_deployments(inputs)
-    positions = {p.pk for unit in units for p in unit.variant.anode_positions.all()}
-    _read_visits(inputs, sorted(positions))
-    _read_tests(inputs)
+    ids = list(inputs)
+    for rows, put, unit_path in _READERS:
+        for unit_id, group in _by_unit(rows(Q(**{f"{unit_path}__in": ids}))):
+            put(inputs[unit_id], group)
+    _read_records(inputs)
     return inputs
 
 
-def _read_deployments(inputs: dict[int, UnitInputs]) -> None:
-    """The fitted pack, every deployment's span, and the deployments the state needs."""
-    unit_ids = list(inputs)
-    for install in BatteryInstall.objects.filter(
-        unit_id__in=unit_ids, removal__isnull=True
-    ).order_by("unit_id", *_FITTED_PACK_ORDER):
-        if inputs[install.unit_id].pack is None:
+@dataclass(slots=True)
+class _Pass:
+    """One kind of record read in one ordered pass: its rows grouped by unit, and the next
+    unit's group, not yet handed out."""
+
+    groups: Iterator[tuple[int, Iterator[tuple[Any, ...]]]]
+    put: Callable[[UnitInputs, Iterator[tuple[Any, ...]]], None]
+    head: tuple[int, Iterator[tuple[Any, ...]]] | None = None
+
+    def __post_init__(self) -> None:
+        self.head = next(self.groups, None)
+
+    def give(self, inputs: dict[int, UnitInputs], last: int) -> None:
+        """Put the rows of every unit up to ``last`` (by id) in ``inputs``."""
+        while self.head is not None and self.head[0] <= last:
+            unit_inputs = inputs.get(self.head[0])
+            if unit_inputs is not None:  # else a unit not asked for (added since the pass began)
+                self.put(unit_inputs, self.head[1])
+            self.head = next(self.groups, None)
+
+
+class FleetInputs:
+    """The inputs of every unit, read in one ordered pass per kind of record (each query run
+    once for the whole fleet, its rows fetched a batch at a time: a server-side cursor on
+    PostgreSQL) and handed out by chunks of units in increasing id order (``read``: the same
+    inputs as ``read_inputs`` gives for the chunk). Open it inside the transaction that has
+    locked the units: its reads see the records as they are then."""
+
+    FETCH = 2000  # rows fetched at a time from each pass
+
+    def __init__(self) -> None:
+        self._passes = [
+            _Pass(_by_unit(rows(Q()).iterator(chunk_size=self.FETCH)), put)
+            for rows, put, _ in _READERS
+        ]
+
+    def read(self, units: list[Transponder]) -> dict[int, UnitInputs]:
+        """The inputs of ``units``, which come after every unit read before (by id)."""
+        inputs = {unit.pk: UnitInputs() for unit in units}
+        if inputs:
+            last = max(inputs)
+            for one_pass in self._passes:
+                one_pass.give(inputs, last)
+        _read_records(inputs)
+        return inputs
+
+
+def _read_records(inputs: dict[int, UnitInputs]) -> None:
+    """The records the state names: the fitted pack, and the deployments it needs."""
+    packs = [i.pack_pk for i in inputs.values() if i.pack_pk is not None]
+    for batch in _in_batches(packs):
+        for install in BatteryInstall.objects.filter(pk__in=batch):
             inputs[install.unit_id].pack = install
-    for unit_id, *span in (
-        Deployment.objects.filter(unit_id__in=unit_ids)
-        .order_by("unit_id", "over_side_at", "pk")
-        .values_list("unit_id", "pk", Instant("over_side_at"), Instant("recovered_at"))
-    ):
-        inputs[unit_id].spans.append(tuple(span))
     wanted = [pk for i in inputs.values() for pk in _needed(i.spans, i.pack)]
     for batch in _in_batches(wanted):
         for deployment in (
@@ -289,53 +457,6 @@ def _read_deployments(inputs: dict[int, UnitInputs]) -> None:
             .order_by("unit_id", "over_side_at", "pk")
         ):
             inputs[deployment.unit_id].deployments.append(deployment)
-
-
-def _read_visits(inputs: dict[int, UnitInputs], positions: list[int]) -> None:
-    """The visits, the anode readings at ``positions``, seal changes and housing openings."""
-    unit_ids = list(inputs)
-    for unit_id, pk, opened in (
-        ServiceRecord.objects.filter(unit_id__in=unit_ids)
-        .order_by("unit_id", "pk")
-        .values_list("unit_id", "pk", Instant("opened_at"))
-    ):
-        inputs[unit_id].visits[pk] = opened
-    for unit_id, *reading in (
-        AnodeReading.objects.filter(record__unit_id__in=unit_ids)
-        .alias(position_no=F("position_id") + 0)  # as ``unit_readings``: through the visits
-        .filter(position_no__in=positions)
-        .order_by("record__unit_id", "record__opened_at", "pk")
-        .values_list("record__unit_id", *_reading_columns())
-    ):
-        inputs[unit_id].readings.append(tuple(reading))
-    for unit_id, changes in _seal_changes(unit_ids).items():
-        inputs[unit_id].seal_changes = changes
-    for unit_id, *opening in (
-        HousingOpening.objects.filter(record__unit_id__in=unit_ids)
-        .order_by("record__unit_id", "opened_at", "pk")
-        .values_list("record__unit_id", "opened_at", "record__opened_at")
-    ):
-        inputs[unit_id].openings.append(tuple(opening))  # type: ignore[arg-type]
-
-
-def _read_tests(inputs: dict[int, UnitInputs]) -> None:
-    """Release tests (latest first), the last pressure test, and sensor checks."""
-    unit_ids = list(inputs)
-    for unit_id, pk, tested_on in (
-        ReleaseTest.objects.filter(record__unit_id__in=unit_ids)
-        .order_by("record__unit_id", *_RELEASE_ORDER)
-        .values_list("record__unit_id", "pk", "tested_on")
-    ):
-        inputs[unit_id].release_tests.append((pk, tested_on))
-    for unit_id, *test in (
-        PressureTest.objects.filter(record__unit_id__in=unit_ids)
-        .order_by("record__unit_id", *_PRESSURE_ORDER)
-        .values_list("record__unit_id", "pk", "tested_on", "hold_ended_at", "record__opened_at")
-    ):
-        if inputs[unit_id].last_pressure_test is None:
-            inputs[unit_id].last_pressure_test = tuple(test)  # type: ignore[assignment]
-    for unit_id, checks in _checks(unit_ids).items():
-        inputs[unit_id].checks = checks
 
 
 # --- the derivation -----------------------------------------------------------------------
@@ -352,11 +473,17 @@ def _anode_rows(
     immersed days found in one pass. Each row also keeps its base: the same over every
     visit but the latest, from which a save of that visit starts."""
     new_kg = _new_kg(unit)
-    readings = [r for r in all_readings if r[0] in new_kg]
     x_at = dict(zip(visits, immersed_days_at_each(intervals, visits.values()), strict=True))
     latest = max(visits, key=lambda pk: (visits[pk], pk), default=None)
+    readings: list[tuple[Any, ...]] = []
+    earlier: list[tuple[Any, ...]] = []  # the readings of every visit but the latest
+    at_latest: list[tuple[Any, ...]] = []
+    for r in all_readings:
+        if r[0] in new_kg:
+            readings.append(r)
+            (at_latest if r[5] == latest else earlier).append(r)
     anodes = {pk: _Anode(kg) for pk, kg in new_kg.items()}
-    _walk(anodes, [r for r in readings if r[5] != latest], visits, x_at)
+    _walk(anodes, earlier, visits, x_at)
     bases = {pk: anode.settled() for pk, anode in anodes.items()}
     latest_at = visits.get(latest) if latest is not None else None
     if any(at == latest_at for pk, at in visits.items() if pk != latest):
@@ -365,7 +492,7 @@ def _anode_rows(
         anodes = {pk: _Anode(kg) for pk, kg in new_kg.items()}
         _walk(anodes, readings, visits, x_at)
     else:
-        _walk(anodes, [r for r in readings if r[5] == latest], visits, x_at)
+        _walk(anodes, at_latest, visits, x_at)
     rows = []
     for pk, anode in anodes.items():
         row = AnodeState(unit=unit, position_id=pk, base_visit_pk=latest)
@@ -533,12 +660,18 @@ def write_derived(unit_ids: list[int], derived: list[Derived]) -> None:
     insert_instances([r for d in derived for r in d.seals])
 
 
-def refresh_states(units: list[Transponder], *, at: dt.datetime) -> list[Derived]:
+def refresh_states(
+    units: list[Transponder],
+    *,
+    at: dt.datetime,
+    read: Callable[[list[Transponder]], dict[int, UnitInputs]] = read_inputs,
+) -> list[Derived]:
     """Derive every unit's state rows again from its whole history and write them: the
     inputs read for all of ``units`` at once, each unit derived alone (``derive``, as for
     one unit), the rows written in bulk. Run inside a transaction that locks the units.
-    The rows written, in the order of ``units``."""
-    inputs = read_inputs(units)
+    The rows written, in the order of ``units``. ``read``: ``read_inputs``, or a whole
+    fleet's ``FleetInputs.read``."""
+    inputs = read(units)
     derived = [derive(unit, inputs[unit.pk], at=at) for unit in units]
     write_derived([unit.pk for unit in units], derived)
     return derived

@@ -1,7 +1,8 @@
 """Recompute every unit's derived state (anode wear sums, seal openings, battery tally, last
 tests) and its stored due items from the records. The write services keep both current;
 run this after a bulk import, a restore or a change of the settings' rules, or to prove
-nothing differs (``--check``: exits non-zero on any difference)."""
+nothing differs (``--check``: exits non-zero on any difference). Either runs in one
+transaction with every unit locked: writes wait for it (on SQLite, up to its busy timeout)."""
 
 from typing import Any
 

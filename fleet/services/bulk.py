@@ -20,6 +20,7 @@ field with its own placeholder or a database default) goes through ``bulk_create
 
 from __future__ import annotations
 
+import functools
 from collections.abc import Callable, Sequence
 from typing import Any, TypeVar
 
@@ -78,17 +79,22 @@ def _converter(field: models.Field[Any, Any], connection: BaseDatabaseWrapper) -
     return convert
 
 
+def reads_as_given(field: models.Field[Any, Any]) -> bool:
+    """Whether an INSERT takes the field's value as the object holds it (its class defines
+    no ``pre_save`` that may change it: no stamp, no file)."""
+    own = type(field).pre_save
+    stamps = getattr(field, "auto_now", False) or getattr(field, "auto_now_add", False)
+    return own is models.Field.pre_save or (
+        own in (models.DateField.pre_save, models.DateTimeField.pre_save, models.TimeField.pre_save)
+        and not stamps
+    )
+
+
 def _reader(field: models.Field[Any, Any]) -> Callable[[models.Model], Any]:
     """The value an INSERT takes from an object: the field's ``pre_save`` where its class
     defines one that may change it, else the attribute."""
     attname = field.attname
-    own = type(field).pre_save
-    stamps = getattr(field, "auto_now", False) or getattr(field, "auto_now_add", False)
-    plain = own is models.Field.pre_save or (
-        own in (models.DateField.pre_save, models.DateTimeField.pre_save, models.TimeField.pre_save)
-        and not stamps
-    )
-    if plain:
+    if reads_as_given(field):
         return lambda obj: getattr(obj, attname)
     return lambda obj: field.pre_save(obj, True)
 
@@ -181,19 +187,128 @@ def insert_plain(
     model: type[models.Model], names: Sequence[str], rows: Sequence[Sequence[Any]]
 ) -> None:
     """Insert plain parameter rows (values ready for the database, in the order of ``names``,
-    no key wanted back), ``len(rows)`` at a time: one array a column on PostgreSQL (``UNNEST``,
-    as Django's bulk insert sends them), else one statement run for each row (``executemany``)."""
+    no key wanted back): on PostgreSQL by ``COPY`` (the driver writes each value; the same
+    checks, keys and triggers as an INSERT), else one statement run for each row
+    (``executemany``)."""
     if not rows:
         return
     connection = transaction.get_connection()
     meta = model._meta
     fields: list[Any] = [meta.get_field(name) for name in names]
     quote = connection.ops.quote_name
-    head = f"INSERT INTO {quote(meta.db_table)} ({', '.join(quote(f.column) for f in fields)})"
+    table, columns = quote(meta.db_table), ", ".join(quote(f.column) for f in fields)
     with connection.cursor() as cursor:
-        if len(rows) > 1 and _by_columns(connection, fields):
-            arrays = ", ".join(f"(%s)::{f.db_type(connection).split('(')[0]}[]" for f in fields)
-            columns = [list(column) for column in zip(*rows, strict=True)]
-            cursor.execute(f"{head} SELECT * FROM UNNEST({arrays})", columns)
+        if connection.vendor == "postgresql":
+            with cursor.cursor.copy(f"COPY {table} ({columns}) FROM STDIN") as copy:
+                for row in rows:
+                    copy.write_row(row)
         else:
-            cursor.executemany(f"{head} VALUES ({', '.join(['%s'] * len(fields))})", rows)
+            marks = ", ".join(["%s"] * len(fields))
+            cursor.executemany(f"INSERT INTO {table} ({columns}) VALUES ({marks})", rows)
+
+
+def insert_rows(
+    model: type[models.Model], rows: Sequence[dict[str, Any]], *, batch_size: int
+) -> list[int]:
+    """Insert new rows of ``model`` given as plain values by attribute name (``record_id``,
+    ``mass_g``), not as objects, and return their new keys in the rows' order.
+
+    Each value is converted by its field as ``insert_new`` converts it. A field missing from
+    a row stores what a new object stores: its default (called again for each row where it
+    is callable, a fresh ``uid``), or else the value a blank object's field gives an INSERT
+    (an empty file field, for instance). A given value must be a field's own: a field whose
+    ``pre_save`` may change it (a stamp, a file) is refused.
+
+    PostgreSQL: the keys are drawn from the table's sequence in one query and the rows sent
+    with them by ``COPY`` (the driver writes each value; the same checks, constraints and
+    triggers as an INSERT). SQLite: INSERTs of ``batch_size`` rows at most (as ``insert_new``
+    bounds them), the keys read back by ``RETURNING``."""
+    if not rows:
+        return []
+    connection = transaction.get_connection()
+    meta = model._meta
+    pk = meta.pk
+    if not isinstance(pk, models.AutoField | models.BigAutoField | models.SmallAutoField):
+        raise ValueError(f"{model.__name__}: insert_rows needs an automatic primary key.")
+    fields = [f for f in meta.concrete_fields if f is not pk]
+    given = set().union(*(row.keys() for row in rows))
+    fill = _fillers(model, fields, given, connection)
+    converters = [_converter(f, connection) for f in fields]
+    names = [f.attname for f in fields]
+    values = [
+        [
+            convert(row[name]) if name in row else filler()
+            for name, convert, filler in zip(names, converters, fill, strict=True)
+        ]
+        for row in rows
+    ]
+    if connection.vendor == "postgresql":
+        return _copy_with_keys(connection, model, fields, values)
+    keys: list[int] = []
+    batch_size = max(1, min(batch_size, connection.ops.bulk_batch_size(fields, rows)))
+    statements: dict[int, str] = {}
+    for start in range(0, len(values), batch_size):
+        batch = values[start : start + batch_size]
+        size = len(batch)
+        if size not in statements:
+            statements[size] = _statement(connection, model, fields, size)
+        with connection.cursor() as cursor:
+            cursor.execute(statements[size], [value for row in batch for value in row])
+            keys.extend(found[0] for found in cursor.fetchall())
+    return keys
+
+
+def _fillers(
+    model: type[models.Model],
+    fields: list[models.Field[Any, Any]],
+    given: set[str],
+    connection: BaseDatabaseWrapper,
+) -> list[Callable[[], Any]]:
+    """For each field, what a row that does not give it stores."""
+    blank = model()
+    fill: list[Callable[[], Any]] = []
+    for f in fields:
+        if f.attname in given and not reads_as_given(f):
+            raise ValueError(f"{model.__name__}.{f.name} is set on save; give an object.")
+        if not reads_as_given(f):
+            fill.append(functools.partial(_saved, f, blank, connection))
+        elif f.has_default() and callable(f.default):
+            fill.append(functools.partial(_fresh_default, f, connection))
+        else:
+            stored = f.get_db_prep_save(getattr(blank, f.attname), connection)
+            fill.append(functools.partial(_same, stored))
+    return fill
+
+
+def _saved(field: Any, blank: models.Model, connection: BaseDatabaseWrapper) -> Any:
+    return field.get_db_prep_save(field.pre_save(blank, True), connection)
+
+
+def _fresh_default(field: Any, connection: BaseDatabaseWrapper) -> Any:
+    return field.get_db_prep_save(field.get_default(), connection)
+
+
+def _same(value: Any) -> Any:
+    return value
+
+
+def _copy_with_keys(
+    connection: BaseDatabaseWrapper,
+    model: type[models.Model],
+    fields: list[models.Field[Any, Any]],
+    values: list[list[Any]],
+) -> list[int]:
+    meta = model._meta
+    quote = connection.ops.quote_name
+    table, key = meta.db_table, str(meta.pk.column)
+    with connection.cursor() as cursor:
+        cursor.execute(
+            "SELECT nextval(pg_get_serial_sequence(%s, %s)) FROM generate_series(1, %s)",
+            [table, key, len(values)],
+        )
+        keys = sorted(found[0] for found in cursor.fetchall())
+        columns = ", ".join(quote(c) for c in [key, *(str(f.column) for f in fields)])
+        with cursor.cursor.copy(f"COPY {quote(table)} ({columns}) FROM STDIN") as copy:
+            for found, row in zip(keys, values, strict=True):
+                copy.write_row([found, *row])
+    return keys

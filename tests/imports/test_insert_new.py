@@ -1,5 +1,7 @@
 """``insert_new`` (the bulk import's INSERT, written once) stores the same rows as Django's
-``bulk_create`` with the same batch size, in as many statements, and refuses what it refuses."""
+``bulk_create`` with the same batch size, in as many statements, and refuses what it refuses.
+On PostgreSQL the statement counted for a batch is its key query: the ``COPY`` that sends its
+rows goes to the driver's cursor, which Django does not log."""
 
 import datetime as dt
 

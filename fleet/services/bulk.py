@@ -28,7 +28,9 @@ field with its own placeholder or a database default) goes through ``bulk_create
 from __future__ import annotations
 
 import functools
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Iterator, Sequence
+from contextlib import contextmanager
+from contextvars import ContextVar
 from typing import Any, TypeVar
 
 from django.db import models, transaction
@@ -295,13 +297,44 @@ def _copy_with_keys(
     quote = connection.ops.quote_name
     table, key = meta.db_table, str(meta.pk.column)
     with connection.cursor() as cursor:
-        cursor.execute(
-            "SELECT nextval(pg_get_serial_sequence(%s, %s)) FROM generate_series(1, %s)",
-            [table, key, len(values)],
-        )
-        keys = sorted(found[0] for found in cursor.fetchall())
+        keys = _keys(cursor, table, key, len(values))
         columns = ", ".join(quote(c) for c in [key, *(str(f.column) for f in fields)])
         with cursor.cursor.copy(f"COPY {quote(table)} ({columns}) FROM STDIN") as copy:
             for found, row in zip(keys, values, strict=True):
                 copy.write_row([found, *row])
+    return keys
+
+
+# Keys drawn ahead within ``drawing_keys_ahead``: table -> keys drawn and not yet used.
+_drawn: ContextVar[dict[str, list[int]] | None] = ContextVar("holdfast_drawn_keys", default=None)
+KEYS_AHEAD = 5000
+
+
+@contextmanager
+def drawing_keys_ahead() -> Iterator[None]:
+    """Within this, PostgreSQL keys for new rows are drawn from each table's sequence at
+    least ``KEYS_AHEAD`` at a time and the rest kept for the next batch: a bulk write of many
+    small batches (the import, one unit's visits at a time) asks the database for keys a few
+    times instead of once a batch. A sequence never hands out a key twice, so a key drawn and
+    not used is only a gap, as a rolled-back insert leaves one."""
+    token = _drawn.set({})
+    try:
+        yield
+    finally:
+        _drawn.reset(token)
+
+
+def _keys(cursor: Any, table: str, key: str, count: int) -> list[int]:
+    """``count`` new keys of ``table`` from its sequence, in increasing order."""
+    drawn = _drawn.get()
+    ahead = drawn.setdefault(table, []) if drawn is not None else []
+    if len(ahead) < count:
+        wanted = count - len(ahead) + (KEYS_AHEAD if drawn is not None else 0)
+        cursor.execute(
+            "SELECT nextval(pg_get_serial_sequence(%s, %s)) FROM generate_series(1, %s)",
+            [table, key, wanted],
+        )
+        ahead.extend(sorted(found[0] for found in cursor.fetchall()))
+    keys = ahead[:count]
+    del ahead[:count]
     return keys

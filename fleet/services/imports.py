@@ -51,7 +51,7 @@ from fleet.models import (
 from fleet.models.records import Entry, EntryValues, PackRemoval, check_entry_values
 from fleet.models.validators import DATE_VALIDATORS
 from fleet.selectors import previous_anode_masses
-from fleet.services.bulk import insert_plain
+from fleet.services.bulk import drawing_keys_ahead, insert_plain
 from fleet.services.deployments import backfill_refusal, deployment_backfill
 from fleet.services.records import PastVisit, check_can_open_record, service_records_import
 from fleet.services.reference import site_save, unit_save
@@ -598,8 +598,8 @@ def _flush(run: _Run) -> None:
         for v in visits
     ]
     try:
-        with transaction.atomic():
-            service_records_import(unit_id=visits[0].record.unit_id, visits=past, by=run.by)
+        # The service is atomic: a unit it refuses leaves nothing (its savepoint rolled back).
+        service_records_import(unit_id=visits[0].record.unit_id, visits=past, by=run.by)
     except ValidationError as exc:
         # Say which row: check the visits' rows one by one; else the service's own words.
         before = len(run.outcome.problems)
@@ -805,7 +805,7 @@ def import_commit(
     """Write the file through the services, all or nothing: raises ``ImportRefusedError`` (and
     writes nothing) if any row is bad, the file was imported before, or rows are flagged
     (``Outcome.flagged``) and ``accept_flagged`` is not given."""
-    with refreshing_once(at=timezone.now()):
+    with refreshing_once(at=timezone.now()), drawing_keys_ahead():
         outcome = _run_file(
             kind=kind,
             data=data,

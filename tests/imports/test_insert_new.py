@@ -176,3 +176,33 @@ def test_rows_given_as_values_refuse_a_field_written_on_save(unit, technician):
     row = {"record_id": record.pk, "position_id": position.pk, "mass_g": 1.0, "photo": "a.jpg"}
     with pytest.raises(ValueError, match="photo is set on save"):
         insert_rows(AnodeReading, [row], batch_size=10)
+
+
+@pytest.mark.skipif(connection.vendor != "postgresql", reason="keys come from RETURNING on SQLite")
+def test_keys_drawn_ahead_serve_later_batches_without_asking_again(unit, technician):
+    from fleet.models import AnodeReading
+    from fleet.services import bulk
+
+    record = make_record(unit=unit, by=technician)
+    position = unit.variant.anode_positions.first()
+
+    def rows(count: int) -> list[dict]:
+        return [
+            {"record_id": record.pk, "position_id": position.pk, "mass_g": float(n)}
+            for n in range(count)
+        ]
+
+    with bulk.drawing_keys_ahead():
+        with CaptureQueriesContext(connection) as first:
+            keys = bulk.insert_rows(AnodeReading, rows(3), batch_size=2)
+        with CaptureQueriesContext(connection) as later:
+            keys += bulk.insert_rows(AnodeReading, rows(4), batch_size=10)
+    outside = bulk.insert_rows(AnodeReading, rows(1), batch_size=10)
+
+    assert [q["sql"].startswith("SELECT nextval") for q in first.captured_queries] == [True]
+    assert later.captured_queries == []
+    assert keys == sorted(keys) and len(set(keys)) == 7
+    stored = AnodeReading.objects.filter(record=record).order_by("pk")
+    assert list(stored.values_list("pk", flat=True)) == [*keys, *outside]
+    assert outside[0] not in keys
+    assert [r.mass_g for r in stored] == [0.0, 1.0, 2.0, 0.0, 1.0, 2.0, 3.0, 0.0]

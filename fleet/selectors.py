@@ -3,7 +3,7 @@ queries it makes; tests/test_selectors.py holds it to that."""
 
 import datetime as dt
 from collections import defaultdict
-from collections.abc import Iterable, Mapping, Sequence
+from collections.abc import Collection, Iterable, Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any, TypeVar
 
@@ -64,20 +64,40 @@ def previous_anode_mass(
     A reading marked *replaced* ends its anode: a new one went on after it, so readings up to
     and including it belong to the old anode. One query.
     """
+    return previous_anode_masses(
+        unit_id=unit_id,
+        position_ids=[position_id],
+        before=before,
+        exclude_record_id=exclude_record_id,
+    )[position_id]
+
+
+def previous_anode_masses(
+    *,
+    unit_id: int,
+    position_ids: Collection[int],
+    before: dt.datetime,
+    exclude_record_id: int | None = None,
+) -> dict[int, PreviousAnodeMass | None]:
+    """``previous_anode_mass`` of each of ``position_ids`` (the same ``before``), in one
+    query."""
     rows = AnodeReading.objects.filter(
-        record__unit_id=unit_id, position_id=position_id, record__opened_at__lt=before
+        record__unit_id=unit_id, position_id__in=position_ids, record__opened_at__lt=before
     )
     if exclude_record_id is not None:
         rows = rows.exclude(record_id=exclude_record_id)
     ordered = rows.order_by("-record__opened_at", "-pk").values_list(
-        "mass_g", "replaced", "record__opened_at"
+        "position_id", "mass_g", "replaced", "record__opened_at"
     )
-    for mass_g, replaced, opened_at in ordered:
+    found: dict[int, PreviousAnodeMass | None] = {}
+    for position_id, mass_g, replaced, opened_at in ordered:
+        if position_id in found:
+            continue
         if replaced:
-            return None
-        if mass_g is not None:
-            return PreviousAnodeMass(mass_g, timezone.localdate(opened_at))
-    return None
+            found[position_id] = None
+        elif mass_g is not None:
+            found[position_id] = PreviousAnodeMass(mass_g, timezone.localdate(opened_at))
+    return {position_id: found.get(position_id) for position_id in position_ids}
 
 
 # The unit page

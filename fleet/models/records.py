@@ -10,6 +10,8 @@ import datetime as dt
 import functools
 import math
 import operator
+from collections.abc import Mapping
+from dataclasses import dataclass
 from typing import Any, ClassVar, Self, cast
 
 from django.apps import apps
@@ -31,6 +33,7 @@ from .units import Transponder
 from .validators import (
     DATE_VALIDATORS,
     SUMMARY_MAX_CHARS,
+    RangeCheck,
     finite,
     range_checks,
 )
@@ -221,6 +224,26 @@ class Entry(Stamped):
         record = self.owning_record()
         return record.unit.variant_id if record is not None and record.unit_id else None
 
+    @classmethod
+    def value_errors(
+        cls, values: Mapping[str, Any], *, unit_variant_id: int | None
+    ) -> dict[str, str]:
+        """The rules of the kind's ``clean()`` on plain values (by field name, each key the
+        row it names), one message per field, for a kind whose ``clean()`` reads nothing but
+        its own values and its unit's variant: such a kind's ``clean()`` calls the same
+        function, and a bulk write may check its entries without building them
+        (``check_entry_values``). A kind that does not define it is checked as a model."""
+        raise NotImplementedError(f"{cls.__name__} is checked as a model (full_clean).")
+
+    @classmethod
+    def checked_as_values(cls) -> bool:
+        """Whether ``check_entry_values`` checks an entry of this kind as ``full_clean``
+        does: the kind defines ``value_errors``, and ``full_clean`` would check nothing
+        beyond the fields and ``clean()``: no unique field but the key and the ``uid`` (left
+        to the unique index, ``Stamped.validate_unique``), no constraint but range checks
+        (whose ``validate`` does nothing, ``RangeCheck``)."""
+        return _checked_as_values(cls)
+
 
 def _photo_path(instance: "AnodeReading", filename: str) -> str:
     return f"anodes/{instance.record.unit.serial}/{filename}"
@@ -295,21 +318,60 @@ class AnodeReading(Entry):
 
     def clean(self) -> None:
         super().clean()
-        errors: dict[str, str] = {}
-        if self.mass_g is None and self.remaining_percent is None:
-            errors["mass_g"] = "Give the net mass, the estimated remaining percentage, or both."
-        if self.position_id and self.mass_g is not None:
-            new_mass = self.position.new_net_mass_g
-            if self.mass_g > new_mass:
-                errors["mass_g"] = (
-                    f"{self.mass_g:g} g is heavier than a new anode at this position "
-                    f"({new_mass:g} g); allowed 0 to {new_mass:g} g."
-                )
-        variant_id = self.unit_variant_id()
-        if self.position_id and variant_id and self.position.variant_id != variant_id:
-            errors["position"] = "This anode position belongs to another variant."
+        position: AnodePosition | None = None
+        missing = False
+        if self.position_id:
+            try:
+                position = self.position
+            except AnodePosition.DoesNotExist:
+                missing = True
+        errors = anode_reading_errors(
+            mass_g=self.mass_g,
+            remaining_percent=self.remaining_percent,
+            position=position,
+            unit_variant_id=self.unit_variant_id(),
+        )
+        if missing:
+            errors["position"] = f"No anode position has the id {self.position_id}."
         if errors:
             raise ValidationError(errors)
+
+    @classmethod
+    def value_errors(
+        cls, values: Mapping[str, Any], *, unit_variant_id: int | None
+    ) -> dict[str, str]:
+        return anode_reading_errors(
+            mass_g=values.get("mass_g"),
+            remaining_percent=values.get("remaining_percent"),
+            position=values.get("position"),
+            unit_variant_id=unit_variant_id,
+        )
+
+
+def anode_reading_errors(
+    *,
+    mass_g: float | None,
+    remaining_percent: float | None,
+    position: AnodePosition | None,
+    unit_variant_id: int | None,
+) -> dict[str, str]:
+    """An anode reading's rules across its fields, one message per field, on plain values
+    (``position``: the position read from the database, None when none is given). The one
+    copy of them: ``AnodeReading.clean()`` and the bulk check of plain values
+    (``check_entry_values``) both call it."""
+    errors: dict[str, str] = {}
+    if mass_g is None and remaining_percent is None:
+        errors["mass_g"] = "Give the net mass, the estimated remaining percentage, or both."
+    if position is not None and mass_g is not None:
+        new_mass = position.new_net_mass_g
+        if mass_g > new_mass:
+            errors["mass_g"] = (
+                f"{mass_g:g} g is heavier than a new anode at this position "
+                f"({new_mass:g} g); allowed 0 to {new_mass:g} g."
+            )
+    if position is not None and unit_variant_id and position.variant_id != unit_variant_id:
+        errors["position"] = "This anode position belongs to another variant."
+    return errors
 
 
 class SealChange(Entry):
@@ -897,6 +959,73 @@ class PackRemoval(Entry):
                 errors["install"] = "This pack was fitted to another unit."
         if errors:
             raise ValidationError(errors)
+
+
+@functools.cache
+def _checked_as_values(kind: type[Entry]) -> bool:
+    meta = kind._meta
+    return (
+        "value_errors" in vars(kind)
+        and not meta.unique_together
+        and all(isinstance(c, RangeCheck) for c in meta.constraints)
+        and all(f.primary_key or f.name == "uid" for f in meta.fields if f.unique)
+        and not any(
+            getattr(f, f"unique_for_{period}", None)
+            for f in meta.fields
+            for period in ("date", "month", "year")
+        )
+    )
+
+
+@dataclass(slots=True)
+class EntryValues:
+    """A new entry of ``kind`` held as plain values by field name (a key as the row it names,
+    read from the database; the record is given when it is written), for a bulk write that
+    checks and inserts many without a model instance each (``check_entry_values``,
+    ``fleet/services/bulk.py``'s ``insert_rows``). ``pk`` is set once it is written."""
+
+    kind: type[Entry]
+    values: dict[str, Any]
+    pk: int | None = None
+
+    def get(self, name: str) -> Any:
+        return self.values.get(name)
+
+    def instance(self) -> Entry:
+        """The same entry as a model instance (unsaved)."""
+        return self.kind(**self.values)
+
+
+def check_entry_values(
+    kind: type[Entry], values: dict[str, Any], *, unit_variant_id: int | None
+) -> None:
+    """``full_clean`` of an entry of ``kind`` (``checked_as_values``) holding ``values``,
+    without building it: raises the ``ValidationError`` it would raise, message for message.
+
+    A field not in ``values`` takes its default there, as a new instance would (a fresh
+    ``uid``). Then, as ``clean_fields``, each field but a key is put through its own
+    ``clean`` (its validators: finite, in range) unless blank and allowed blank, the cleaned
+    value kept; the keys are rows read from the database, which ``full_clean`` leaves to the
+    foreign key constraint too (``Stamped.clean_fields``). Then the kind's ``value_errors``,
+    the rule its ``clean()`` applies, with every field's value."""
+    errors: dict[str, list[ValidationError]] = {}
+    for f in kind._meta.fields:
+        if f.name not in values and not f.primary_key:
+            values[f.name] = f.get_default()
+        if f.is_relation or f.primary_key or f.generated:
+            continue
+        raw = values[f.name]
+        if f.blank and raw in f.empty_values:
+            continue
+        try:
+            values[f.name] = f.clean(raw, None)
+        except ValidationError as exc:
+            errors[f.name] = exc.error_list
+    rule = kind.value_errors(values, unit_variant_id=unit_variant_id)
+    if rule:
+        errors = ValidationError(rule).update_error_dict(errors)
+    if errors:
+        raise ValidationError(errors)
 
 
 def entry_kinds() -> tuple[type[Entry], ...]:

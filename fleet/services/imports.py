@@ -48,10 +48,10 @@ from fleet.models import (
     Transponder,
     Variant,
 )
-from fleet.models.records import Entry, PackRemoval
+from fleet.models.records import Entry, EntryValues, PackRemoval, check_entry_values
 from fleet.models.validators import DATE_VALIDATORS
-from fleet.selectors import previous_anode_mass
-from fleet.services.bulk import insert_plain
+from fleet.selectors import previous_anode_masses
+from fleet.services.bulk import drawing_keys_ahead, insert_plain
 from fleet.services.deployments import backfill_refusal, deployment_backfill
 from fleet.services.records import PastVisit, check_can_open_record, service_records_import
 from fleet.services.reference import site_save, unit_save
@@ -137,6 +137,7 @@ class _Run:
         self.pending: list[_Visit] = []
         # (unit, anode position) -> the last weighed mass of the anode fitted there, as the
         # file's rows so far leave it (None: not weighed since it was fitted).
+        # (The day: a date from the database; a visit's moment for a row of the file.)
         self.anode_mass: dict[tuple[int, int], tuple[float, dt.date] | None] = {}
         # Read off the models once a run, not once a row (they do not change while it runs).
         self.visit_columns = _visit_columns()
@@ -200,11 +201,11 @@ class _Run:
             for message in exc.messages:
                 self.problem(row, default, message)
 
-    def link(self, instance: models.Model, row: int) -> None:
-        model = type(instance)
+    def link(self, instance: models.Model | EntryValues, row: int) -> None:
+        model = instance.kind if isinstance(instance, EntryValues) else type(instance)
         if model not in self.type_ids:
             self.type_ids[model] = ContentType.objects.get_for_model(model).pk
-        self.links.append((self.type_ids[model], instance.pk, row))
+        self.links.append((self.type_ids[model], cast(int, instance.pk), row))
 
     def find(self, model: type[models.Model], **lookup: object) -> models.Model | None:
         key = (model, *sorted(lookup.items()))
@@ -414,7 +415,12 @@ class _Visit:
     row: int
     record: ServiceRecord
     closed_at: dt.datetime
-    entries: list[tuple[int, Entry]] = field(default_factory=list)
+    # A kind ``checked_as_values`` (anode readings) as plain values, any other as a model.
+    entries: list[tuple[int, Entry | EntryValues]] = field(default_factory=list)
+
+
+def _kind_of(entry: Entry | EntryValues) -> type[Entry]:
+    return entry.kind if isinstance(entry, EntryValues) else type(entry)
 
 
 _VISIT_COLUMN = {name: f for name, f in cols.VISIT_FIELDS}
@@ -425,7 +431,9 @@ def _visit_columns() -> list[cols.Column]:
     return [c for c in cols.visit_columns() if c.name in _VISIT_COLUMN]
 
 
-def _entry(run: _Run, row: int, cells: Mapping[str, str], record: ServiceRecord) -> Entry | None:
+def _entry(
+    run: _Run, row: int, cells: Mapping[str, str], record: ServiceRecord
+) -> Entry | EntryValues | None:
     try:
         kind = run.entry_kind(cells.get(cols.ENTRY_COLUMN, ""))
     except parsing.CellError as exc:
@@ -440,6 +448,9 @@ def _entry(run: _Run, row: int, cells: Mapping[str, str], record: ServiceRecord)
     values, good = _values(run, row, kind, columns, cells, unit=record.unit)
     if not good or stray:
         return None
+    if kind.checked_as_values():
+        # Checked and written without a model instance each, by the same rules.
+        return EntryValues(kind, values)
     entry = kind(**values)
     entry.record = record
     if isinstance(entry, BatteryInstall):
@@ -506,7 +517,13 @@ def _check_visit(run: _Run, visit: _Visit) -> bool:
             run.refusal(visit.row, exc, {}, "unit")
     _full_clean(run, visit.row, record, _VISIT_NAMES, "visit_opened_at")
     for row, entry in visit.entries:
-        names = {c.field: c.name for c in run.columns_of(type(entry))}
+        names = {c.field: c.name for c in run.columns_of(_kind_of(entry))}
+        if isinstance(entry, EntryValues):
+            try:
+                check_entry_values(entry.kind, dict(entry.values), unit_variant_id=unit.variant_id)
+            except ValidationError as exc:
+                run.refusal(row, exc, names, cols.ENTRY_COLUMN)
+            continue
         _full_clean(run, row, entry, names, cols.ENTRY_COLUMN)
     return len(run.outcome.problems) == before
 
@@ -514,34 +531,52 @@ def _check_visit(run: _Run, visit: _Visit) -> bool:
 def _flag_heavier(run: _Run, visit: _Visit) -> None:
     """Flag each anode reading heavier than the last reading of the same anode (from the
     database, or an earlier row of the file): an anode only loses mass, so it is likely a
-    misread or another anode, as the bench-visit form asks. One query per unit and position
-    the file names, the first time."""
+    misread or another anode, as the bench-visit form asks. One query per visit that names
+    a position of its unit the file has not named before."""
     record = visit.record
-    on = timezone.localdate(record.opened_at)
-    for row, entry in visit.entries:
-        if not isinstance(entry, AnodeReading):
-            continue
-        key = (record.unit_id, entry.position_id)
-        if key not in run.anode_mass:
-            found = previous_anode_mass(
-                unit_id=record.unit_id, position_id=entry.position_id, before=record.opened_at
+    readings = [(row, e) for row, e in visit.entries if _kind_of(e) is AnodeReading]
+    new = [
+        position
+        for _, e in readings
+        if (record.unit_id, position := _reading_value(e, "position_id")) not in run.anode_mass
+    ]
+    if new:
+        found = previous_anode_masses(
+            unit_id=record.unit_id, position_ids=new, before=record.opened_at
+        )
+        for position, previous in found.items():
+            run.anode_mass[(record.unit_id, position)] = (
+                (previous.mass_g, previous.on) if previous is not None else None
             )
-            run.anode_mass[key] = (found.mass_g, found.on) if found is not None else None
+    for row, entry in readings:
+        key = (record.unit_id, _reading_value(entry, "position_id"))
+        mass_g = _reading_value(entry, "mass_g")
         last = run.anode_mass[key]
-        if entry.mass_g is not None and last is not None and entry.mass_g > last[0]:
+        if mass_g is not None and last is not None and mass_g > last[0]:
+            # A reading of the file keeps its visit's moment; its day is read when shown.
+            on = last[1]
+            day = timezone.localdate(on) if isinstance(on, dt.datetime) else on
             run.outcome.flagged.append(
                 Problem(
                     row,
                     "mass_g",
-                    f"{entry.mass_g:g} g is heavier than this anode's last reading "
-                    f"({last[0]:g} g on {last[1]}); an anode only loses mass. Check it is "
+                    f"{mass_g:g} g is heavier than this anode's last reading "
+                    f"({last[0]:g} g on {day}); an anode only loses mass. Check it is "
                     "the same anode and the reading is right.",
                 )
             )
-        if entry.replaced:
+        if _reading_value(entry, "replaced"):
             run.anode_mass[key] = None
-        elif entry.mass_g is not None:
-            run.anode_mass[key] = (entry.mass_g, on)
+        elif mass_g is not None:
+            run.anode_mass[key] = (mass_g, record.opened_at)
+
+
+def _reading_value(entry: Entry | EntryValues, name: str) -> Any:
+    if not isinstance(entry, EntryValues):
+        return getattr(entry, name)
+    if name == "position_id":
+        return entry.values["position"].pk
+    return entry.values.get(name)
 
 
 def _forget_keys(instance: models.Model) -> None:
@@ -563,8 +598,8 @@ def _flush(run: _Run) -> None:
         for v in visits
     ]
     try:
-        with transaction.atomic():
-            service_records_import(unit_id=visits[0].record.unit_id, visits=past, by=run.by)
+        # The service is atomic: a unit it refuses leaves nothing (its savepoint rolled back).
+        service_records_import(unit_id=visits[0].record.unit_id, visits=past, by=run.by)
     except ValidationError as exc:
         # Say which row: check the visits' rows one by one; else the service's own words.
         before = len(run.outcome.problems)
@@ -575,7 +610,10 @@ def _flush(run: _Run) -> None:
                 entry.pk = None
         for visit in visits:
             for _, entry in visit.entries:
-                _forget_keys(entry)
+                if isinstance(entry, EntryValues):
+                    entry.values.pop("record", None)
+                else:
+                    _forget_keys(entry)
             _check_visit(run, visit)
         if len(run.outcome.problems) == before:
             run.refusal(visits[0].row, exc, _VISIT_NAMES, "visit_opened_at")
@@ -606,7 +644,7 @@ def _one_visit(run: _Run, group: list[tuple[int, dict[str, str]]]) -> None:
         return
     run.counts["bench visits"] += 1
     for _, entry in visit.entries:
-        run.counts[str(type(entry)._meta.verbose_name_plural)] += 1
+        run.counts[str(_kind_of(entry)._meta.verbose_name_plural)] += 1
 
 
 def _run_visits(run: _Run, table: parsing.Table) -> None:
@@ -767,7 +805,7 @@ def import_commit(
     """Write the file through the services, all or nothing: raises ``ImportRefusedError`` (and
     writes nothing) if any row is bad, the file was imported before, or rows are flagged
     (``Outcome.flagged``) and ``accept_flagged`` is not given."""
-    with refreshing_once(at=timezone.now()):
+    with refreshing_once(at=timezone.now()), drawing_keys_ahead():
         outcome = _run_file(
             kind=kind,
             data=data,

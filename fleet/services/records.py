@@ -17,7 +17,7 @@ from django.contrib.auth.models import User
 from django.contrib.contenttypes.models import ContentType
 from django.core.exceptions import PermissionDenied, ValidationError
 from django.db import transaction
-from django.db.models import ForeignKey, Model, Q, QuerySet
+from django.db.models import Field, ForeignKey, Model, Q, QuerySet
 from django.utils import timezone
 
 from fleet import roles
@@ -36,8 +36,14 @@ from fleet.models import (
     Transponder,
     UnitHold,
 )
-from fleet.models.records import Entry, amendable_field, entry_kinds
-from fleet.services.bulk import insert_new
+from fleet.models.records import (
+    Entry,
+    EntryValues,
+    amendable_field,
+    check_entry_values,
+    entry_kinds,
+)
+from fleet.services.bulk import insert_new, insert_rows, reads_as_given
 
 # The record's own field an amendment may correct; each entry kind lists its own
 # (``Entry.amendable_fields``).
@@ -199,7 +205,7 @@ def _remove_fitted_pack(record: ServiceRecord, removed_on: dt.date, ocv_v: float
 RECORD_EDITABLE_FIELDS: tuple[str, ...] = ("opened_at", "technician", "place", "summary")
 
 
-def _entry_order(entry: Entry) -> int:
+def _entry_order(entry: Entry | EntryValues) -> int:
     # Removals first: a new pack then replaces only a pack no removal has taken out yet.
     return 0 if isinstance(entry, PackRemoval) else 1
 
@@ -376,18 +382,26 @@ def _take_saved_keys(instance: Model) -> None:
 @dataclass(frozen=True, slots=True)
 class PastVisit:
     """A bench visit of the past, to be written closed: the record (unsaved), its entries
-    (unsaved) and when it closed."""
+    (unsaved, as models or, for a kind ``checked_as_values``, as plain values) and when it
+    closed."""
 
     record: ServiceRecord
-    entries: Sequence[Entry]
+    entries: Sequence[Entry | EntryValues]
     closed_at: dt.datetime
 
 
-def _close_refusal(record: ServiceRecord, entries: Sequence[Entry], at: dt.datetime) -> str:
+def _close_refusal(
+    record: ServiceRecord, entries: Sequence[Entry | EntryValues], at: dt.datetime
+) -> str:
     """``service_record_close``'s checks, on a visit held in memory ("" when it may close)."""
     if at < record.opened_at:
         return "A record cannot close before it opened."
-    still_open = [e for e in entries if isinstance(e, HousingOpening) and e.closed_at is None]
+    openings = [
+        e.instance() if isinstance(e, EntryValues) else e
+        for e in entries
+        if (e.kind if isinstance(e, EntryValues) else type(e)) is HousingOpening
+    ]
+    still_open = [o for o in openings if isinstance(o, HousingOpening) and o.closed_at is None]
     if still_open:
         when = ", ".join(f"{timezone.localtime(o.opened_at):%Y-%m-%d %H:%M}" for o in still_open)
         return (
@@ -423,13 +437,24 @@ def _past_record(unit: Transponder, visit: PastVisit, by: User) -> ServiceRecord
     return record
 
 
-def _past_entries(visit: PastVisit, plain: dict[type[Entry], list[Entry]]) -> None:
+def _past_entries(
+    visit: PastVisit,
+    plain: dict[type[Entry], list[Entry]],
+    as_values: dict[type[Entry], list[EntryValues]],
+) -> None:
     """Check the visit's entries (its record is written by now): a pack fitted or taken out
     is written at once, in visit order, as the bench page writes it (a new pack replaces the
     fitted one, which later visits must see); the others are checked and kept in ``plain``
-    to be inserted together."""
+    (models) or ``as_values`` (plain values, checked by ``check_entry_values``, the same
+    checks and messages as ``full_clean``) to be inserted together."""
     record = visit.record
+    variant_id = record.unit.variant_id
     for entry in sorted(visit.entries, key=_entry_order):
+        if isinstance(entry, EntryValues):
+            entry.values["record"] = record
+            check_entry_values(entry.kind, entry.values, unit_variant_id=variant_id)
+            as_values.setdefault(entry.kind, []).append(entry)
+            continue
         entry.record = record
         _take_saved_keys(entry)
         if isinstance(entry, BatteryInstall | PackRemoval):
@@ -437,6 +462,30 @@ def _past_entries(visit: PastVisit, plain: dict[type[Entry], list[Entry]]) -> No
             continue
         entry.full_clean(exclude=_loaded_keys(entry))
         plain.setdefault(type(entry), []).append(entry)
+
+
+@functools.cache
+def _columns_of(kind: type[Entry]) -> tuple[tuple[Field[Any, Any], bool, bool], ...]:
+    """Each stored field of ``kind`` with whether an INSERT takes its value as given and
+    whether it is a key (read off the model once)."""
+    return tuple((f, reads_as_given(f), f.is_relation) for f in kind._meta.concrete_fields)
+
+
+def _row(entry: EntryValues) -> dict[str, Any]:
+    """The checked values of ``entry`` by attribute name, each key as its row's key. An
+    empty file field is left to ``insert_rows``, which stores what saving stores."""
+    row: dict[str, Any] = {}
+    values = entry.values
+    for f, as_given, key in _columns_of(entry.kind):
+        if f.name not in values:
+            continue
+        value = values[f.name]
+        if not as_given:
+            if value not in f.empty_values:
+                raise ValueError(f"{entry.kind.__name__}.{f.name} is written on save only.")
+            continue
+        row[f.attname] = value.pk if key and value is not None else value
+    return row
 
 
 @transaction.atomic
@@ -459,10 +508,15 @@ def service_records_import(*, unit_id: int, visits: Sequence[PastVisit], by: Use
     # PostgreSQL), which the entries need.
     insert_new(records, batch_size=IMPORT_BATCH)
     plain: dict[type[Entry], list[Entry]] = {}
+    as_values: dict[type[Entry], list[EntryValues]] = {}
     for visit in visits:
-        _past_entries(visit, plain)
+        _past_entries(visit, plain, as_values)
     for rows in plain.values():
         insert_new(rows, batch_size=IMPORT_BATCH)
+    for kind, entries in as_values.items():
+        keys = insert_rows(kind, [_row(e) for e in entries], batch_size=IMPORT_BATCH)
+        for entry, key in zip(entries, keys, strict=True):
+            entry.pk = key
     if fitted_packs(unit.pk).count() > 1:
         serials = ", ".join(fitted_packs(unit.pk).values_list("pack_serial", flat=True))
         raise ValidationError(

@@ -8,6 +8,7 @@ from django.utils import timezone
 from fleet.due.snapshot import rebuild_differences
 from fleet.imports.export import export_csv
 from fleet.models import ImportBatch, ImportedRow, ServiceRecord
+from fleet.models.records import EntryValues
 from fleet.services import imports as import_service
 from fleet.services import records as record_service
 from fleet.services.imports import import_commit
@@ -30,13 +31,17 @@ def _import_all(files: dict[str, str], by) -> None:
 def _one_visit_at_a_time(*, unit_id, visits, by) -> None:
     """The bench page's way: save each visit with its entries, then close it."""
     for visit in visits:
-        for entry in visit.entries:
+        # Entries held as plain values (anode readings) become the models the page saves.
+        entries = [e.instance() if isinstance(e, EntryValues) else e for e in visit.entries]
+        for entry in entries:
             # A pack taken out that an earlier visit of the file fitted: saved by now.
             install = getattr(entry, "install", None)
             if install is not None and entry.install_id is None:
                 entry.install_id = install.pk
-        record = service_record_save(record=visit.record, entries=list(visit.entries), by=by)
+        record = service_record_save(record=visit.record, entries=entries, by=by)
         service_record_close(record=record, by=by, at=visit.closed_at)
+        for held, saved in zip(visit.entries, entries, strict=True):
+            held.pk = saved.pk
 
 
 def test_it_derives_the_same_state_in_bulk_as_through_the_services_visit_by_visit(

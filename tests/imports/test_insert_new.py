@@ -1,5 +1,7 @@
 """``insert_new`` (the bulk import's INSERT, written once) stores the same rows as Django's
-``bulk_create`` with the same batch size, in as many statements, and refuses what it refuses."""
+``bulk_create`` with the same batch size, in as many statements, and refuses what it refuses.
+On PostgreSQL the statement counted for a batch is its key query: the ``COPY`` that sends its
+rows goes to the driver's cursor, which Django does not log."""
 
 import datetime as dt
 
@@ -126,3 +128,81 @@ def test_plain_rows_go_in_as_given(count, unit, technician):
         "batch_id", "row", "target_type_id", "target_id"
     )
     assert list(stored) == rows
+
+
+def test_rows_given_as_values_are_stored_as_bulk_create_stores_them(unit, technician):
+    from fleet.models import AnodeReading
+    from fleet.services.bulk import insert_rows
+
+    django_record = make_record(unit=unit, by=technician, closed_at=T0, closed_by=technician)
+    own_record = make_record(unit=unit, by=technician, closed_at=T0, closed_by=technician)
+    positions = list(unit.variant.anode_positions.order_by("pk"))
+    given = [
+        {"position": positions[0], "mass_g": 310.5, "bond_resistance_ohm": 0.02},
+        {"position": positions[1], "remaining_percent": 40.0, "replaced": True, "note": "pitted"},
+        {"position": positions[0], "mass_g": 0.0},
+    ]
+    AnodeReading.objects.bulk_create(
+        [AnodeReading(record=django_record, **values) for values in given], batch_size=2
+    )
+    rows = [
+        {"record_id": own_record.pk, "position_id": v["position"].pk}
+        | {k: value for k, value in v.items() if k != "position"}
+        for v in given
+    ]
+    keys = insert_rows(AnodeReading, rows, batch_size=2)
+
+    assert keys == list(
+        AnodeReading.objects.filter(record=own_record).order_by("pk").values_list("pk", flat=True)
+    )
+    assert _stored(own_record) == _stored(django_record)
+    assert [
+        r["mass_g"] for r in AnodeReading.objects.filter(pk__in=keys).order_by("pk").values()
+    ] == [
+        310.5,
+        None,
+        0.0,
+    ]
+    uids = set(AnodeReading.objects.filter(pk__in=keys).values_list("uid", flat=True))
+    assert len(uids) == 3 and None not in uids
+
+
+def test_rows_given_as_values_refuse_a_field_written_on_save(unit, technician):
+    from fleet.models import AnodeReading
+    from fleet.services.bulk import insert_rows
+
+    record = make_record(unit=unit, by=technician)
+    position = unit.variant.anode_positions.first()
+    row = {"record_id": record.pk, "position_id": position.pk, "mass_g": 1.0, "photo": "a.jpg"}
+    with pytest.raises(ValueError, match="photo is set on save"):
+        insert_rows(AnodeReading, [row], batch_size=10)
+
+
+@pytest.mark.skipif(connection.vendor != "postgresql", reason="keys come from RETURNING on SQLite")
+def test_keys_drawn_ahead_serve_later_batches_without_asking_again(unit, technician):
+    from fleet.models import AnodeReading
+    from fleet.services import bulk
+
+    record = make_record(unit=unit, by=technician)
+    position = unit.variant.anode_positions.first()
+
+    def rows(count: int) -> list[dict]:
+        return [
+            {"record_id": record.pk, "position_id": position.pk, "mass_g": float(n)}
+            for n in range(count)
+        ]
+
+    with bulk.drawing_keys_ahead():
+        with CaptureQueriesContext(connection) as first:
+            keys = bulk.insert_rows(AnodeReading, rows(3), batch_size=2)
+        with CaptureQueriesContext(connection) as later:
+            keys += bulk.insert_rows(AnodeReading, rows(4), batch_size=10)
+    outside = bulk.insert_rows(AnodeReading, rows(1), batch_size=10)
+
+    assert [q["sql"].startswith("SELECT nextval") for q in first.captured_queries] == [True]
+    assert later.captured_queries == []
+    assert keys == sorted(keys) and len(set(keys)) == 7
+    stored = AnodeReading.objects.filter(record=record).order_by("pk")
+    assert list(stored.values_list("pk", flat=True)) == [*keys, *outside]
+    assert outside[0] not in keys
+    assert [r.mass_g for r in stored] == [0.0, 1.0, 2.0, 0.0, 1.0, 2.0, 3.0, 0.0]

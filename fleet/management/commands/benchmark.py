@@ -72,6 +72,7 @@ from fleet.models import (
     Transponder,
     Variant,
 )
+from fleet.models.bulk import copy_prepared
 from fleet.models.functions import plain_columns
 from fleet.services.imports import import_commit
 from fleet.services.records import service_record_save
@@ -755,6 +756,7 @@ class _RawRows:
             for f in fields
             if f.attname in where and f.get_internal_type() == "DateTimeField"
         }
+        self.model = type(template)
         self.table = meta.db_table
         self.rows: list[tuple[Any, ...]] = []
 
@@ -779,7 +781,10 @@ class _RawRows:
                     for i, constant in self.plan
                 )
             )
-        with connection.cursor() as cursor:
-            for first in range(0, len(full), 10000):
-                cursor.executemany(sql, full[first : first + 10000])
+        if connection.vendor == "postgresql":
+            copy_prepared(self.model, self.columns, full)  # one stream, not a million INSERTs
+        else:
+            with connection.cursor() as cursor:
+                for first in range(0, len(full), 10000):
+                    cursor.executemany(sql, full[first : first + 10000])
         self.rows = []

@@ -2,16 +2,15 @@
 the planner's whole-fleet reads: a unit's columns across its relations, its anode state
 rows and its due rows, each with date-times and dates among them."""
 
-import datetime as dt
-
 import pytest
 from django.utils import timezone
 
 from fleet.due.condition import annotate_condition
 from fleet.due.facts import ANODE_COLUMNS, UNIT_COLUMNS
-from fleet.models import AnodeReading, AnodeState, BatteryInstall, DueRow, Transponder
+from fleet.models import AnodeReading, AnodeState, DueRow, Transponder
 from fleet.models.functions import Day, Instant, plain_columns
 from tests.due.test_engine import deploy, t, visit
+from tests.test_selectors import pack
 
 pytestmark = pytest.mark.django_db
 
@@ -26,16 +25,9 @@ def _same(plain, django):
 
 def test_it_reads_what_django_reads(unit, site, technician):
     anode = unit.variant.anode_positions.order_by("name").first()
-    pack = BatteryInstall(
-        pack_serial="PK-9",
-        chemistry="alkaline",
-        nominal_voltage_v=31.5,
-        capacity_ah=17.0,
-        made_on=dt.date(2025, 12, 1),
-        installed_on=dt.date(2026, 1, 5),
-        ocv_install_v=33.1,
+    visit(
+        unit, technician, t(2026, 1, 5, 9, 30), AnodeReading(position=anode, mass_g=390.0), pack()
     )
-    visit(unit, technician, t(2026, 1, 5, 9, 30), AnodeReading(position=anode, mass_g=390.0), pack)
     deploy(unit, site, technician, t(2026, 2, 1, 6, 15), t(2026, 5, 1, 18, 45))
     visit(unit, technician, t(2026, 5, 5, 9), AnodeReading(position=anode, mass_g=380.5))
     deploy(unit, site, technician, t(2026, 6, 1, 7))  # still in the water

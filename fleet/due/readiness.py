@@ -791,6 +791,15 @@ class Plan(_OfAPlan):
     ready: list[Readiness]
     rejected: list[Readiness]
 
+    def drop_rows(self) -> None:
+        """Empty the plan's lists once its page is drawn. Django's template engine keeps a
+        rendered context in a reference cycle (each of its dicts points back at it), which
+        only the cyclic collector frees, walking everything the context reaches: for a
+        whole-fleet plan half a million objects, some 150 ms. Emptied, the rows are freed
+        at once by reference counting."""
+        self.ready.clear()
+        self.rejected.clear()
+
     @property
     def shortfall(self) -> int:
         return max(0, self.wanted - len(self.ready))

@@ -9,7 +9,13 @@ from django.utils import timezone
 from fleet import charts, roles
 from fleet.due.engine import UnitEvaluation, anode_outlook, evaluate_unit, fleet_queryset
 from fleet.due.history import anode_history_of, battery_history
-from fleet.due.readiness import Plan, RejectedGroup, plan_campaign, readiness_for
+from fleet.due.readiness import (
+    Plan,
+    RejectedGroup,
+    cyclic_gc_paused,
+    plan_campaign,
+    readiness_for,
+)
 from fleet.forms import PlanForm, PlannedDeploymentForm
 from fleet.models import Transponder
 
@@ -59,7 +65,17 @@ def _rejected_pages(request: HttpRequest, result: Plan) -> list[tuple[RejectedGr
 
 @require(roles.can_read)
 def plan(request: HttpRequest) -> HttpResponse:
+    # The cyclic collector held off until the page is drawn and the plan's rows dropped
+    # (``Plan.drop_rows``; Django keeps a drawn context in a reference cycle): the objects
+    # of a whole-fleet plan are then freed by reference counting, not walked by a
+    # collection while the page is drawn or after.
+    with cyclic_gc_paused():
+        return _plan_page(request)
+
+
+def _plan_page(request: HttpRequest) -> HttpResponse:
     on = _today()
+    result: Plan | None = None
     form = PlanForm(request.GET or None, today=on)
     context: dict[str, Any] = {"form": form, "result": None}
     status = 200
@@ -78,7 +94,15 @@ def plan(request: HttpRequest) -> HttpResponse:
             )
         else:
             status = 400
-    return render(request, "fleet/plan.html", context, status=status)
+    response = render(request, "fleet/plan.html", context, status=status)
+    # Drawn: the lists the context holds (the rows shown, the pages of rejected units) and
+    # the plan's own are emptied, so that reference counting frees the rows.
+    for value in context.values():
+        if isinstance(value, list):
+            value.clear()
+    if result is not None:
+        result.drop_rows()
+    return response
 
 
 def _evaluation(request: HttpRequest, serial: str) -> tuple[UnitEvaluation, dt.date]:

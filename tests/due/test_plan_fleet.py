@@ -267,3 +267,49 @@ def test_the_plan_pauses_the_cyclic_collector_and_restores_it(
         assert not gc.isenabled()  # left as it was found
     finally:
         gc.enable()
+
+
+def test_objects_made_while_paused_wait_for_no_young_collection_after():
+    """What a plan made while the collector was off is not walked by a collection as soon as
+    it is back on: it moves to the oldest generation on the way out."""
+    import gc
+
+    from fleet.due import readiness as readiness_module
+
+    assert gc.isenabled()
+    started: list[int] = []
+
+    def watch(phase, info):
+        if phase == "start":
+            started.append(info["generation"])
+
+    young = gc.get_threshold()[0]
+    gc.collect()
+    gc.callbacks.append(watch)
+    try:
+        with readiness_module.cyclic_gc_paused():
+            kept = [[i] for i in range(100 * young)]  # tracked objects, all alive
+        after = [[i] for i in range(young // 2)]  # fewer than one young collection's worth
+    finally:
+        gc.callbacks.remove(watch)
+    assert started == []
+    assert len(kept) + len(after) > 100 * young
+
+
+def test_objects_frozen_by_someone_else_stay_frozen():
+    """A server that froze its start-up objects (``gc.freeze``) keeps them frozen: the plan
+    then leaves the young generation as it is."""
+    import gc
+
+    from fleet.due import readiness as readiness_module
+
+    gc.freeze()
+    try:
+        frozen = gc.get_freeze_count()
+        assert frozen > 0
+        with readiness_module.cyclic_gc_paused():
+            kept = [[i] for i in range(1000)]
+        assert gc.get_freeze_count() == frozen
+        assert gc.isenabled() and kept
+    finally:
+        gc.unfreeze()

@@ -18,7 +18,7 @@ From that moment the unit is assumed to keep working as it has:
 from __future__ import annotations
 
 import datetime as dt
-from dataclasses import dataclass
+from typing import NamedTuple
 
 from fleet.formatting import percent
 from fleet.models import Deployment, Transponder, UnitState
@@ -31,8 +31,7 @@ from .rules import Rules
 MIN_DUTY_FRACTION = 0.05
 
 
-@dataclass(frozen=True, slots=True)
-class Duty:
+class Duty(NamedTuple):
     """How the unit works from ``as_of`` on."""
 
     as_of: dt.datetime | None  # the last event; None: nothing recorded yet

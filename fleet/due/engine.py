@@ -30,6 +30,7 @@ import functools
 import math
 from collections.abc import Iterable
 from dataclasses import dataclass, field
+from typing import NamedTuple
 
 from django.db.models import Prefetch, QuerySet
 
@@ -98,8 +99,7 @@ def state_of(unit: Transponder) -> UnitState | None:
 # --- anodes -------------------------------------------------------------------------------
 
 
-@dataclass(frozen=True, slots=True)
-class AnodeProjection:
+class AnodeProjection(NamedTuple):
     position_id: int
     name: str
     new_kg: float
@@ -236,8 +236,7 @@ def anode_outcome(p: AnodeProjection, rules: Rules, duty: Duty) -> Outcome:
 # --- battery ------------------------------------------------------------------------------
 
 
-@dataclass(frozen=True, slots=True)
-class BatteryProjection:
+class BatteryProjection(NamedTuple):
     pack_serial: str
     chemistry: str
     on: dt.date  # the day the figures below are for

@@ -231,8 +231,7 @@ class Dated(NamedTuple):
     basis: str
 
 
-@dataclass(frozen=True, slots=True)
-class Context:
+class Context(NamedTuple):
     """What every check reads, as plain values: the unit, its rules and duty, its anode
     projections and dated items, the plan and the duty it implies."""
 

@@ -13,6 +13,8 @@ import math
 from collections.abc import Collection
 from numbers import Real
 
+_INF = math.inf
+
 
 def _fmt(value: float) -> str:
     return f"{value:g}"
@@ -24,7 +26,10 @@ def require_finite(name: str, value: float) -> float:
     ``bool`` is refused: ``True`` as a depth is always a mistake.
     """
     # The common cases first: ``isinstance(value, Real)`` goes through the ABC machinery,
-    # a cost the whole-fleet planner pays tens of thousands of times.
+    # a cost the whole-fleet planner pays tens of thousands of times. (NaN fails both
+    # comparisons.)
+    if type(value) is float and -_INF < value < _INF:
+        return value
     if type(value) is not float and type(value) is not int:
         if isinstance(value, bool) or not isinstance(value, Real):
             raise TypeError(f"{name} must be a real number, got {type(value).__name__}")
@@ -65,11 +70,15 @@ def require_range(
 
 def require_positive(name: str, value: float, *, unit: str = "") -> float:
     """Strictly positive finite number: ``(0, inf)``."""
+    if type(value) is float and 0.0 < value < _INF:  # the common case, without the calls
+        return value
     return require_range(name, value, 0.0, None, lo_open=True, unit=unit)
 
 
 def require_non_negative(name: str, value: float, *, unit: str = "") -> float:
     """Finite number not below zero: ``[0, inf)``."""
+    if type(value) is float and 0.0 <= value < _INF:  # the common case, without the calls
+        return value
     return require_range(name, value, 0.0, None, unit=unit)
 
 

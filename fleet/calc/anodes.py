@@ -30,7 +30,7 @@ import functools
 import math
 from collections.abc import Iterable
 from dataclasses import dataclass
-from typing import Final, Literal
+from typing import Final, Literal, NamedTuple
 
 from fleet.calc._checks import (
     require_choice,
@@ -406,15 +406,17 @@ def resistance_mccoy_ohm(resistivity_ohm_m: float, exposed_area_m2: float) -> fl
     return 0.315 * rho / math.sqrt(area)
 
 
+_new_tuple = tuple.__new__
+
 # --- wear fit -----------------------------------------------------------------------------
 RateSource = Literal["fit", "design", "none"]
 # Relative spread of immersed days below which the slope is treated as undetermined.
 _DEGENERATE_SPREAD: Final = 1e-12
 
 
-@dataclass(frozen=True, slots=True)
-class WearFit:
-    """Straight-line wear of one anode against cumulative immersed days."""
+class WearFit(NamedTuple):
+    """Straight-line wear of one anode against cumulative immersed days (a named tuple: made
+    for every anode of every unit a whole-fleet plan checks)."""
 
     rate_kg_per_day: float | None  # positive = losing mass; None when unknown
     intercept_kg: float | None  # fitted mass at 0 immersed days
@@ -507,16 +509,7 @@ def fit_wear(
     return _finish(slope, mean_x, mean_y, syy - slope * sxy, n, design_rate, factor)
 
 
-@dataclass(frozen=True, slots=True)
-class WearSums:
-    """Running sums for the wear fit, to be kept per anode and updated per reading.
-
-    x is cumulative immersed days, y the mass in kg.  ``add`` a new reading, ``extend``
-    with several. There is no removal: subtracting a reading back out leaves rounding residue
-    that can turn a degenerate spread (every reading on one day) into a false fit, so a
-    corrected or deleted reading means summing again from the history (``fleet/due/state.py``).
-    """
-
+class _Sums(NamedTuple):
     n: int = 0
     sum_x: float = 0.0
     sum_y: float = 0.0
@@ -524,14 +517,46 @@ class WearSums:
     sum_xy: float = 0.0
     sum_yy: float = 0.0
 
-    def __post_init__(self) -> None:
-        require_int("n", self.n, 0)
-        for name in ("sum_x", "sum_y", "sum_xx", "sum_xy", "sum_yy"):
-            value = getattr(self, name)
-            # A finite float passes as it is (the common case, read from stored sums);
-            # anything else goes through the guard, which names what is wrong.
-            if type(value) is not float or not math.isfinite(value):
+
+class WearSums(_Sums):
+    """Running sums for the wear fit, to be kept per anode and updated per reading.
+
+    x is cumulative immersed days, y the mass in kg.  ``add`` a new reading, ``extend``
+    with several. There is no removal: subtracting a reading back out leaves rounding residue
+    that can turn a degenerate spread (every reading on one day) into a false fit, so a
+    corrected or deleted reading means summing again from the history (``fleet/due/state.py``).
+
+    An immutable named tuple, checked when made: ``n`` a whole number from 0, each sum finite.
+    """
+
+    __slots__ = ()
+
+    def __new__(
+        cls,
+        n: int = 0,
+        sum_x: float = 0.0,
+        sum_y: float = 0.0,
+        sum_xx: float = 0.0,
+        sum_xy: float = 0.0,
+        sum_yy: float = 0.0,
+    ) -> WearSums:
+        if type(n) is not int or n < 0:
+            require_int("n", n, 0)
+        # Finite floats pass as they are (the common case, read from stored sums); anything
+        # else goes through the guard, which names what is wrong.
+        floats = (
+            type(sum_x) is float
+            and type(sum_y) is float
+            and type(sum_xx) is float
+            and type(sum_xy) is float
+            and type(sum_yy) is float
+        )
+        if not (floats and math.isfinite(sum_x + sum_y + sum_xx + sum_xy + sum_yy)):
+            for name, value in zip(
+                cls._fields[1:], (sum_x, sum_y, sum_xx, sum_xy, sum_yy), strict=True
+            ):
                 require_range(name, value)
+        return _new_tuple(cls, (n, sum_x, sum_y, sum_xx, sum_xy, sum_yy))
 
     @classmethod
     def empty(cls) -> WearSums:

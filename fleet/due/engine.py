@@ -270,6 +270,8 @@ _usable_capacity_ah = functools.lru_cache(maxsize=4096)(calc_battery.usable_capa
 _self_discharge_ah_per_day = functools.lru_cache(maxsize=1024)(
     calc_battery.self_discharge_ah_per_day
 )
+# An immutable, checked pack description: one per kind of pack, shared.
+_pack_spec_of = functools.lru_cache(maxsize=1024)(calc_battery.PackSpec)
 
 
 def _pack_spec(
@@ -279,7 +281,7 @@ def _pack_spec(
     assert pack is not None
     variant = unit.variant
     key = CHEMISTRY_KEY[pack.chemistry]
-    return key, calc_battery.PackSpec(
+    return key, _pack_spec_of(
         key,
         variant.cells_in_series,
         variant.parallel_strings,

@@ -957,15 +957,27 @@ def _plan_campaign(planned: PlannedDeployment, *, wanted: int, on: dt.date) -> P
             results.append(
                 _check_loaded(unit, planned, clashes, on=on, memo=memo, rules_cache=cache)
             )
-    candidates = sorted(
-        (r for r in results if r.verdict != FAIL),
-        key=lambda r: (-r.verdict.rank, -r.margin, r.unit.serial),
-    )
-    # Units picked for the same job must answer to different addresses: the better-ranked
-    # unit keeps its address and a later one with the same address is set aside.
+    ready, rejected = _ranked(results)
+    return Plan(planned, wanted, ready, rejected)
+
+
+def _ranked(results: list[Readiness]) -> tuple[list[Readiness], list[Readiness]]:
+    """The units that can go, most margin first, and those that cannot, by serial. Units
+    picked for the same job must answer to different addresses: the better-ranked unit keeps
+    its address and a later one with the same address is set aside."""
+    # Each unit's verdict worked out once (it walks the unit's checks).
+    rejected: list[Readiness] = []
+    ranked: list[tuple[int, float, str, Readiness]] = []
+    for r in results:
+        verdict = r.verdict
+        if verdict is FAIL:
+            rejected.append(r)
+        else:
+            ranked.append((-_RANK[verdict], -r.margin, r.unit.serial, r))
+    ranked.sort(key=lambda k: k[:3])
+    candidates = [k[3] for k in ranked]
     ready: list[Readiness] = []
     taken: dict[str, str] = {}
-    rejected = [r for r in results if r.verdict == FAIL]
     for r in candidates:
         address = r.unit.acoustic_address
         if address in taken:
@@ -981,4 +993,4 @@ def _plan_campaign(planned: PlannedDeployment, *, wanted: int, on: dt.date) -> P
         taken[address] = r.unit.serial
         ready.append(r)
     rejected.sort(key=lambda r: r.unit.serial)
-    return Plan(planned, wanted, ready, rejected)
+    return ready, rejected

@@ -164,8 +164,9 @@ def anode_rows(
 ) -> tuple[AnodeRowFacts, ...]:
     """One row per position of the variant (``positions``, in its order); a position with no
     stored row yet has no data (the defaults)."""
+    # ``id``, the column itself: ``pk`` resolves the key's name on every read.
     return tuple(
-        AnodeRowFacts(p, *by_position[p.pk]) if p.pk in by_position else AnodeRowFacts(p)
+        AnodeRowFacts(p, *by_position[p.id]) if p.id in by_position else AnodeRowFacts(p)
         for p in positions
     )
 

@@ -40,7 +40,7 @@ from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass, field
 from enum import StrEnum
-from functools import partial
+from functools import cache, partial
 from typing import NamedTuple
 
 from fleet.calc import buoyancy as calc_buoyancy
@@ -51,7 +51,6 @@ from fleet.models import (
     AnodeState,
     Deployment,
     DueRow,
-    SealPosition,
     SensorCheck,
     Site,
     Transponder,
@@ -257,7 +256,10 @@ class SiteMemo:
         self.pressure_dbar = calc_seawater.pressure_dbar(site.water_depth_m, site.latitude_deg)
         self._sound_speed: float | None = None
         self.steps: dict[int, dict[int, float]] = {}
-        self.seals: dict[int, list[SealPosition]] = {}
+        # Per variant: each seal position's check name and item key; each fitted sensor's
+        # check name, item key and sources.
+        self.seals: dict[int, list[tuple[str, str]]] = {}
+        self.sensors: dict[int, list[tuple[str, str, str]]] = {}
         self.buoyancy: dict[int, list[CheckResult]] = {}
         self.ranging: dict[tuple[int, float], list[CheckResult]] = {}
 
@@ -353,12 +355,17 @@ def check_depth(c: Context, margins: dict[str, float]) -> list[CheckResult]:
     return [CheckResult("Depth rating", verdict, numbers, f"margin: {COMMON}")]
 
 
+@cache
+def _pressure_source(proof_factor: float) -> str:
+    return f"sea pressure: TEOS-10 (gsw); proof factor {proof_factor:g}: {COMMON}"
+
+
 def check_pressure_test(c: Context) -> list[CheckResult]:
     rules = c.rules
     state = c.unit.state
     test = state.last_pressure_test if state else None
     needed = c.site_pressure_dbar * rules.proof_factor
-    source = f"sea pressure: TEOS-10 (gsw); proof factor {rules.proof_factor:g}: {COMMON}"
+    source = _pressure_source(rules.proof_factor)
     name = "Pressure test"
     item = c.items.get("pressure_test")
     if test is None or item is None:
@@ -508,15 +515,20 @@ def _with_basis(result: CheckResult, basis: str) -> str:
     return f"{result.numbers}: {basis}"
 
 
+SEAL_SOURCE = f"intervals: {COMMON}; shelf life ISO 2230:2002"
+
+
 def check_seals(c: Context) -> list[CheckResult]:
-    source = f"intervals: {COMMON}; shelf life ISO 2230:2002"
+    source = SEAL_SOURCE
     results = []
     seals = c.memo.seals.get(c.unit.variant_id)
     if seals is None:
-        seals = c.memo.seals[c.unit.variant_id] = list(c.unit.variant.seal_positions.all())
-    for seal in seals:
-        name = f"Seal: {seal.name}"
-        item = c.items.get(f"seal:{seal.pk}")
+        seals = c.memo.seals[c.unit.variant_id] = [
+            (f"Seal: {seal.name}", f"seal:{seal.pk}")
+            for seal in c.unit.variant.seal_positions.all()
+        ]
+    for name, key in seals:
+        item = c.items.get(key)
         if item is None or item.due_on is None:
             results.append(CheckResult(name, WARN, "no seal change recorded", source))
             continue
@@ -550,25 +562,27 @@ def sensor_source(sensor: str) -> str:
 
 
 def check_sensors(c: Context) -> list[CheckResult]:
-    results = []
-    for sensor, flag, _attr in SENSOR_FLAGS:
-        if not getattr(c.unit.variant, flag):
-            continue
-        source = sensor_source(sensor)
-        item = c.items.get(sensor_key(sensor))
-        results.append(
-            _dated_item_check(
-                f"Sensor: {sensor.label}",
-                item,
-                c.planned,
-                source,
-                missing=WARN,
-                lapses=WARN,
-                # A lapsed calibration spoils the data, not the unit's return: a check.
-                expired=WARN,
-            )
+    sensors = c.memo.sensors.get(c.unit.variant_id)
+    if sensors is None:
+        variant = c.unit.variant
+        sensors = c.memo.sensors[c.unit.variant_id] = [
+            (f"Sensor: {sensor.label}", sensor_key(sensor), sensor_source(sensor))
+            for sensor, flag, _attr in SENSOR_FLAGS
+            if getattr(variant, flag)
+        ]
+    return [
+        _dated_item_check(
+            name,
+            c.items.get(key),
+            c.planned,
+            source,
+            missing=WARN,
+            lapses=WARN,
+            # A lapsed calibration spoils the data, not the unit's return: a check.
+            expired=WARN,
         )
-    return results
+        for name, key, source in sensors
+    ]
 
 
 def buoyancy_words(result: calc_buoyancy.RecoveryBuoyancy, mass_kg: float, volume_m3: float) -> str:

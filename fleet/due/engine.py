@@ -266,7 +266,24 @@ class BatteryProjection(NamedTuple):
 
 # Pure functions of a pack's kind, temperatures, age and load: a fleet's packs come in few
 # kinds and batches, so a whole-fleet plan meets the same arguments again and again.
-_usable_capacity_ah = functools.lru_cache(maxsize=4096)(calc_battery.usable_capacity_ah)
+@functools.lru_cache(maxsize=4096)
+def _usable_capacity_ah(
+    spec: calc_battery.PackSpec,
+    temperature_c: float,
+    age_years: float,
+    storage_temperature_c: float,
+    mean_load_current_a: float | None,
+) -> float:
+    """``calc_battery.usable_capacity_ah``, remembered (positional: a cheaper key)."""
+    return calc_battery.usable_capacity_ah(
+        spec,
+        temperature_c,
+        age_years,
+        storage_temperature_c=storage_temperature_c,
+        mean_load_current_a=mean_load_current_a,
+    )
+
+
 _self_discharge_ah_per_day = functools.lru_cache(maxsize=1024)(
     calc_battery.self_discharge_ah_per_day
 )
@@ -333,11 +350,7 @@ def battery_projection(
     # Capacity at the working temperature and at the mean current of the duty (the rate
     # curve matters for high-drain duty); shelf loss since manufacture at the store's.
     usable = _usable_capacity_ah(
-        spec,
-        temperature,
-        min(age, 50.0),
-        storage_temperature_c=store_t,
-        mean_load_current_a=_mean_current_a(chem, spec, daily),
+        spec, temperature, min(age, 50.0), store_t, _mean_current_a(chem, spec, daily)
     )
     used = state.pack_charge_used_ah
     open_d = state.open_deployment

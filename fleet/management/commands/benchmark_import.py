@@ -23,6 +23,7 @@ from typing import Any
 from django.contrib.auth import get_user_model
 from django.core.management.base import BaseCommand, CommandError, CommandParser
 from django.db import transaction
+from django.test.utils import override_settings
 
 from fleet.management.commands.benchmark_upload import _peak, _start_peak
 from fleet.models import (
@@ -114,7 +115,8 @@ class Command(BaseCommand):
         if Transponder.objects.filter(serial__startswith=SERIAL_PREFIX).exists():
             raise CommandError(f"Units {SERIAL_PREFIX}… exist already; remove them first.")
         try:
-            with transaction.atomic():
+            # As production runs: no query log (DEBUG would format every statement).
+            with override_settings(DEBUG=False), transaction.atomic():
                 self._run(rows, min(units, -(-rows // POSITIONS)), options)
                 if not options["keep"]:
                     raise _RollbackError

@@ -582,13 +582,27 @@ def anode_outlook_of(ev: UnitEvaluation, position_id: int) -> AnodeOutlook | Non
     return AnodeOutlook(ev.unit, position, projection, ev.duty.as_of, due_on)
 
 
+# What ``anode_outlook_of_unit`` reads of the unit, loaded with it.
+OUTLOOK_RELATED = (
+    "variant",
+    "place",
+    "state__open_deployment",
+    "state__duty_deployment",
+    "state__duty_site",
+)
+
+
 def anode_outlook(unit_id: int, position_id: int) -> AnodeOutlook | None:
     """The outlook of one position without evaluating the unit's other items: the unit with
-    its variant and the state its duty reads (1 query), the position (1) and its state row
-    (1). The same projection and due date as ``evaluate_unit``'s for that position."""
-    loaded = Transponder.objects.select_related(
-        "variant", "place", "state__open_deployment", "state__duty_deployment", "state__duty_site"
-    ).get(pk=unit_id)
+    its variant and the state its duty reads (1 query), then ``anode_outlook_of_unit``."""
+    loaded = Transponder.objects.select_related(*OUTLOOK_RELATED).get(pk=unit_id)
+    return anode_outlook_of_unit(loaded, position_id)
+
+
+def anode_outlook_of_unit(loaded: Transponder, position_id: int) -> AnodeOutlook | None:
+    """``anode_outlook`` of a unit loaded with ``OUTLOOK_RELATED``: the position (1 query) and
+    its state row (1). The same projection and due date as ``evaluate_unit``'s for that
+    position."""
     position = AnodePosition.objects.filter(pk=position_id, variant_id=loaded.variant_id).first()
     if position is None:
         return None

@@ -87,10 +87,17 @@ def get_kit_conflict_for_user(request: HttpRequest, pk: int) -> KitConflict:
 
 
 def get_unit_for_user(
-    request: HttpRequest, serial: str, *, write: bool = False, supervise: bool = False
+    request: HttpRequest,
+    serial: str,
+    *,
+    write: bool = False,
+    supervise: bool = False,
+    related: tuple[str, ...] = ("variant", "place"),
 ) -> Transponder:
+    """The unit, with ``related`` loaded in the same query (a page that reads more of the
+    unit's rows names them)."""
     _check(request, write, supervise)
-    return get_object_or_404(Transponder.objects.select_related("variant", "place"), serial=serial)
+    return get_object_or_404(Transponder.objects.select_related(*related), serial=serial)
 
 
 def get_variant_for_user(request: HttpRequest, pk: int) -> Variant:

@@ -7,7 +7,13 @@ from django.shortcuts import render
 from django.utils import timezone
 
 from fleet import charts, roles
-from fleet.due.engine import UnitEvaluation, anode_outlook, evaluate_unit, fleet_queryset
+from fleet.due.engine import (
+    OUTLOOK_RELATED,
+    UnitEvaluation,
+    anode_outlook_of_unit,
+    evaluate_unit,
+    fleet_queryset,
+)
 from fleet.due.history import anode_history_of, battery_history
 from fleet.due.readiness import (
     Plan,
@@ -120,8 +126,8 @@ def _svg(body: str) -> HttpResponse:
 
 def anode_chart(request: HttpRequest, serial: str, position_id: int) -> HttpResponse:
     # One position's projection from its stored state row, not the unit's every item.
-    unit = get_unit_for_user(request, serial)
-    outlook = anode_outlook(unit.pk, position_id)
+    unit = get_unit_for_user(request, serial, related=OUTLOOK_RELATED)
+    outlook = anode_outlook_of_unit(unit, position_id)
     if outlook is None:
         raise Http404("No such anode position on this unit.")
     history = anode_history_of(outlook)

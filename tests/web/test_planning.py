@@ -2,6 +2,8 @@ import datetime as dt
 import gc
 
 import pytest
+from django.db import connection
+from django.test.utils import CaptureQueriesContext
 from django.urls import reverse
 from django.utils import timezone
 from icalendar import Calendar
@@ -185,3 +187,18 @@ def test_the_due_export_escapes_formulas_in_names_people_typed(as_viewer, unit, 
     assert "'=HYPERLINK(1)" in body
     header = body.splitlines()[0]
     assert header == "State,Unit,Variant,Place,Kind,Item,Due,Basis,Flags"
+
+
+def test_the_anode_chart_reads_the_unit_once(as_viewer, unit, technician):
+    """The unit, its variant and the state its duty reads come in the guard's query; then the
+    position, its state row, its readings and the deployments; before them the session, the
+    user and the user's groups, as on every page."""
+    position = unit.variant.anode_positions.first()
+    visit(unit, technician, t(2026, 1, 5), AnodeReading(position=position, mass_g=300))
+    url = reverse("unit-anode-chart", args=[unit.serial, position.pk])
+    as_viewer.get(url)
+    with CaptureQueriesContext(connection) as captured:
+        assert as_viewer.get(url).status_code == 200
+    unit_reads = [q["sql"] for q in captured if 'FROM "fleet_transponder"' in q["sql"]]
+    assert len(unit_reads) == 1, unit_reads
+    assert len(captured) == 8, [q["sql"][:50] for q in captured]

@@ -54,7 +54,7 @@ from fleet.models import (
     Transponder,
     UnitState,
 )
-from fleet.models.bulk import insert_instances
+from fleet.models.bulk import insert_instances, update_instances
 from fleet.models.functions import AsStored, Instant
 
 from .days import OPEN_END, start_of
@@ -745,7 +745,7 @@ def _anodes_after_visit(
         base.write(row, "base_")
         row.base_visit_pk = visit.pk
     fields = [*_ANODE_FIELDS, *("base_" + f for f in _ANODE_FIELDS), "base_visit_pk"]
-    AnodeState.objects.bulk_update(rows, fields)
+    update_instances(rows, fields)
     return True
 
 

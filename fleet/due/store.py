@@ -35,6 +35,7 @@ from django.utils import timezone
 
 from fleet.models import DueRow, ServiceRecord, Transponder, Variant
 from fleet.models.bulk import insert_instances, insert_values
+from fleet.models.session import unit_reads
 
 from .engine import (
     INACTIVE,
@@ -162,15 +163,17 @@ def refresh_unit(
     if pending is not None:
         pending.add(unit.pk)
         return
-    # Locked, then read again inside the lock, with what both steps read of its variant.
-    locked = (
-        Transponder.objects.select_for_update(of=("self",))
-        .select_related("variant", "place")
-        .prefetch_related(*(f"variant__{name}" for name in VARIANT_PREFETCH))
-        .get(pk=unit.pk)
-    )
-    refresh_unit_state(locked, at=at, visit=visit, new_visit=new_visit)
-    store_due_rows(locked)
+    # Locked, then read again inside the lock, with what both steps read of its variant;
+    # every read here is of this unit's few rows, by key (``unit_reads``).
+    with unit_reads():
+        locked = (
+            Transponder.objects.select_for_update(of=("self",))
+            .select_related("variant", "place")
+            .prefetch_related(*(f"variant__{name}" for name in VARIANT_PREFETCH))
+            .get(pk=unit.pk)
+        )
+        refresh_unit_state(locked, at=at, visit=visit, new_visit=new_visit)
+        store_due_rows(locked)
 
 
 def refresh_units(units: QuerySet[Transponder], *, at: dt.datetime) -> int:

@@ -11,6 +11,11 @@ value adapted only where the database needs it (a date, a time or a date-time, e
 the driver writing each value (the same checks, keys and triggers as an ``INSERT``). For
 rows whose ids nothing keeps: the caller deletes the rows it replaces in the same
 transaction.
+
+Rows that keep their ids are changed in place by ``update_instances``: one ``UPDATE`` run
+once per row (``executemany``), the values adapted as above. ``bulk_update`` instead builds
+one ``CASE WHEN`` expression for every field of every row and resolves and compiles each in
+Python, which cost a fifth of a bench-visit save for one unit's anode rows.
 """
 
 from __future__ import annotations
@@ -111,3 +116,27 @@ def insert_instances(objs: Sequence[models.Model]) -> int:
     model = type(objs[0])
     names = field_names(model)
     return insert_values(model, names, ([getattr(o, n) for n in names] for o in objs))
+
+
+def update_instances(objs: Sequence[models.Model], names: Sequence[str]) -> int:
+    """Write the attributes ``names`` (attribute names such as ``unit_id``) of saved instances
+    of one model to their rows, by primary key; the number of rows. Nothing else of the rows
+    changes, and nothing is read back."""
+    if not objs:
+        return 0
+    model = type(objs[0])
+    stored = {f.attname: f for f in model._meta.concrete_fields}
+    fields = [stored[name] for name in names]
+    qn = connection.ops.quote_name
+    assignments = ", ".join(f"{qn(str(f.column))} = %s" for f in fields)
+    pk = model._meta.pk
+    assert pk is not None
+    sql = f"UPDATE {qn(model._meta.db_table)} SET {assignments} WHERE {qn(str(pk.column))} = %s"
+    adapters = [_adapter(f) for f in fields]
+    params = [
+        [*(adapt(getattr(o, n)) for adapt, n in zip(adapters, names, strict=True)), o.pk]
+        for o in objs
+    ]
+    with connection.cursor() as cursor:
+        cursor.executemany(sql, params)
+    return len(params)

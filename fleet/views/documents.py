@@ -20,6 +20,7 @@ from fleet.documents.labels import PAPERS, prepare_labels, render_labels
 from fleet.documents.report import RecordOpenError, prepare_report, render_report
 from fleet.forms import LabelContactForm, PlannedDeploymentForm
 from fleet.models import LabelSetting, ReleaseCertificate, Site, Variant
+from fleet.models.session import reading_one_unit
 from fleet.models.units import serial_validator
 from fleet.selectors import label_units
 from fleet.services.certificates import certificate_issue, certificate_withdraw
@@ -74,6 +75,7 @@ def _int_param(request: HttpRequest, name: str, lo: int, hi: int, *, required: b
 
 
 @require_GET
+@reading_one_unit
 def checklist_pdf(request: HttpRequest, serial: str) -> HttpResponse:
     """``?site=<id>&start=YYYY-MM-DD&days=N[&rate=N&step=N]``; any bad parameter is a 400."""
     unit = get_unit_for_user(request, serial)

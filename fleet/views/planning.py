@@ -24,6 +24,7 @@ from fleet.due.readiness import (
 )
 from fleet.forms import PlanForm, PlannedDeploymentForm
 from fleet.models import Transponder
+from fleet.models.session import reading_one_unit
 
 from .guards import get_unit_for_user, require
 
@@ -32,6 +33,7 @@ def _today() -> dt.date:
     return timezone.localdate()
 
 
+@reading_one_unit
 def readiness(request: HttpRequest, serial: str) -> HttpResponse:
     unit = get_unit_for_user(request, serial)
     on = _today()
@@ -124,6 +126,7 @@ def _svg(body: str) -> HttpResponse:
     return response
 
 
+@reading_one_unit
 def anode_chart(request: HttpRequest, serial: str, position_id: int) -> HttpResponse:
     # One position's projection from its stored state row, not the unit's every item.
     unit = get_unit_for_user(request, serial, related=OUTLOOK_RELATED)
@@ -134,6 +137,7 @@ def anode_chart(request: HttpRequest, serial: str, position_id: int) -> HttpResp
     return _svg(charts.anode_chart_svg(history, serial=unit.serial, today=_today()))
 
 
+@reading_one_unit
 def battery_chart(request: HttpRequest, serial: str) -> HttpResponse:
     ev, on = _evaluation(request, serial)
     return _svg(charts.battery_chart_svg(battery_history(ev), serial=ev.unit.serial, today=on))

@@ -17,6 +17,7 @@ from fleet.filters import UnitFilter
 from fleet.fleet_forms import UnitMoveForm
 from fleet.forms import PlannedDeploymentForm, UnitPhotoForm
 from fleet.models import Transponder
+from fleet.models.session import reading_one_unit
 from fleet.selectors import unit_page, with_next_due
 from fleet.tables import UnitTable, condition_badge
 
@@ -62,6 +63,7 @@ def unit_list(request: HttpRequest) -> HttpResponse:
     )
 
 
+@reading_one_unit
 def unit_detail(request: HttpRequest, serial: str) -> HttpResponse:
     unit = get_unit_for_user(request, serial)
     try:

@@ -8,7 +8,7 @@ import pytest
 from django.db import connection, transaction
 
 from fleet.models import AnodeState, DueRow, SealState, UnitState
-from fleet.models.bulk import field_names, insert_instances, insert_values
+from fleet.models.bulk import field_names, insert_instances, insert_values, update_instances
 from tests.due.test_bulk_rebuild import _random_fleet
 
 pytestmark = pytest.mark.django_db
@@ -65,3 +65,35 @@ def test_insert_values_takes_plain_rows_in_the_order_of_the_names(
     assert insert_values(DueRow, names, reversed(rows)) == len(rows)
     assert sorted(DueRow.objects.values_list(*names)) == sorted(rows)
     assert insert_values(DueRow, names, []) == 0
+
+
+@pytest.mark.parametrize("model", (UnitState, AnodeState, SealState), ids=lambda m: m.__name__)
+def test_updated_rows_are_stored_exactly_as_bulk_update_stores_them(
+    model, variant, site, technician, workshop
+):
+    """Every row's every field changed to another row's values (nulls, microseconds, floats
+    and all), once by ``bulk_update`` and once by ``update_instances``: the same table."""
+    _random_fleet(random.Random(23), variant, site, technician, workshop, units=5)
+    names = [n for n in field_names(model) if n not in ("unit_id", "position_id")]
+    rows = list(model.objects.order_by("pk"))
+    assert len(rows) > 1
+    values = [[getattr(r, n) for n in names] for r in rows]
+    shifted = values[1:] + values[:1]
+
+    def rewritten(write) -> list[tuple[object, ...]]:
+        instances = list(model.objects.order_by("pk"))
+        for instance, new in zip(instances, shifted, strict=True):
+            for name, value in zip(names, new, strict=True):
+                setattr(instance, name, value)
+        with transaction.atomic():
+            sid = transaction.savepoint()
+            write(instances, names)
+            stored = _stored(model)
+            transaction.savepoint_rollback(sid)
+        return stored
+
+    by_orm = rewritten(lambda objs, fields: model.objects.bulk_update(objs, fields))
+    by_update = rewritten(update_instances)
+    assert by_update == by_orm
+    assert by_orm != _stored(model), "the shifted values changed nothing"
+    assert update_instances([], names) == 0

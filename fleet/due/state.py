@@ -33,7 +33,7 @@ from operator import itemgetter
 from typing import Any
 
 from django.db import transaction
-from django.db.models import F, Max, Q, QuerySet
+from django.db.models import Exists, F, Max, Q, QuerySet
 from django.utils import timezone
 
 from fleet.calc.anodes import WearSums
@@ -701,22 +701,24 @@ _CHECK_NAMES = ("last_temperature_check", "last_pressure_check", "last_tilt_chec
 
 def _appendable(unit: Transponder, visit: ServiceRecord) -> UnitState | None:
     """The unit's stored state, if ``visit`` comes after everything else the unit has: no
-    other visit opened at or after it, no deployment open, going over or back after it."""
-    state = UnitState.objects.filter(unit=unit).first()
+    other visit opened at or after it, no deployment open, going over or back after it.
+    One query: the state row with whether each kind of later record exists."""
+    moment = visit.opened_at
+    later_visit = ServiceRecord.objects.filter(unit=unit, opened_at__gte=moment).exclude(
+        pk=visit.pk
+    )
+    later_deployment = Deployment.objects.filter(unit=unit).filter(
+        Q(recovered_at__isnull=True) | Q(recovered_at__gt=moment) | Q(over_side_at__gte=moment)
+    )
+    state = (
+        UnitState.objects.filter(unit=unit)
+        .annotate(later_visit=Exists(later_visit), later_deployment=Exists(later_deployment))
+        .first()
+    )
     if state is None or state.open_deployment_id is not None:
         return None
-    moment = visit.opened_at
-    later_visit = (
-        ServiceRecord.objects.filter(unit=unit, opened_at__gte=moment).exclude(pk=visit.pk).exists()
-    )
-    later_deployment = (
-        Deployment.objects.filter(unit=unit)
-        .filter(
-            Q(recovered_at__isnull=True) | Q(recovered_at__gt=moment) | Q(over_side_at__gte=moment)
-        )
-        .exists()
-    )
-    return None if later_visit or later_deployment else state
+    later: Any = state
+    return None if later.later_visit or later.later_deployment else state
 
 
 def _anodes_after_visit(

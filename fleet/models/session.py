@@ -1,21 +1,24 @@
 """Planner settings for a run of one unit's reads on PostgreSQL.
 
 A write refreshes one unit's derived rows with some twenty small reads, each of a few rows
-found by key. Two of PostgreSQL's defaults cost them more than the rows do:
+found by key, and a unit's pages read its rows the same way. Two of PostgreSQL's defaults
+cost them more than the rows do:
 
-- ``join_collapse_limit``: the read of the unit's state with the nine rows it names joined
-  (``UNIT_STATE_PREFETCH``) spent 6.9–8.7 ms choosing a join order against 0.6 ms running
-  (EXPLAIN ANALYZE, 5,000-unit fleet). The joins are each by primary key, in the order
-  written; at 1, planning took 1.4–2.0 ms.
 - ``random_page_cost``: the default 4 models a spinning disk. Against it, reading a unit's
   latest release or pressure test or its sensor checks scanned the whole table of tests
-  (1.5–3.5 ms each) rather than follow the index from the unit's visits. The PostgreSQL
-  manual (runtime-config-query, ``random_page_cost``) says a lower value suits storage
-  whose random reads cost little more than sequential ones; 1.1 is the value commonly used
-  for solid-state disks (common practice, no published source). At 1.1 each took 0.05 ms.
+  (1.5–3.5 ms each, 5,000-unit fleet, EXPLAIN ANALYZE) rather than follow the index from
+  the unit's few visits. The PostgreSQL manual (runtime-config-query, ``random_page_cost``)
+  says a lower value suits storage whose random reads cost little more than sequential
+  ones; 1.1 is the value commonly used for solid-state disks (common practice, no
+  published source). At 1.1 each took 0.05 ms.
 - ``max_parallel_workers_per_gather``: the anode chart of a unit with 5,000 readings read
   its 1,667 readings of one position through a parallel plan, starting a worker process for
   a read of a few milliseconds. None here: one unit's rows are never worth a worker.
+
+Not ``join_collapse_limit``: held at 1 it cut the planning of the state read with its nine
+joined rows (7 ms to 1.5 ms on a slow minute), but it also froze the join order of the unit
+page's newest reading per position, whose ``IN (subquery)`` then came last: every reading
+of the fleet was joined first, 2.5 s.
 
 Both are set with ``set_config(…, true)``, that is ``SET LOCAL``: only inside the current
 transaction, and put back when the block ends. If the block raises, the rollback that
@@ -36,7 +39,6 @@ P = ParamSpec("P")
 R = TypeVar("R")
 
 UNIT_READS = {
-    "join_collapse_limit": "1",
     "random_page_cost": "1.1",
     "max_parallel_workers_per_gather": "0",
 }

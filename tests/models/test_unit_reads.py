@@ -31,9 +31,9 @@ def test_inside_the_settings_are_set_and_afterwards_put_back_as_they_were():
     with transaction.atomic():
         # A value other than the default, to see it restored rather than reset.
         with connection.cursor() as cursor:
-            cursor.execute("SET LOCAL join_collapse_limit = 6")
+            cursor.execute("SET LOCAL random_page_cost = 6")
         before = _settings()
-        assert before["join_collapse_limit"] == "6"
+        assert before["random_page_cost"] == "6"
         with unit_reads():
             assert _settings() == UNIT_READS
             with unit_reads():  # nested: the inner one puts back the outer one's values
@@ -71,8 +71,8 @@ def test_on_sqlite_nothing_is_sent():
 
 @on_postgresql
 def test_a_saves_refresh_reads_under_the_settings_and_the_caller_keeps_its_own(unit, technician):
-    """The state read with its nine joined rows runs with the join order as written; the
-    caller's transaction has its own settings again when the save returns."""
+    """The state read with its nine joined rows runs under the settings; the caller's
+    transaction has its own settings again when the save returns."""
     seen: list[str] = []
     busy = False
 
@@ -81,7 +81,7 @@ def test_a_saves_refresh_reads_under_the_settings_and_the_caller_keeps_its_own(u
         if not busy and sql.startswith('SELECT "fleet_unitstate"') and sql.count(" JOIN ") >= 9:
             busy = True
             try:
-                seen.append(_settings()["join_collapse_limit"])
+                seen.append(_settings()["random_page_cost"])
             finally:
                 busy = False
         return execute(sql, params, many, context)
@@ -96,4 +96,4 @@ def test_a_saves_refresh_reads_under_the_settings_and_the_caller_keeps_its_own(u
         with connection.execute_wrapper(spy):
             service_record_save(record=record, entries=readings, by=technician)
         assert _settings() == before
-    assert seen == ["1"]
+    assert seen == ["1.1"]

@@ -860,7 +860,9 @@ def chunk_rows(
     ):
         anodes.setdefault(unit_id, {})[position_id] = tuple(values)
     dated: dict[int, dict[str, Dated]] = {}
-    rows = DueRow.objects.filter(unit_id__in=ids, kind__in=DATED_KINDS)
+    # Unordered: the rows are looked up by key, and the model's default order cost SQLite a
+    # sort of the chunk's rows (a sixth of this read, 2,000 units).
+    rows = DueRow.objects.filter(unit_id__in=ids, kind__in=DATED_KINDS).order_by()
     for unit_id, key, due_on, failed, basis in rows.values_list(
         *plain_columns(DueRow, ("unit_id", "key", "due_on", "failed", "basis"))
     ):

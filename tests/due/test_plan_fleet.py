@@ -10,7 +10,7 @@ from django.test.utils import CaptureQueriesContext
 from django.utils import timezone
 
 from fleet.due.planned import PlannedDeployment
-from fleet.due.readiness import plan_campaign, readiness_for
+from fleet.due.readiness import chunk_rows, plan_campaign, readiness_for
 from fleet.models import (
     AnodeReading,
     DueRow,
@@ -313,3 +313,14 @@ def test_objects_frozen_by_someone_else_stay_frozen():
         assert gc.isenabled() and kept
     finally:
         gc.unfreeze()
+
+
+def test_the_planners_stored_rows_are_read_unsorted(unit, technician, site):
+    """The chunk's anode and due rows are looked up by unit and key: no ORDER BY (the due
+    rows' default order made SQLite sort every chunk's rows)."""
+    serviced_unit(unit, by=technician, site=site, day=timezone.localdate() - dt.timedelta(days=3))
+    with CaptureQueriesContext(connection) as captured:
+        anodes, dated = chunk_rows([unit.pk])
+    assert dated[unit.pk], "the unit has dated due rows"
+    assert len(captured) == 2
+    assert not [q["sql"] for q in captured if "ORDER BY" in q["sql"]]

@@ -262,7 +262,8 @@ def _rebuild_chunk(
 
 def due_rows_snapshot() -> dict[tuple[int, str], tuple[object, ...]]:
     """The stored due rows, comparable with ``derived_snapshot``."""
-    return {(row[0], row[2]): row for row in DueRow.objects.values_list(*_ROW_FIELDS).iterator()}
+    rows = DueRow.objects.order_by().values_list(*_ROW_FIELDS)  # into a dict: no sort
+    return {(row[0], row[2]): row for row in rows.iterator()}
 
 
 def derived_snapshot() -> dict[tuple[int, str], tuple[object, ...]]:

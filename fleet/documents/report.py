@@ -25,10 +25,10 @@ from reportlab.platypus import (
 from fleet import selectors
 from fleet.cautions import record_cautions
 from fleet.charts import Chart, anode_chart, battery_chart
-from fleet.due.engine import evaluate_unit, fleet_queryset
+from fleet.due.engine import evaluate_unit, loaded_unit
 from fleet.due.history import anode_history, battery_history
 from fleet.due.rules import rules_for
-from fleet.models import AnodeReading, ServiceRecord, Transponder
+from fleet.models import AnodeReading, ServiceRecord
 
 from .base import (
     build_pdf,
@@ -201,7 +201,7 @@ def prepare_report(record: ServiceRecord, *, charts_on: dt.date | None = None) -
 
 def _unit_charts(record: ServiceRecord, on: dt.date) -> tuple[Chart, ...]:
     """The unit page's charts (each anode position, the battery) as of ``on``."""
-    unit = fleet_queryset(Transponder.objects.filter(pk=record.unit_id)).get()
+    unit = loaded_unit(record.unit_id)
     ev = evaluate_unit(unit, on=on)
     anodes = [anode_history(ev, p.position_id) for p in ev.anodes]
     return (

@@ -50,6 +50,7 @@ from fleet.models import (
     UnitState,
     Variant,
 )
+from fleet.models.session import written_join_order
 
 from .acceptance import (
     pressure_test_acceptance,
@@ -556,6 +557,13 @@ def fleet_queryset(
     return base.select_related("variant", *related).prefetch_related(
         "anode_states", "seal_states", *(f"variant__{name}" for name in VARIANT_PREFETCH)
     )
+
+
+def loaded_unit(pk: int) -> Transponder:
+    """One unit with everything the engine reads (``fleet_queryset``); the unit row with its
+    twelve joined rows planned in the written order (``written_join_order``)."""
+    with written_join_order():
+        return fleet_queryset(Transponder.objects.filter(pk=pk)).get()
 
 
 @dataclass(frozen=True, slots=True)

@@ -70,6 +70,7 @@ from .engine import (
     battery_projection,
     evaluate_unit,
     fleet_queryset,
+    loaded_unit,
     pressure_tested_words,
     sensor_key,
     state_of,
@@ -767,7 +768,7 @@ def address_clashes_at(site_id: int) -> dict[str, list[str]]:
 def readiness_for(unit: Transponder, planned: PlannedDeployment, *, on: dt.date) -> Readiness:
     """``unit`` checked for ``planned``, evaluated as of ``on``: its items derived afresh by
     the engine, its state turned into the plain values the checks read."""
-    loaded = fleet_queryset(Transponder.objects.filter(pk=unit.pk)).get()
+    loaded = loaded_unit(unit.pk)
     return _check_loaded(loaded, planned, address_clashes_at(planned.site.pk), on=on)
 
 

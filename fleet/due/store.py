@@ -35,7 +35,7 @@ from django.utils import timezone
 
 from fleet.models import DueRow, ServiceRecord, Transponder, Variant
 from fleet.models.bulk import insert_instances, insert_values
-from fleet.models.session import unit_reads
+from fleet.models.session import unit_reads, written_join_order
 
 from .engine import (
     INACTIVE,
@@ -113,7 +113,8 @@ def store_due_rows(unit: Transponder) -> None:
     """Rewrite the unit's stored due rows. ``unit``'s variant may come with its positions and
     reply steps loaded (``refresh_unit`` loads them once for the state and the due rows); its
     state rows are read here, after they were written."""
-    prefetch_related_objects([unit], *UNIT_STATE_PREFETCH)
+    with written_join_order():  # the state row with its nine joined rows
+        prefetch_related_objects([unit], *UNIT_STATE_PREFETCH)
     DueRow.objects.filter(unit_id=unit.pk).delete()
     insert_instances(_rows_of(unit, on=timezone.localdate(), rules_cache={}))
 

@@ -12,7 +12,7 @@ from fleet.due.engine import (
     UnitEvaluation,
     anode_outlook_of_unit,
     evaluate_unit,
-    fleet_queryset,
+    loaded_unit,
 )
 from fleet.due.history import anode_history_of, battery_history
 from fleet.due.readiness import (
@@ -23,7 +23,6 @@ from fleet.due.readiness import (
     readiness_for,
 )
 from fleet.forms import PlanForm, PlannedDeploymentForm
-from fleet.models import Transponder
 from fleet.models.session import reading_one_unit
 
 from .guards import get_unit_for_user, require
@@ -116,7 +115,7 @@ def _plan_page(request: HttpRequest) -> HttpResponse:
 def _evaluation(request: HttpRequest, serial: str) -> tuple[UnitEvaluation, dt.date]:
     unit = get_unit_for_user(request, serial)
     on = _today()
-    loaded = fleet_queryset(Transponder.objects.filter(pk=unit.pk)).get()
+    loaded = loaded_unit(unit.pk)
     return evaluate_unit(loaded, on=on), on
 
 

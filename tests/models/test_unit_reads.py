@@ -28,6 +28,34 @@ def _settings(of: dict[str, str] = UNIT_READS) -> dict[str, str]:
         return dict(zip(names, cursor.fetchone(), strict=True))
 
 
+def _spy_on_settings(of: dict[str, str], wanted) -> tuple[list[tuple[str, dict[str, str]]], object]:
+    """An execute wrapper noting, for each statement ``wanted(sql)`` picks, the settings
+    ``of`` in force when it ran; and the list it notes them in."""
+    seen: list[tuple[str, dict[str, str]]] = []
+    busy = False
+
+    def spy(execute, sql, params, many, context):
+        nonlocal busy
+        if not busy and wanted(sql):
+            busy = True
+            try:
+                seen.append((sql, _settings(of)))
+            finally:
+                busy = False
+        return execute(sql, params, many, context)
+
+    return seen, spy
+
+
+def _new_visit(unit, technician) -> tuple[ServiceRecord, list[AnodeReading]]:
+    record = ServiceRecord(
+        unit=unit, opened_at=timezone.now() - dt.timedelta(hours=1), technician=technician,
+        place=unit.place,
+    )  # fmt: skip
+    readings = [AnodeReading(position=p, mass_g=300.0) for p in unit.variant.anode_positions.all()]
+    return record, readings
+
+
 @on_postgresql
 def test_inside_the_settings_are_set_and_afterwards_put_back_as_they_were():
     with transaction.atomic():
@@ -75,30 +103,17 @@ def test_on_sqlite_nothing_is_sent():
 def test_a_saves_refresh_reads_under_the_settings_and_the_caller_keeps_its_own(unit, technician):
     """The state read with its nine joined rows runs under the settings; the caller's
     transaction has its own settings again when the save returns."""
-    seen: list[str] = []
-    busy = False
-
-    def spy(execute, sql, params, many, context):
-        nonlocal busy
-        if not busy and sql.startswith('SELECT "fleet_unitstate"') and sql.count(" JOIN ") >= 9:
-            busy = True
-            try:
-                seen.append(_settings()["random_page_cost"])
-            finally:
-                busy = False
-        return execute(sql, params, many, context)
-
-    record = ServiceRecord(
-        unit=unit, opened_at=timezone.now() - dt.timedelta(hours=1), technician=technician,
-        place=unit.place,
-    )  # fmt: skip
-    readings = [AnodeReading(position=p, mass_g=300.0) for p in unit.variant.anode_positions.all()]
+    seen, spy = _spy_on_settings(
+        UNIT_READS,
+        lambda sql: sql.startswith('SELECT "fleet_unitstate"') and sql.count(" JOIN ") >= 9,
+    )
+    record, readings = _new_visit(unit, technician)
     with transaction.atomic():
         before = _settings()
         with connection.execute_wrapper(spy):
             service_record_save(record=record, entries=readings, by=technician)
         assert _settings() == before
-    assert seen == ["1.1"]
+    assert [settings["random_page_cost"] for _, settings in seen] == ["1.1"]
 
 
 @on_postgresql
@@ -133,28 +148,15 @@ def test_the_wide_reads_of_one_unit_are_planned_in_the_written_order(unit, techn
     its twelve, run with ``join_collapse_limit`` 1 (with the prefetches that go with them, of
     one table each); the reads that join to filter, such as the unit's history through its
     visits, do not."""
-    seen: list[tuple[str, str]] = []
-    busy = False
-
-    def spy(execute, sql, params, many, context):
-        nonlocal busy
-        if not busy and sql.startswith("SELECT") and "set_config" not in sql:
-            busy = True
-            try:
-                seen.append((sql, _settings(WRITTEN_JOIN_ORDER)["join_collapse_limit"]))
-            finally:
-                busy = False
-        return execute(sql, params, many, context)
-
-    record = ServiceRecord(
-        unit=unit, opened_at=timezone.now() - dt.timedelta(hours=1), technician=technician,
-        place=unit.place,
-    )  # fmt: skip
-    readings = [AnodeReading(position=p, mass_g=300.0) for p in unit.variant.anode_positions.all()]
+    noted, spy = _spy_on_settings(
+        WRITTEN_JOIN_ORDER, lambda sql: sql.startswith("SELECT") and "set_config" not in sql
+    )
+    record, readings = _new_visit(unit, technician)
     with transaction.atomic(), connection.execute_wrapper(spy):
         service_record_save(record=record, entries=readings, by=technician)
         loaded = loaded_unit(unit.pk)
     assert loaded.pk == unit.pk and loaded.state.as_of == record.opened_at
+    seen = [(sql, settings["join_collapse_limit"]) for sql, settings in noted]
     wide = [limit for sql, limit in seen if sql.count(" JOIN ") >= 9]
     assert wide == ["1", "1"]
     written = [sql for sql, limit in seen if limit == "1"]

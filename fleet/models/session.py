@@ -95,7 +95,7 @@ def unit_reads() -> AbstractContextManager[None]:
 
 def written_join_order() -> AbstractContextManager[None]:
     """Inside, PostgreSQL joins in the order the query is written (``join_collapse_limit``
-    1), for the wide reads of one unit only: a unit, or its state row, with the nine to
+    1), for the wide reads of one unit only: a unit, or its state row, with the six to
     twelve rows its keys point to, each a LEFT JOIN by primary key, for which the written
     order is the best there is. Searching the orders of so many joins took longer than the
     read: planning the state row's 7–11 ms against 0.4–0.7 ms to run it, and 1.5 ms planned

@@ -608,18 +608,26 @@ def anode_outlook(unit_id: int, position_id: int) -> AnodeOutlook | None:
 
 
 def anode_outlook_of_unit(loaded: Transponder, position_id: int) -> AnodeOutlook | None:
-    """``anode_outlook`` of a unit loaded with ``OUTLOOK_RELATED``: the position (1 query) and
-    its state row (1). The same projection and due date as ``evaluate_unit``'s for that
-    position."""
-    position = AnodePosition.objects.filter(pk=position_id, variant_id=loaded.variant_id).first()
-    if position is None:
-        return None
+    """``anode_outlook`` of a unit loaded with ``OUTLOOK_RELATED``: the position's state row
+    with the position (1 query; 2 while the unit has no state row for it). The same
+    projection and due date as ``evaluate_unit``'s for that position."""
+    # The state row with its position (one query), or, if the unit has none for it yet,
+    # the position alone.
+    row = (
+        AnodeState.objects.select_related("position")
+        .filter(unit=loaded, position_id=position_id, position__variant_id=loaded.variant_id)
+        .first()
+    )
+    if row is None:
+        position = AnodePosition.objects.filter(
+            pk=position_id, variant_id=loaded.variant_id
+        ).first()
+        if position is None:
+            return None
+        row = AnodeState(unit=loaded, position=position)
+    position = row.position
     rules = rules_for(loaded.variant)
     duty = duty_of(loaded, state_of(loaded), rules)
-    row = AnodeState.objects.filter(unit=loaded, position=position).first() or AnodeState(
-        unit=loaded, position=position
-    )
-    row.position = position
     projection = anode_projection(row, rules, duty)
     due_on = anode_outcome(projection, rules, duty).due_on
     return AnodeOutlook(loaded, position, projection, duty.as_of, due_on)

@@ -35,7 +35,7 @@ from django.utils import timezone
 
 from fleet.models import DueRow, ServiceRecord, Transponder, Variant
 from fleet.models.bulk import insert_instances, insert_values
-from fleet.models.session import unit_reads, written_join_order
+from fleet.models.session import UNIT_WRITE_READS, planner_settings, written_join_order
 
 from .engine import (
     INACTIVE,
@@ -165,8 +165,9 @@ def refresh_unit(
         pending.add(unit.pk)
         return
     # Locked, then read again inside the lock, with what both steps read of its variant;
-    # every read here is of this unit's few rows, by key (``unit_reads``).
-    with unit_reads():
+    # every read here is of this unit's few rows, by key, and joins two tables at most but
+    # for the unit's and the state row's wide reads by key (``UNIT_WRITE_READS``).
+    with planner_settings(UNIT_WRITE_READS):
         locked = (
             Transponder.objects.select_for_update(of=("self",))
             .select_related("variant", "place")

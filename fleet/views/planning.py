@@ -23,7 +23,7 @@ from fleet.due.readiness import (
     readiness_for,
 )
 from fleet.forms import PlanForm, PlannedDeploymentForm
-from fleet.models.session import reading_one_unit, written_join_order
+from fleet.models.session import reading_one_unit, reading_one_unit_in_written_order
 
 from .guards import get_unit_for_user, require
 
@@ -125,11 +125,10 @@ def _svg(body: str) -> HttpResponse:
     return response
 
 
-@reading_one_unit
+@reading_one_unit_in_written_order  # the unit with its six joined rows; the rest join two
 def anode_chart(request: HttpRequest, serial: str, position_id: int) -> HttpResponse:
     # One position's projection from its stored state row, not the unit's every item.
-    with written_join_order():  # the unit with its six joined rows
-        unit = get_unit_for_user(request, serial, related=OUTLOOK_RELATED)
+    unit = get_unit_for_user(request, serial, related=OUTLOOK_RELATED)
     outlook = anode_outlook_of_unit(unit, position_id)
     if outlook is None:
         raise Http404("No such anode position on this unit.")
@@ -137,7 +136,7 @@ def anode_chart(request: HttpRequest, serial: str, position_id: int) -> HttpResp
     return _svg(charts.anode_chart_svg(history, serial=unit.serial, today=_today()))
 
 
-@reading_one_unit
+@reading_one_unit_in_written_order  # the unit with its twelve joined rows; the rest join two
 def battery_chart(request: HttpRequest, serial: str) -> HttpResponse:
     ev, on = _evaluation(request, serial)
     return _svg(charts.battery_chart_svg(battery_history(ev), serial=ev.unit.serial, today=on))

@@ -191,8 +191,8 @@ def test_the_due_export_escapes_formulas_in_names_people_typed(as_viewer, unit, 
 
 def test_the_anode_chart_reads_the_unit_once(as_viewer, unit, technician):
     """The unit, its variant and the state its duty reads come in the guard's query; then the
-    position, its state row, its readings and the deployments; before them the session, the
-    user and the user's groups, as on every page."""
+    position's state row with the position, its readings and the deployments; before them
+    the session, the user and the user's groups, as on every page."""
     position = unit.variant.anode_positions.first()
     visit(unit, technician, t(2026, 1, 5), AnodeReading(position=position, mass_g=300))
     url = reverse("unit-anode-chart", args=[unit.serial, position.pk])
@@ -202,11 +202,11 @@ def test_the_anode_chart_reads_the_unit_once(as_viewer, unit, technician):
     unit_reads = [q["sql"] for q in captured if 'FROM "fleet_transponder"' in q["sql"]]
     assert len(unit_reads) == 1, unit_reads
     # On PostgreSQL the page runs in a transaction with the planner set for one unit's rows
-    # (``reading_one_unit``): its savepoint here, and the settings set and put back; and the
-    # guard's read of the unit with its joined rows in the written join order, set and put
-    # back around it.
+    # in the written join order (``reading_one_unit_in_written_order``): here a savepoint in
+    # the test's transaction, so the settings are set and put back (two statements); in a
+    # transaction of its own, its COMMIT puts them back (one).
     reads = [q["sql"] for q in captured if "set_config" not in q["sql"]]
     reads = [sql for sql in reads if not sql.startswith(("SAVEPOINT", "RELEASE SAVEPOINT"))]
-    assert len(reads) == 8, [sql[:50] for sql in reads]
+    assert len(reads) == 7, [sql[:50] for sql in reads]
     settings = len(captured) - len(reads)
-    assert settings == (6 if connection.vendor == "postgresql" else 0)
+    assert settings == (4 if connection.vendor == "postgresql" else 0)

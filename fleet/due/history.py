@@ -47,9 +47,10 @@ def thin_readings(points: list[tuple[int, float, bool]]) -> list[int]:
         if points[i][2]:
             keep.add(i)
     for indices in by_year.values():
-        keep.update((indices[0], indices[-1]))
-        keep.add(min(indices, key=lambda i: points[i][1]))
-        keep.add(max(indices, key=lambda i: points[i][1]))
+        values = [points[i][1] for i in indices]
+        # The first lowest and the first highest, as ``min`` and ``max`` give them.
+        lowest, highest = values.index(min(values)), values.index(max(values))
+        keep.update((indices[0], indices[-1], indices[lowest], indices[highest]))
     return sorted(keep)
 
 

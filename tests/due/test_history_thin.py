@@ -50,3 +50,13 @@ def test_the_chart_states_what_it_draws():
     assert note in svg
     plain = AnodeHistory("Anode 1", ((dt.date(2026, 1, 1), 80.0),), (), (), 40.0)
     assert "readings drawn" not in anode_chart_svg(plain, serial="TX-1", today=dt.date(2026, 2, 1))
+
+
+def test_of_equal_extremes_in_a_year_the_first_is_drawn():
+    # Level readings all year: its first and last stand for its lowest and highest too.
+    older = [(2020, 50.0, False)] * 50
+    newest = [(2021, 40.0, False)] * RECENT_READINGS
+    assert thin_readings(older + newest) == [0, 49, *range(50, 50 + RECENT_READINGS)]
+    # A lowest that comes twice: the first of the two.
+    dips = [(2020, 60.0, False), (2020, 30.0, False), (2020, 30.0, False), (2020, 60.0, False)]
+    assert thin_readings(dips + newest)[:3] == [0, 1, 3]

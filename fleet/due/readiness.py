@@ -854,20 +854,32 @@ def chunk_rows(
     ids: list[int],
 ) -> tuple[dict[int, dict[int, AnodeValues]], dict[int, dict[str, Dated]]]:
     """The anode state rows and the dated due rows of the units ``ids``, as plain values
-    (two queries; dates and date-times read as ``plain_columns`` reads them)."""
+    (two queries; dates and date-times read as ``plain_columns`` reads them).
+
+    Each query asks for the range from the lowest id to the highest, and the rows of units not
+    in ``ids`` (lost or retired ones between) are passed over here: a list of 2,000 ids
+    made each query 2,000 parameters that Django prepared one by one and psycopg split out
+    of the statement's text again every time (it keeps the split only of statements up to
+    4 KiB): 9 ms a query on a slow minute, for the split alone."""
+    if not ids:
+        return {}, {}
+    wanted = set(ids)
+    among = {"unit_id__gte": min(ids), "unit_id__lte": max(ids)}
     anodes: dict[int, dict[int, AnodeValues]] = {}
-    for unit_id, position_id, *values in AnodeState.objects.filter(unit_id__in=ids).values_list(
+    for unit_id, position_id, *values in AnodeState.objects.filter(**among).values_list(
         *plain_columns(AnodeState, ANODE_COLUMNS)
     ):
-        anodes.setdefault(unit_id, {})[position_id] = tuple(values)
+        if unit_id in wanted:
+            anodes.setdefault(unit_id, {})[position_id] = tuple(values)
     dated: dict[int, dict[str, Dated]] = {}
     # Unordered: the rows are looked up by key, and the model's default order cost SQLite a
     # sort of the chunk's rows (a sixth of this read, 2,000 units).
-    rows = DueRow.objects.filter(unit_id__in=ids, kind__in=DATED_KINDS).order_by()
+    rows = DueRow.objects.filter(**among, kind__in=DATED_KINDS).order_by()
     for unit_id, key, due_on, failed, basis in rows.values_list(
         *plain_columns(DueRow, ("unit_id", "key", "due_on", "failed", "basis"))
     ):
-        dated.setdefault(unit_id, {})[key] = Dated(due_on, failed, basis)
+        if unit_id in wanted:
+            dated.setdefault(unit_id, {})[key] = Dated(due_on, failed, basis)
     return anodes, dated
 
 

@@ -324,3 +324,27 @@ def test_the_planners_stored_rows_are_read_unsorted(unit, technician, site):
     assert dated[unit.pk], "the unit has dated due rows"
     assert len(captured) == 2
     assert not [q["sql"] for q in captured if "ORDER BY" in q["sql"]]
+
+
+def test_the_planners_stored_rows_are_read_by_range_and_only_the_chunks_units_kept(
+    variant, technician, site, workshop
+):
+    """Each chunk query asks for the range of ids (two parameters, whatever the chunk's
+    size); a unit in the range but not in the chunk (a lost one, say) is passed over."""
+    day = timezone.localdate() - dt.timedelta(days=3)
+    units = [
+        make_unit(serial=f"RG-{n}", acoustic_address=str(700 + n), variant=variant, place=workshop)
+        for n in range(3)
+    ]
+    for unit in units:
+        serviced_unit(unit, by=technician, site=site, day=day)
+    first, middle, last = (u.pk for u in units)
+    with CaptureQueriesContext(connection) as captured:
+        anodes, dated = chunk_rows([first, last])
+    assert set(anodes) == set(dated) == {first, last}
+    assert anodes[first] and dated[last]
+    assert len(captured) == 2
+    assert all('"unit_id" IN' not in q["sql"] and '"unit_id" >=' in q["sql"] for q in captured)
+    whole_anodes, whole_dated = chunk_rows([first, middle, last])
+    assert whole_anodes[first] == anodes[first] and whole_dated[last] == dated[last]
+    assert set(whole_anodes) == {first, middle, last}

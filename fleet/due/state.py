@@ -760,23 +760,22 @@ def _refresh_after_visit(
 
     The deployments are unchanged and all ended by the visit, so the deployment fields stay
     and the visit's immersed days are the closed total (the same float ``immersed_days_at_each``
-    gives: the same spans, added in the same order). Seal openings and the pressure test's
-    voiding are counted in SQL; the pack's tally reads only deployments since its day. The
-    rest goes through the same functions as ``derive``."""
+    gives: the same spans, added in the same order). A new visit's seals, tests, checks and
+    openings are the stored ones brought forward with the visit's own
+    (``_latest_after_new_visit``); a visit saved again is read against the unit's whole
+    history of them (``_latest_in_history``), counted in SQL. The pack's tally reads only
+    deployments and release tests since its day. The rest goes through the same functions
+    as ``derive``."""
     state = _appendable(unit, visit)
     if state is None or not _anodes_after_visit(
         unit, visit, new_visit=new_visit, x=state.immersed_days_closed
     ):
         return None
-    openings = HousingOpening.objects.filter(record__unit=unit)
-    counted: dict[dt.datetime, int] = {}
-
-    def openings_after(fitted: dt.datetime) -> int:
-        if fitted not in counted:
-            counted[fitted] = openings.filter(record__opened_at__gt=fitted).count()
-        return counted[fitted]
-
-    _write_seals(unit, _seal_rows(unit, _seal_changes([unit.pk]).get(unit.pk, []), openings_after))
+    latest = (_latest_after_new_visit(unit, visit, state) if new_visit else None) or (
+        _latest_in_history(unit)
+    )
+    seal_rows, values = latest
+    _write_seals(unit, seal_rows)
     pack = fitted_pack(unit)
     since_pack = (
         Deployment.objects.filter(unit=unit, recovered_at__gt=start_of(pack.installed_on))
@@ -785,14 +784,38 @@ def _refresh_after_visit(
     )
     recovered = [(d, d.recovered_at) for d in since_pack.order_by("over_side_at") if d.recovered_at]
     release_tests = ReleaseTest.objects.filter(record__unit=unit)
-    values: dict[str, object] = {"refreshed_at": at, "as_of": visit.opened_at, "pack": pack}
+    values |= {"refreshed_at": at, "as_of": visit.opened_at, "pack": pack}
     values["pack_charge_used_ah"], values["pack_releases"] = _pack_tally(
         unit,
         pack,
         recovered,
         release_tests.filter(tested_on__gte=pack.installed_on).count() if pack else 0,
     )
-    values["last_opening_at"] = openings.aggregate(last=Max("opened_at"))["last"]
+    for name, value in values.items():
+        setattr(state, name, value)
+    state.save(update_fields=[name.removesuffix("_id") for name in values])
+    return state
+
+
+# The unit's seal rows, and its state's fields for openings, tests and checks.
+_Latest = tuple[list[SealState], dict[str, object]]
+
+
+def _latest_in_history(unit: Transponder) -> _Latest:
+    """Steps 3 and 5 from the unit's whole history of seal changes, openings, tests and
+    checks (``derive``'s functions; openings counted in SQL)."""
+    openings = HousingOpening.objects.filter(record__unit=unit)
+    counted: dict[dt.datetime, int] = {}
+
+    def openings_after(fitted: dt.datetime) -> int:
+        if fitted not in counted:
+            counted[fitted] = openings.filter(record__opened_at__gt=fitted).count()
+        return counted[fitted]
+
+    seal_rows = _seal_rows(unit, _seal_changes([unit.pk]).get(unit.pk, []), openings_after)
+    values: dict[str, object] = {
+        "last_opening_at": openings.aggregate(last=Max("opened_at"))["last"]
+    }
     last_test: PressureRow | None = (
         PressureTest.objects.filter(record__unit=unit)
         .order_by(*_PRESSURE_ORDER)
@@ -801,16 +824,101 @@ def _refresh_after_visit(
     )
     values |= _tests_and_checks(
         last_test,
-        release_tests.order_by(*_RELEASE_ORDER).values_list("pk", flat=True).first(),
+        ReleaseTest.objects.filter(record__unit=unit)
+        .order_by(*_RELEASE_ORDER)
+        .values_list("pk", flat=True)
+        .first(),
         _checks([unit.pk]).get(unit.pk, []),
         lambda tested, visit_at: openings.filter(
             Q(opened_at__gt=tested) | Q(record__opened_at__gt=visit_at)
         ).exists(),
     )
-    for name, value in values.items():
-        setattr(state, name, value)
-    state.save(update_fields=[name.removesuffix("_id") for name in values])
-    return state
+    return seal_rows, values
+
+
+def _latest_after_new_visit(
+    unit: Transponder, visit: ServiceRecord, state: UnitState
+) -> _Latest | None:
+    """``_latest_in_history`` for a new visit after everything else the unit has, from the
+    stored rows and the visit's own entries: the same rows and fields (``derive``'s rules),
+    in a constant number of queries. None if the stored seal rows are not one per position
+    of the variant (they cannot serve as the base).
+
+    - A seal the visit changed was fitted at the visit's opening, with no opening after it
+      (no visit comes after this one; openings during the fitting visit came before the new
+      ring). Any other keeps its stored fitting, and the visit's openings add to its count
+      (the visit opened after the one that fitted it).
+    - The last opening is the later of the stored one and the visit's.
+    - The last pressure test, release test and check of each sensor: the latest, in the
+      order ``derive`` takes, of the stored one and the visit's (the stored one was the
+      latest of all before).
+    - A stored last test still last is voided if it was, or if the visit has an opening (the
+      visit opened after the test's). A test of the visit's own is checked against the
+      unit's openings as ``derive`` checks it."""
+    positions = list(unit.variant.seal_positions.all())
+    stored = {row.position_id: row for row in SealState.objects.filter(unit=unit)}
+    if sorted(stored) != sorted(p.pk for p in positions):
+        return None
+    visit_openings = list(
+        HousingOpening.objects.filter(record=visit).values_list("opened_at", flat=True)
+    )
+    changed: dict[int, tuple[dt.date | None, str]] = {}
+    for position_id, cure_date, material in (
+        SealChange.objects.filter(record=visit)
+        .order_by("pk")
+        .values_list("position_id", "cure_date", "material")
+    ):
+        changed[position_id] = (cure_date, material)
+    seal_rows = []
+    for position in positions:
+        row = SealState(unit=unit, position=position)
+        before = stored[position.pk]
+        if position.pk in changed:
+            row.cure_date, row.material = changed[position.pk]
+            row.fitted_at = visit.opened_at
+            row.openings_since_fit = 0
+        elif before.fitted_at is not None:
+            row.fitted_at, row.cure_date, row.material = (
+                before.fitted_at, before.cure_date, before.material,
+            )  # fmt: skip
+            row.openings_since_fit = before.openings_since_fit + len(visit_openings)
+        seal_rows.append(row)
+    last_opening = max(
+        [at for at in (state.last_opening_at, *visit_openings) if at is not None], default=None
+    )
+
+    def with_stored(pks: list[int | None]) -> Q:
+        return Q(record=visit) | Q(pk__in=[pk for pk in pks if pk is not None])
+
+    last_test: PressureRow | None = (
+        PressureTest.objects.filter(with_stored([state.last_pressure_test_id]))
+        .order_by(*_PRESSURE_ORDER)
+        .values_list("pk", "tested_on", "hold_ended_at", "record__opened_at")
+        .first()
+    )
+    openings = HousingOpening.objects.filter(record__unit=unit)
+
+    def voided_by(tested: dt.datetime, visit_at: dt.datetime) -> bool:
+        if last_test is not None and last_test[0] == state.last_pressure_test_id:
+            return state.test_voided_by_opening or bool(visit_openings)
+        return openings.filter(Q(opened_at__gt=tested) | Q(record__opened_at__gt=visit_at)).exists()
+
+    checks = [getattr(state, f"{name}_id") for name in _CHECK_NAMES]
+    values: dict[str, object] = {"last_opening_at": last_opening}
+    values |= _tests_and_checks(
+        last_test,
+        ReleaseTest.objects.filter(with_stored([state.last_release_test_id]))
+        .order_by(*_RELEASE_ORDER)
+        .values_list("pk", flat=True)
+        .first(),
+        list(
+            SensorCheck.objects.filter(with_stored(checks))
+            .order_by("checked_on", "pk")
+            .values_list("sensor", "pk")
+        ),
+        voided_by,
+    )
+    return seal_rows, values
 
 
 @transaction.atomic(savepoint=False)

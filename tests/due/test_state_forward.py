@@ -16,8 +16,11 @@ from fleet.due.store import rebuild_all
 from fleet.models import (
     AnodeReading,
     AnodeState,
+    HousingOpening,
+    ReleaseTest,
     SealChange,
     SealState,
+    SensorCheck,
     ServiceRecord,
     UnitState,
 )
@@ -51,19 +54,56 @@ def _rebuilt() -> dict[tuple[object, ...], dict[str, object]]:
     return rebuilt
 
 
-def _entries(variant, day: dt.date, kind: str, mass: float, bond: float | None) -> list:
+KINDS = ["anode", "replace", "seal", "pack", "test", "release", "check", "opening",
+         "test+opening", "late test", "late check", "everything"]  # fmt: skip
+
+
+def _entries(variant, when: dt.datetime, kind: str, mass: float, bond: float | None) -> list:
+    """A visit's entries: two readings, and what ``kind`` names. "late": dated 40 days
+    before the visit, so older than tests or checks already stored; "everything": a seal, a
+    pressure and a release test, two sensor checks and an opening after the test's hold."""
+    day = when.date()
     anodes = list(variant.anode_positions.all())
     reading = AnodeReading(position=anodes[0], mass_g=mass, bond_resistance_ohm=bond)
     reading.replaced = kind == "replace"
     entries: list = [reading, AnodeReading(position=anodes[-1], remaining_percent=mass / 5)]
-    if kind == "seal":
+    late = day - dt.timedelta(days=40)
+    if kind in ("seal", "everything"):
         seal = variant.seal_positions.first()
-        entries.append(SealChange(position=seal, material="NBR", cure_date=day, reason="wear"))
-    elif kind == "pack":
+        entries.append(SealChange(position=seal, material="NBR", cure_date=day, reason="interval"))
+    if kind == "pack":
         entries.append(_pack(day, f"PK-{day.isoformat()}"))
-    elif kind == "test":
-        entries.append(pressure_test(day))
+    if kind in ("test", "test+opening", "everything"):
+        entries.append(pressure_test(day, hold_ended_at=dt.time(0, 30)))
+    if kind == "late test":
+        entries.append(pressure_test(late))
+    if kind in ("release", "everything"):
+        entries.append(_release(day))
+    if kind in ("check", "everything"):
+        entries += [_check(day, "temperature"), _check(day, "pressure")]
+    if kind == "late check":
+        entries.append(_check(late, "pressure"))
+    if kind in ("opening", "test+opening", "everything"):
+        opened = when + dt.timedelta(hours=1)
+        entries.append(
+            HousingOpening(opened_at=opened, closed_at=opened + dt.timedelta(hours=1), reason="o")
+        )
     return entries
+
+
+def _release(day: dt.date) -> ReleaseTest:
+    return ReleaseTest(
+        tested_on=day, kind="load", load_kg=200, seconds_to_release=5, motor_current_a=1.1,
+        limit_switch_ok=True, acoustic_command_ok=True,
+    )  # fmt: skip
+
+
+def _check(day: dt.date, sensor: str) -> SensorCheck:
+    extra = {"raw_resistance_ohm": 103.903} if sensor == "temperature" else {}
+    reference = 10.0 if sensor == "temperature" else 1000.0
+    return SensorCheck(
+        checked_on=day, sensor=sensor, reference_value=reference, unit_reading=reference, **extra
+    )
 
 
 def _write_visit(unit, technician, when: dt.datetime, op: tuple) -> None:
@@ -72,7 +112,7 @@ def _write_visit(unit, technician, when: dt.datetime, op: tuple) -> None:
     _, _, kind, mass, bond, edit = op
     record = service_record_save(
         record=_record(unit, technician, when),
-        entries=_entries(unit.variant, when.date(), kind, mass, bond),
+        entries=_entries(unit.variant, when, kind, mass, bond),
         by=technician,
     )
     if edit:
@@ -95,7 +135,7 @@ def sequences(draw):
     for _ in range(draw(st.integers(2, 6))):
         if draw(st.booleans()):
             ops.append(("deploy", draw(st.integers(2, 40))))
-        kind = draw(st.sampled_from(["anode", "replace", "seal", "pack", "test"]))
+        kind = draw(st.sampled_from(KINDS))
         mass = draw(st.floats(120.0, 400.0))
         bond = draw(st.one_of(st.none(), st.floats(0.0, 0.5)))
         back = draw(st.none() | st.integers(1, 200)) if draw(st.booleans()) else None
@@ -154,3 +194,41 @@ def test_a_save_at_the_end_of_the_history_does_not_derive_the_whole_history(
     _write_visit(unit, technician, t(2024, 3, 3), ("visit", None, "anode", 380.0, None, False))
     assert whole
     assert _exact() == _rebuilt()
+
+
+def test_a_new_visit_brings_seals_tests_checks_and_openings_forward_from_the_stored_rows(
+    variant, site, technician, workshop, monkeypatch
+):
+    """Each new visit below is brought forward from the stored rows and its own entries, not
+    read against the unit's history of seals, tests, checks and openings; and each leaves
+    exactly the rebuilt state: a seal's openings counted on, a stored test voided by a later
+    opening, tests and checks dated before the stored ones, a test of the visit's own."""
+    unit = make_unit(serial="FW-0003", acoustic_address="503", variant=variant, place=workshop)
+    from_history = []
+    original = state_module._latest_in_history
+    monkeypatch.setattr(
+        state_module,
+        "_latest_in_history",
+        lambda unit: from_history.append(1) or original(unit),
+    )
+    seal = variant.seal_positions.first()
+    day = t(2024, 1, 2)
+    kinds = ["everything", "opening", "opening", "late test", "late check", "test", "check",
+             "seal", "release", "test+opening", "anode"]  # fmt: skip
+    for n, kind in enumerate(kinds):
+        _write_visit(unit, technician, day, ("visit", None, kind, 300.0 - n, None, False))
+        assert _exact() == _rebuilt(), kind
+        day += dt.timedelta(days=7)
+        if kind in ("late test", "late check"):  # older than the first visit's: still that one
+            first_day = t(2024, 1, 2).date()
+            state = UnitState.objects.get(unit=unit)
+            assert state.last_pressure_test.tested_on == first_day
+            assert state.last_pressure_check.checked_on == first_day
+        if kind == "opening" and n == 2:
+            assert SealState.objects.get(unit=unit, position=seal).openings_since_fit == 2
+            assert UnitState.objects.get(unit=unit).test_voided_by_opening
+    assert from_history == []
+    state = UnitState.objects.get(unit=unit)
+    assert state.last_pressure_test.tested_on == (day - dt.timedelta(days=14)).date()
+    # Its own visit's opening came after its hold ended (the hold ended at 00:30).
+    assert state.test_voided_by_opening is True

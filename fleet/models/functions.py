@@ -108,7 +108,8 @@ class Day(AsStored):
     driver and Django would each convert it); on PostgreSQL the driver's date."""
 
     def get_db_converters(self, connection: Any) -> list[Any]:
-        return [_day]
+        # None on PostgreSQL: a call per value that would hand the driver's date back.
+        return [_day] if connection.vendor == "sqlite" else []
 
 
 def _day(value: Any, expression: Any, connection: Any) -> Any:

@@ -54,3 +54,14 @@ def test_a_missing_value_stays_missing(unit):
         list(units.values_list(*plain_columns(Transponder, UNIT_COLUMNS))),
         list(units.values_list(*UNIT_COLUMNS)),
     )
+
+
+def test_a_date_is_converted_only_where_the_driver_gives_text():
+    """SQLite gives a date as text, parsed once; PostgreSQL's driver gives the date itself,
+    so no call per value is made there."""
+    from django.db import connection
+
+    from fleet.models.functions import Day, _day
+
+    converters = Day("due_on").get_db_converters(connection)
+    assert converters == ([_day] if connection.vendor == "sqlite" else [])

@@ -19,7 +19,9 @@ Not ``join_collapse_limit`` for all of them: held at 1 it cut the planning of th
 with its nine joined rows (7 ms to 1.5 ms on a slow minute), but it also froze the join
 order of the unit page's newest reading per position, whose ``IN (subquery)`` then came
 last: every reading of the fleet was joined first, 2.5 s. It is set around the wide reads
-alone (``written_join_order``).
+(``written_join_order``), or for a whole page or refresh whose other reads join two tables
+at most, of which PostgreSQL still chooses the one to drive (``UNIT_WRITE_READS``,
+``reading_one_unit_in_written_order``).
 
 All are set with ``set_config(…, true)``, that is ``SET LOCAL``: only inside the current
 transaction, and put back when the block ends, by a statement, or, if the transaction can

@@ -1121,13 +1121,19 @@ def _clash(shore: Span, vessel: Span) -> str:
 
 
 def _held_uids(kit: Kit) -> set[str]:
-    """Vessel rows kept in a conflict an earlier merge of this kit recorded."""
+    """Vessel rows kept in a conflict an earlier merge of this kit recorded: its rows, and
+    the rows a change kept with them carries (a hold change's, kept because the unit's other
+    vessel work could not be written). Those are not planned again by a later return file:
+    they wait for the conflict's resolution, as the rows beside them do."""
     held: set[str] = set()
     for vessel in KitConflict.objects.filter(merge__kit=kit).values_list(
         "vessel_version", flat=True
     ):
         for row in vessel or []:
             held.add(str(row.get("uid")))
+            payload = row.get("payload")
+            if isinstance(payload, dict):
+                held.update(str(inner.get("uid")) for inner in payload.get("rows") or [])
     return held
 
 

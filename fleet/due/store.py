@@ -96,6 +96,11 @@ def _rows_of(unit: Transponder, *, on: dt.date, rules_cache: dict[int, Rules]) -
     ]
 
 
+# Units read at a time by ``derived_rows`` (its queries repeat per chunk; its memory is a
+# chunk's).
+DERIVE_CHUNK = 500
+
+
 def derived_rows(unit_ids: list[int] | None = None) -> Iterator[DueRow]:
     """The due rows the engine derives now from the stored state, unsaved."""
     units = (
@@ -105,7 +110,9 @@ def derived_rows(unit_ids: list[int] | None = None) -> Iterator[DueRow]:
     )
     cache: dict[int, Rules] = {}
     today = timezone.localdate()
-    for unit in fleet_queryset(units.order_by("pk"), share_variants=True).iterator(chunk_size=500):
+    for unit in fleet_queryset(units.order_by("pk"), share_variants=True).iterator(
+        chunk_size=DERIVE_CHUNK
+    ):
         yield from _rows_of(unit, on=today, rules_cache=cache)
 
 

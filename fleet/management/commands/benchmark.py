@@ -565,6 +565,12 @@ class _Fleet:
     @transaction.atomic
     def build(self, n_units: int, years: int, sizes: list[int]) -> None:
         self._reference()
+        self.grow(0, n_units, years, sizes)
+
+    @transaction.atomic
+    def grow(self, first: int, n_units: int, years: int, sizes: list[int]) -> None:
+        """``n_units`` more units numbered from ``first`` (and one per size of history),
+        each with ``years`` of history, onto the reference rows ``build`` made."""
         units = Transponder.objects.bulk_create(
             Transponder(
                 serial=f"B-{i:06d}",
@@ -573,7 +579,7 @@ class _Fleet:
                 acoustic_address=str(i % 4000),
                 turnaround_delay_ms=12.5,
             )
-            for i in range(n_units)
+            for i in range(first, first + n_units)
         )
         sized = Transponder.objects.bulk_create(
             Transponder(

@@ -88,3 +88,48 @@ def test_the_fleet_builders_plain_rows_take_a_fresh_default_per_row_where_it_is_
     tokens = set(CalendarFeed.objects.values_list("token", flat=True))
     assert len(tokens) == 3
     assert CalendarFeed.objects.filter(created_at__isnull=False).count() == 3
+
+
+def test_a_ratio_goal_reads_the_rounds_own_ratios_not_the_ratio_of_two_medians():
+    from fleet.management.commands.benchmark import Timing
+
+    def timing(*ms: float, queries: int = 10) -> Timing:
+        return Timing(seconds=[m / 1000 for m in ms], queries=queries)
+
+    # The machine sped up for the last rounds: the page's queries took 1.2x the SQL read in
+    # every round, but the medians taken apart give 62 / 41 = 1.51x.
+    queries = timing(62, 62, 62, 50, 50)
+    sql_read = timing(52, 52, 41, 41, 41)
+    sized = {f"{kind} @{n}": timing(20) for kind in ("save", "unit page", "anode chart")
+             for n in (10, 5000)}  # fmt: skip
+    timings = {
+        "overview": timing(150, 150, 150, 150, 150),
+        "overview queries": queries,
+        "overview SQL read": sql_read,
+        "planner": timing(500),
+        "planner SQL read": timing(300),
+        "readiness page": timing(20),
+        "checklist PDF": timing(50),
+        **sized,
+    }
+    other = dict.fromkeys(
+        (
+            "fleet build s", "planner peak MiB", "rebuild_state s", "rebuild_state --check s",
+            "fleet evaluation peak MiB", "import s", "import peak MiB", "photo JPEG peak MiB",
+            "photo PNG peak MiB",
+        ),
+        1.0,
+    )  # fmt: skip
+    goal = "overview queries within 1.5x of a SQL read of its rows and totals"
+    met, detail = _goals_of(timings, other)[goal]
+    # Rounds: 62/52, 62/52, 62/41, 50/41, 50/41 -> 1.19, 1.19, 1.51, 1.22, 1.22: median 1.22.
+    assert met and detail.startswith("1.22x")
+    sql_read.seconds = [0.030] * 5
+    met, detail = _goals_of(timings, other)[goal]
+    assert not met and detail.startswith("2.07x")
+
+
+def _goals_of(timings, other):
+    from fleet.management.commands.benchmark import _goals
+
+    return {name: (met, detail) for name, met, detail in _goals(timings, other, [10, 5000])}

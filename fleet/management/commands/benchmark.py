@@ -340,7 +340,12 @@ def _goals(
         return timings[name].median * 1000
 
     def ratio(name: str, base: str) -> float:
-        return timings[name].median / timings[base].median
+        """The median of the rounds' own ratios: each round times both scenarios within the
+        same second or so (interleaved), so a machine that speeds up or slows down between
+        rounds (seen here: one scenario's median 41 ms in one run, 53 ms in the next) moves
+        both sides of a round's ratio alike, not the ratio of two medians."""
+        a, b = timings[name].seconds, timings[base].seconds
+        return statistics.median(x / y for x, y in zip(a, b, strict=True))
 
     def under(name: str, bound: float, unit: str) -> tuple[str, bool, str]:
         return (f"{name} under {bound:g} {unit}", other[name] < bound, f"{other[name]:.1f}")

@@ -340,10 +340,10 @@ def _goals(
         return timings[name].median * 1000
 
     def ratio(name: str, base: str) -> float:
-        """The median of the rounds' own ratios: each round times both scenarios within the
-        same second or so (interleaved), so a machine that speeds up or slows down between
-        rounds (seen here: one scenario's median 41 ms in one run, 53 ms in the next) moves
-        both sides of a round's ratio alike, not the ratio of two medians."""
+        """The median of the rounds' own ratios, not the ratio of two medians: each round
+        times both scenarios within a second or so (interleaved), so a machine that speeds
+        up or slows down between rounds moves both sides of that round's ratio alike (seen
+        here: one scenario's median 41 ms in one run, 53 ms in the next)."""
         a, b = timings[name].seconds, timings[base].seconds
         return statistics.median(x / y for x, y in zip(a, b, strict=True))
 
@@ -596,7 +596,7 @@ class _Fleet:
             )
             for i, size in enumerate(sizes)
         )
-        self.sized = dict(zip(sizes, sized, strict=True))
+        self.sized.update(zip(sizes, sized, strict=True))
         span = dt.timedelta(days=365 * years)
         plan = [(u, max(1, round(365 * years / 55))) for u in units]
         plan += [
